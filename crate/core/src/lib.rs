@@ -1,0 +1,3 @@
+//! critbox core.
+pub mod rng;
+pub mod stats;

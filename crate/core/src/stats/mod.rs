@@ -1,0 +1,1 @@
+//! Statistics (placeholder until written).
