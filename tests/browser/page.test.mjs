@@ -1,0 +1,161 @@
+// End-to-end tests of the page in headless Chromium: a person's path from
+// preset to finished run, and the checks that stop a bad config.
+// Run: cd tests/browser && npm ci && npm test (needs web/pkg built).
+
+import { test, before, after } from 'node:test';
+import assert from 'node:assert/strict';
+import { readFile } from 'node:fs/promises';
+import path from 'node:path';
+import { setUp, openPage, trainButtonAx, countColourInPlot, outDir, repoRoot } from './helpers.mjs';
+
+const ROOT = process.env.CRITBOX_ROOT || repoRoot;
+const ROVER = 'rover-a2c-vs-qac.json';
+let env;
+
+before(async () => { env = await setUp(); });
+after(async () => { await env?.close(); });
+
+async function preset(file) {
+  return JSON.parse(await readFile(path.join(ROOT, 'web', 'presets', file), 'utf8'));
+}
+
+async function waitForRunEnd(page, timeout = 180000) {
+  await page.waitForFunction(() => {
+    const r = window.__critbox.state.run;
+    return r && (r.status === 'done' || r.status === 'cancelled');
+  }, null, { timeout, polling: 200 });
+}
+
+test('rover preset: train 3 seeds × 3000 steps, curves drawn, summary filled', async () => {
+  const cfg = await preset(ROVER);
+  const { page, context, problems, requests } = await openPage(env);
+
+  // The rover preset is the one loaded first; the form shows its settings.
+  assert.equal(await page.inputValue('#preset'), ROVER);
+  assert.equal(await page.inputValue('#title'), cfg.title);
+  assert.equal(await page.locator('#variants > li').count(), cfg.variants.length);
+
+  await page.fill('#seeds', '3');
+  await page.fill('#steps', '3000');
+  await page.waitForFunction(() => !document.getElementById('train').disabled);
+  const reason = await page.textContent('#run-reason');
+  assert.match(reason, new RegExp(`${cfg.variants.length * 3} jobs`), reason);
+
+  await page.click('#train');
+  // While it runs, the run button is off and pause/cancel are on.
+  await page.waitForFunction(() => document.getElementById('train').disabled && !document.getElementById('cancel').disabled);
+  await waitForRunEnd(page);
+  const status = await page.evaluate(() => window.__critbox.state.run.status);
+  assert.equal(status, 'done');
+
+  assert.equal(await page.getAttribute('#progress', 'value'), '100');
+  assert.equal((await page.textContent('#percent')).trim(), '100%');
+  assert.equal(await page.isDisabled('#train'), false, 'Train is usable again after the run');
+
+  // Summary table: one row per variant, in order, with a number for the mean
+  // and all three seeds counted.
+  const rows = page.locator('#summary-body tr');
+  assert.equal(await rows.count(), cfg.variants.length);
+  for (let i = 0; i < cfg.variants.length; i++) {
+    const cells = await rows.nth(i).locator('td').allTextContents();
+    assert.equal(cells[0].trim(), cfg.variants[i].label);
+    assert.match(cells[1], /^-?\d+(\.\d+)?$/, `mean of ${cfg.variants[i].label}: ${cells[1]}`);
+    assert.match(cells[3], /^\d of 3$/);
+    assert.ok(Number(cells[4]) > 0, `episodes of ${cfg.variants[i].label}: ${cells[4]}`);
+  }
+
+  // The curve: wait for the frame after the run ended, then look for the
+  // first variant's colour inside the plot area.
+  await page.evaluate(() => new Promise((r) => requestAnimationFrame(() => requestAnimationFrame(r))));
+  const drawn = await page.evaluate(() => window.__critbox.lastDraw);
+  assert.equal(drawn.series.length, cfg.variants.length);
+  for (const s of drawn.series) assert.ok(s.points >= 2, `${s.label}: ${s.points} curve points drawn`);
+  const colour = drawn.series[0].colour;
+  assert.match(colour, /^#[0-9a-f]{6}$/i);
+  const hits = await countColourInPlot(page, colour);
+  assert.ok(hits > 100, `only ${hits} pixels of ${colour} in the plot area`);
+
+  await page.evaluate(() => { document.getElementById('experiment').scrollTop = 0; });
+  await page.screenshot({ path: path.join(outDir, 'rover-trained-light.png') });
+
+  // Same page in the dark scheme: the chart background follows it.
+  await page.emulateMedia({ colorScheme: 'dark' });
+  await page.evaluate(() => new Promise((r) => requestAnimationFrame(() => requestAnimationFrame(r))));
+  const corner = await page.evaluate(() => Array.from(document.getElementById('curves').getContext('2d').getImageData(2, 2, 1, 1).data));
+  assert.ok(corner[0] + corner[1] + corner[2] < 3 * 80, `dark chart background expected, got rgb(${corner.slice(0, 3)})`);
+  await page.screenshot({ path: path.join(outDir, 'rover-trained-dark.png') });
+
+  // Only the page's own files were asked for.
+  const foreign = requests.filter((u) => !u.startsWith(env.server.url) && !u.startsWith('data:') && !u.startsWith('blob:'));
+  assert.deepEqual(foreign, []);
+  assert.deepEqual(problems, []);
+  assert.equal(await page.locator('#messages .msg').count(), 0);
+  await context.close();
+});
+
+test('invalid input: the message names the field and the run button is disabled with that reason', async () => {
+  const { page, context, problems } = await openPage(env);
+  await page.waitForFunction(() => !document.getElementById('train').disabled);
+
+  // A negative actor step size.
+  await page.fill('#actor-step', '-1');
+  await page.waitForFunction(() => document.getElementById('train').disabled);
+  const reason = (await page.textContent('#run-reason')).trim();
+  assert.match(reason, /actor_step/, reason);
+  assert.match(reason, /-1/, reason);
+  assert.equal(await page.getAttribute('#actor-step', 'aria-invalid'), 'true');
+  const ax = await trainButtonAx(page);
+  assert.ok(ax, 'Train button in the accessibility tree');
+  assert.equal(ax.disabled, true);
+  assert.equal(ax.description.trim(), reason);
+  await page.screenshot({ path: path.join(outDir, 'invalid-actor-step.png') });
+
+  // Fixed again: the button comes back.
+  await page.fill('#actor-step', '0.1');
+  await page.waitForFunction(() => !document.getElementById('train').disabled);
+  assert.equal(await page.getAttribute('#actor-step', 'aria-invalid'), null);
+
+  // A map with no dock.
+  await page.fill('#map', '#####\n#S..#\n#####');
+  await page.waitForFunction(() => document.getElementById('train').disabled);
+  const mapReason = (await page.textContent('#run-reason')).trim();
+  assert.match(mapReason, /task\.map/, mapReason);
+  assert.equal(await page.getAttribute('#map', 'aria-invalid'), 'true');
+  assert.equal((await trainButtonAx(page)).description.trim(), mapReason);
+  await page.screenshot({ path: path.join(outDir, 'invalid-map.png') });
+
+  // A blank required field is caught by the form itself.
+  await page.fill('#map', '#####\n#S.D#\n#####');
+  await page.fill('#seeds', '');
+  await page.waitForFunction(() => /seeds/.test(document.getElementById('run-reason').textContent));
+  assert.equal(await page.isDisabled('#train'), true);
+
+  assert.deepEqual(problems, []);
+  await context.close();
+});
+
+test('a worker that fails shows a message and the page keeps working', async () => {
+  // The worker script is replaced by one that throws on load.
+  const { page, context } = await openPage(env, {
+    before: async (_page, ctx) => {
+      await ctx.route('**/js/worker.js', (route) => route.fulfill({
+        contentType: 'text/javascript',
+        body: 'throw new Error("worker could not start (test)");',
+      }));
+    },
+  });
+  await page.fill('#seeds', '2');
+  await page.fill('#steps', '1000');
+  await page.waitForFunction(() => !document.getElementById('train').disabled);
+  await page.click('#train');
+  await waitForRunEnd(page, 30000);
+  const messages = await page.locator('#messages .msg p').allTextContents();
+  assert.ok(messages.length >= 1, 'an error message is shown');
+  assert.ok(messages.some((m) => /worker/i.test(m)), messages.join('\n'));
+  // Every job is counted as failed, the run ends, and Train works again.
+  const failures = await page.locator('#summary-body td.fail').count();
+  assert.ok(failures >= 1, 'the summary lists the failed jobs');
+  assert.equal(await page.isDisabled('#train'), false);
+  await page.screenshot({ path: path.join(outDir, 'worker-error.png') });
+  await context.close();
+});

@@ -1,0 +1,273 @@
+// Learning-curve drawing. drawCurves(ctx, data, options) is a pure function of
+// its arguments: it keeps no state between calls and returns the layout it
+// used (so a caller or a test can find the plot area). Each variant gets a
+// colour and a dash pattern (second cue for readers who cannot tell the
+// colours apart): a mean line and a translucent 95% band.
+
+/** Dash patterns, one per variant in order (CSS px); the first is solid. */
+export const DASHES = [[], [9, 4], [2, 3], [11, 3, 2, 3], [5, 5], [14, 3, 2, 3, 2, 3]];
+
+/** Fallback palette if the page's CSS gives none (light theme values). Our
+ * own choice: blue/orange first, the pair that stays apart for the common
+ * colour-vision deficiencies, then teal, magenta, ochre, grey. */
+export const PALETTE = ['#2f5fb3', '#cf6d12', '#16866a', '#ad3c84', '#806600', '#555a60'];
+
+/** Curve record stride (contract): binEndStep, mean, lo95, hi95, nSeedsWithData. */
+export const CURVE_STRIDE = 5;
+
+export function seriesStyle(i, palette = PALETTE) {
+  return { colour: palette[i % palette.length], dash: DASHES[i % DASHES.length] };
+}
+
+/** Size a canvas to css px × devicePixelRatio; returns true when it changed. */
+export function sizeCanvas(canvas, cssWidth, cssHeight, dpr) {
+  const w = Math.max(1, Math.round(cssWidth * dpr));
+  const h = Math.max(1, Math.round(cssHeight * dpr));
+  canvas.style.width = `${cssWidth}px`;
+  canvas.style.height = `${cssHeight}px`;
+  if (canvas.width === w && canvas.height === h) return false;
+  canvas.width = w;
+  canvas.height = h;
+  return true;
+}
+
+/** About `target` round tick values (1, 2, 5 × 10^k) covering [min, max]. */
+export function niceTicks(min, max, target = 5) {
+  if (!(Number.isFinite(min) && Number.isFinite(max)) || max <= min) return { step: 1, ticks: [min] };
+  const raw = (max - min) / Math.max(1, target);
+  const mag = 10 ** Math.floor(Math.log10(raw));
+  const norm = raw / mag;
+  const step = (norm < 1.5 ? 1 : norm < 3.5 ? 2 : norm < 7.5 ? 5 : 10) * mag;
+  const ticks = [];
+  const first = Math.ceil(min / step - 1e-9) * step;
+  for (let t = first; t <= max + step * 1e-9; t += step) ticks.push(Math.abs(t) < step * 1e-9 ? 0 : t);
+  return { step, ticks };
+}
+
+/** Environment-step labels: 500, 2k, 12.5k, 1.2M. */
+export function formatSteps(v) {
+  const a = Math.abs(v);
+  if (a >= 1e6) return `${trim(v / 1e6)}M`;
+  if (a >= 1e3) return `${trim(v / 1e3)}k`;
+  return trim(v);
+}
+
+/** A value label with as many decimals as the tick step needs. */
+export function formatValue(v, step) {
+  const decimals = step >= 1 ? 0 : Math.min(6, Math.ceil(-Math.log10(step) - 1e-9));
+  return v.toFixed(decimals).replace(/^-(0\.?0*)$/, '$1');
+}
+
+function trim(v) {
+  return Number(v.toFixed(2)).toString();
+}
+
+/** Contiguous index runs where pred(i) holds. */
+function runsWhere(n, pred) {
+  const runs = [];
+  let start = -1;
+  for (let i = 0; i < n; i++) {
+    if (pred(i)) { if (start < 0) start = i; } else if (start >= 0) { runs.push([start, i - 1]); start = -1; }
+  }
+  if (start >= 0) runs.push([start, n - 1]);
+  return runs;
+}
+
+/**
+ * Draw learning curves.
+ * @param {CanvasRenderingContext2D} ctx  canvas already sized to width*dpr × height*dpr
+ * @param {object} data
+ *   variants: [{label: string, curve: Float64Array (stride 5, see CURVE_STRIDE)}]
+ *   xMax:     the step budget (x runs from 0 to xMax)
+ *   note:     text shown in the plot when no variant has data (optional)
+ * @param {object} options
+ *   width, height (CSS px), dpr,
+ *   colours: {background, ink, muted, grid}, palette: [css colours], font: css font family,
+ *   xLabel, yLabel (optional axis titles)
+ * @returns {{plot:{x,y,w,h}, x:[number,number], y:[number,number], series:Array}}
+ *   layout in CSS px; series[i] = {label, colour, dash, points (finite means drawn)}
+ */
+export function drawCurves(ctx, data, options) {
+  const { width, height, dpr = 1 } = options;
+  const colours = { background: '#fff', ink: '#222', muted: '#666', grid: '#ddd', ...options.colours };
+  const palette = options.palette && options.palette.length ? options.palette : PALETTE;
+  const family = options.font || 'sans-serif';
+  const xLabel = options.xLabel ?? 'environment steps';
+  const yLabel = options.yLabel ?? 'return (mean and 95% interval over seeds)';
+  const variants = data.variants || [];
+
+  ctx.save();
+  ctx.setTransform(dpr, 0, 0, dpr, 0, 0);
+  ctx.fillStyle = colours.background;
+  ctx.fillRect(0, 0, width, height);
+
+  // ---- data ranges
+  const xMax = data.xMax > 0 ? data.xMax : 1;
+  let yMin = Infinity;
+  let yMax = -Infinity;
+  for (const v of variants) {
+    const c = v.curve || [];
+    for (let i = 0; i + CURVE_STRIDE <= c.length; i += CURVE_STRIDE) {
+      for (const k of [1, 2, 3]) {
+        const y = c[i + k];
+        if (Number.isFinite(y)) { if (y < yMin) yMin = y; if (y > yMax) yMax = y; }
+      }
+    }
+  }
+  const hasData = yMin <= yMax;
+  if (!hasData) { yMin = -1; yMax = 1; }
+  if (yMax - yMin < 1e-9) { const pad = Math.max(1, Math.abs(yMax) * 0.1); yMin -= pad; yMax += pad; }
+  const yPad = (yMax - yMin) * 0.04;
+  const yTicks0 = niceTicks(yMin - yPad, yMax + yPad, Math.max(3, Math.round(height / 70)));
+  const yLo = Math.min(yMin - yPad, Math.floor((yMin - yPad) / yTicks0.step) * yTicks0.step);
+  const yHi = Math.max(yMax + yPad, Math.ceil((yMax + yPad) / yTicks0.step) * yTicks0.step);
+  const yTicks = niceTicks(yLo, yHi, Math.max(3, Math.round(height / 70)));
+
+  // ---- layout: legend on top, y labels left, x labels below
+  ctx.font = `12px ${family}`;
+  const sample = 30;
+  const gap = 18;
+  const rows = [[]];
+  let rowWidth = 0;
+  const legendMax = width - 24;
+  variants.forEach((v, i) => {
+    const w = sample + 6 + ctx.measureText(v.label).width;
+    if (rowWidth > 0 && rowWidth + gap + w > legendMax) { rows.push([]); rowWidth = 0; }
+    rows[rows.length - 1].push({ i, w });
+    rowWidth += (rowWidth > 0 ? gap : 0) + w;
+  });
+  const legendH = variants.length ? rows.length * 18 + 8 : 0;
+  const yLabelsW = Math.max(...yTicks.ticks.map((t) => ctx.measureText(formatValue(t, yTicks.step)).width), 10);
+  const plot = { x: 12 + 16 + yLabelsW + 6, y: 10 + legendH, w: 0, h: 0 };
+  plot.w = Math.max(10, width - plot.x - 18);
+  plot.h = Math.max(10, height - plot.y - 44);
+  const sx = (x) => plot.x + (x / xMax) * plot.w;
+  const sy = (y) => plot.y + plot.h - ((y - yLo) / (yHi - yLo)) * plot.h;
+
+  // ---- grid and ticks
+  const xTicks = niceTicks(0, xMax, Math.max(3, Math.round(plot.w / 110)));
+  ctx.lineWidth = 1;
+  ctx.strokeStyle = colours.grid;
+  ctx.beginPath();
+  for (const t of yTicks.ticks) { const y = Math.round(sy(t)) + 0.5; ctx.moveTo(plot.x, y); ctx.lineTo(plot.x + plot.w, y); }
+  for (const t of xTicks.ticks) { const x = Math.round(sx(t)) + 0.5; ctx.moveTo(x, plot.y); ctx.lineTo(x, plot.y + plot.h); }
+  ctx.stroke();
+
+  ctx.fillStyle = colours.muted;
+  ctx.textAlign = 'right';
+  ctx.textBaseline = 'middle';
+  for (const t of yTicks.ticks) ctx.fillText(formatValue(t, yTicks.step), plot.x - 6, sy(t));
+  ctx.textAlign = 'center';
+  ctx.textBaseline = 'top';
+  for (const t of xTicks.ticks) ctx.fillText(formatSteps(t), sx(t), plot.y + plot.h + 6);
+
+  // ---- bands, then lines, clipped to the plot
+  const series = variants.map((v, i) => ({ label: v.label, ...seriesStyle(i, palette), points: 0 }));
+  ctx.save();
+  ctx.beginPath();
+  ctx.rect(plot.x, plot.y, plot.w, plot.h);
+  ctx.clip();
+  variants.forEach((v, i) => {
+    const c = v.curve || [];
+    const n = Math.floor(c.length / CURVE_STRIDE);
+    const at = (k, f) => c[k * CURVE_STRIDE + f];
+    ctx.fillStyle = series[i].colour;
+    ctx.globalAlpha = 0.17;
+    for (const [a, b] of runsWhere(n, (k) => Number.isFinite(at(k, 2)) && Number.isFinite(at(k, 3)))) {
+      if (a === b) continue;
+      ctx.beginPath();
+      for (let k = a; k <= b; k++) ctx.lineTo(sx(at(k, 0)), sy(at(k, 3)));
+      for (let k = b; k >= a; k--) ctx.lineTo(sx(at(k, 0)), sy(at(k, 2)));
+      ctx.closePath();
+      ctx.fill();
+    }
+    ctx.globalAlpha = 1;
+  });
+  variants.forEach((v, i) => {
+    const c = v.curve || [];
+    const n = Math.floor(c.length / CURVE_STRIDE);
+    const at = (k, f) => c[k * CURVE_STRIDE + f];
+    ctx.strokeStyle = series[i].colour;
+    ctx.fillStyle = series[i].colour;
+    ctx.lineWidth = 2;
+    ctx.lineJoin = 'round';
+    ctx.setLineDash(series[i].dash);
+    for (const [a, b] of runsWhere(n, (k) => Number.isFinite(at(k, 1)) && Number.isFinite(at(k, 0)))) {
+      series[i].points += b - a + 1;
+      if (a === b) {
+        ctx.beginPath();
+        ctx.arc(sx(at(a, 0)), sy(at(a, 1)), 2.5, 0, 2 * Math.PI);
+        ctx.fill();
+        continue;
+      }
+      ctx.beginPath();
+      for (let k = a; k <= b; k++) ctx.lineTo(sx(at(k, 0)), sy(at(k, 1)));
+      ctx.stroke();
+    }
+    ctx.setLineDash([]);
+  });
+  ctx.restore();
+
+  // ---- frame, axis titles, note
+  ctx.strokeStyle = colours.muted;
+  ctx.lineWidth = 1;
+  ctx.beginPath();
+  ctx.moveTo(plot.x + 0.5, plot.y);
+  ctx.lineTo(plot.x + 0.5, plot.y + plot.h + 0.5);
+  ctx.lineTo(plot.x + plot.w, plot.y + plot.h + 0.5);
+  ctx.stroke();
+
+  ctx.fillStyle = colours.muted;
+  ctx.textAlign = 'center';
+  ctx.textBaseline = 'bottom';
+  ctx.fillText(xLabel, plot.x + plot.w / 2, height - 4);
+  ctx.save();
+  ctx.translate(14, plot.y + plot.h / 2);
+  ctx.rotate(-Math.PI / 2);
+  ctx.textBaseline = 'middle';
+  ctx.fillText(yLabel, 0, 0);
+  ctx.restore();
+
+  if (!hasData && data.note) {
+    ctx.fillStyle = colours.muted;
+    ctx.font = `14px ${family}`;
+    ctx.textAlign = 'center';
+    ctx.textBaseline = 'middle';
+    ctx.fillText(data.note, plot.x + plot.w / 2, plot.y + plot.h / 2);
+    ctx.font = `12px ${family}`;
+  }
+
+  // ---- legend
+  ctx.textAlign = 'left';
+  ctx.textBaseline = 'middle';
+  rows.forEach((row, r) => {
+    let x = plot.x;
+    const y = 10 + r * 18 + 8;
+    for (const { i, w } of row) {
+      drawSample(ctx, x, y, sample, series[i]);
+      ctx.fillStyle = colours.ink;
+      ctx.fillText(variants[i].label, x + sample + 6, y);
+      x += w + gap;
+    }
+  });
+
+  ctx.restore();
+  return { plot, x: [0, xMax], y: [yLo, yHi], series };
+}
+
+/** A legend sample: band patch behind a short line in the variant's style. */
+export function drawSample(ctx, x, y, length, style) {
+  ctx.save();
+  ctx.fillStyle = style.colour;
+  ctx.globalAlpha = 0.17;
+  ctx.fillRect(x, y - 5, length, 10);
+  ctx.globalAlpha = 1;
+  ctx.strokeStyle = style.colour;
+  ctx.lineWidth = 2;
+  ctx.setLineDash(style.dash);
+  ctx.beginPath();
+  ctx.moveTo(x, y);
+  ctx.lineTo(x + length, y);
+  ctx.stroke();
+  ctx.restore();
+}
