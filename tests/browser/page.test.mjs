@@ -10,6 +10,8 @@ import { setUp, openPage, trainButtonAx, countColourInPlot, outDir, repoRoot } f
 
 const ROOT = process.env.CRITBOX_ROOT || repoRoot;
 const ROVER = 'rover-a2c-vs-qac.json';
+/** A step budget long enough that a run is still going when paused. */
+const LONG_STEPS = 1000000;
 let env;
 
 before(async () => { env = await setUp(); });
@@ -157,5 +159,39 @@ test('a worker that fails shows a message and the page keeps working', async () 
   assert.ok(failures >= 1, 'the summary lists the failed jobs');
   assert.equal(await page.isDisabled('#train'), false);
   await page.screenshot({ path: path.join(outDir, 'worker-error.png') });
+  await context.close();
+});
+
+test('pause holds the run still, resume goes on, cancel ends it with a partial summary', async () => {
+  const { page, context, problems } = await openPage(env);
+  await page.fill('#seeds', '2');
+  await page.fill('#steps', String(LONG_STEPS));
+  await page.waitForFunction(() => !document.getElementById('train').disabled);
+  await page.click('#train');
+  const percent = () => page.evaluate(() => Number(document.getElementById('progress').value));
+  const stepsDone = () => page.evaluate(() => Array.from(window.__critbox.state.run.stepsDone).reduce((a, b) => a + b, 0));
+  await page.waitForFunction(() => Array.from(window.__critbox.state.run.stepsDone).some((s) => s > 0));
+
+  await page.click('#pause');
+  assert.equal((await page.textContent('#pause')).trim(), 'Resume');
+  await page.waitForFunction(() => window.__critbox.state.run.idle === true);
+  const held = await stepsDone();
+  assert.ok(held < 2 * 2 * LONG_STEPS, 'paused before the end');
+  await page.waitForTimeout(400);
+  assert.equal(await stepsDone(), held, 'no steps while paused');
+
+  await page.click('#pause');
+  await page.waitForFunction((h) => Array.from(window.__critbox.state.run.stepsDone).reduce((a, b) => a + b, 0) > h, held);
+
+  await page.click('#cancel');
+  await waitForRunEnd(page, 10000);
+  assert.equal(await page.evaluate(() => window.__critbox.state.run.status), 'cancelled');
+  assert.ok((await percent()) < 100);
+  assert.match(await page.textContent('#percent'), /cancelled/);
+  assert.match(await page.textContent('#summary-note'), /cancelled/);
+  assert.equal(await page.isDisabled('#train'), false);
+  assert.equal(await page.isDisabled('#pause'), true);
+  await page.screenshot({ path: path.join(outDir, 'cancelled.png') });
+  assert.deepEqual(problems, []);
   await context.close();
 });

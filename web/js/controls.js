@@ -6,7 +6,7 @@
 // .textContent.
 
 const ALGOS = [['a2c', 'A2C'], ['qac', 'QAC']];
-const FEATURES = [['tabular', 'Tabular'], ['tiles', 'Tile coding']];
+const FEATURES = [['tabular', 'Tabular'], ['tiles', 'Tiles']];
 const DEFAULT_TILES = { kind: 'tiles', tilings: 8, intervals: 8, hash: 4096 };
 
 /** A small rover map of our own, used when the form switches to the grid
@@ -108,7 +108,7 @@ export function refreshForm(els) {
   els.tileFields.hidden = els.features.value !== 'tiles';
   const shared = {
     algo: els.algo.selectedOptions[0]?.textContent || '',
-    features: els.features.selectedOptions[0]?.textContent || '',
+    features: (FEATURES.find(([v]) => v === els.features.value) || ['', ''])[1],
     actor: els.actorStep.value,
     critic: els.criticStep.value,
     discount: els.discount.value,

@@ -110,7 +110,11 @@ function revalidate() {
 function renderCheck() {
   for (const el of els.form.querySelectorAll('[aria-invalid]')) el.removeAttribute('aria-invalid');
   const c = state.check;
-  if (c.ok) {
+  if (c.ok && isActive()) {
+    const r = state.run;
+    ui.reason.textContent = `Training ${r.jobs} jobs on ${r.workers} worker${r.workers === 1 ? '' : 's'}; edits apply to the next run.`;
+    ui.reason.classList.remove('bad');
+  } else if (c.ok) {
     const i = c.info;
     ui.reason.textContent = `Ready: ${i.labels.length} variant${i.labels.length === 1 ? '' : 's'} × ${i.seeds} seed${i.seeds === 1 ? '' : 's'} = ${i.jobs} jobs of ${i.steps.toLocaleString('en')} steps.`;
     ui.reason.classList.remove('bad');
@@ -205,8 +209,9 @@ function startRun() {
   renderSummary();
   pool = new Pool({ onProgress, onError: onWorkerError, onPaused, onDone });
   pool.start(json, info.jobs, CHUNK_STEPS);
+  state.run.workers = Pool.workerCount(info.jobs);
   renderProgress();
-  renderButtons();
+  renderCheck();
   scheduleDraw();
 }
 
@@ -249,6 +254,7 @@ function onWorkerError(message, jobIds) {
 }
 
 function onPaused() {
+  if (state.run && state.run.status === 'paused') state.run.idle = true;
   renderButtons();
 }
 
@@ -266,6 +272,7 @@ function togglePause() {
     pool.pause();
   } else if (state.run.status === 'paused') {
     state.run.status = 'running';
+    state.run.idle = false;
     pool.resume();
   }
   renderProgress();
@@ -289,7 +296,7 @@ function finishSummary() {
   }
   renderSummary();
   renderProgress();
-  renderButtons();
+  renderCheck();
   scheduleDraw();
 }
 

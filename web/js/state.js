@@ -42,6 +42,8 @@ export function newRun(configJson, info) {
     steps: info.steps,
     jobs,
     status: 'running',
+    idle: false,        // true once every worker has acknowledged a pause
+    workers: 0,
     stepsDone: new Float64Array(jobs),
     jobStatus: new Uint8Array(jobs),
     episodes: 0,
