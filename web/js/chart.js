@@ -16,7 +16,10 @@ export const PALETTE = ['#2f5fb3', '#cf6d12', '#16866a', '#ad3c84', '#806600', '
 export const CURVE_STRIDE = 5;
 
 export function seriesStyle(i, palette = PALETTE) {
-  return { colour: palette[i % palette.length], dash: DASHES[i % DASHES.length] };
+  // Past the palette's length the dash cycle is shifted, so no two of the
+  // first palette.length × DASHES.length variants share both cues.
+  const lap = Math.floor(i / palette.length);
+  return { colour: palette[i % palette.length], dash: DASHES[(i + lap) % DASHES.length] };
 }
 
 /** Size a canvas to css px × devicePixelRatio; returns true when it changed. */
