@@ -1,1 +1,133 @@
-fn main() {}
+//! The native `critbox` command.
+//!
+//! `critbox run CONFIG.json` runs an experiment config with the same core
+//! the page uses and prints one JSON summary on stdout; `critbox validate`
+//! only checks a config; `critbox serve` serves the page on 127.0.0.1.
+//! Exit codes: 0 success, 2 bad input (config or usage), 1 other failures.
+
+mod serve;
+
+use std::path::{Path, PathBuf};
+use std::process::ExitCode;
+
+const USAGE: &str = "\
+usage:
+  critbox run CONFIG.json          run every (variant, seed) job and print the summary JSON
+  critbox validate CONFIG.json     check a config; print its plan or the problems
+  critbox serve [--root DIR] [--port N]
+                                   serve the page on 127.0.0.1 (default root web, port 8000)
+  critbox help                     this text
+
+A CONFIG of '-' reads standard input. Exit codes: 0 ok, 2 bad config or usage, 1 other errors.";
+
+enum Failure {
+    Usage(String),
+    BadInput(String),
+    Other(String),
+}
+
+fn read_config(arg: &str) -> Result<String, Failure> {
+    if arg == "-" {
+        let mut s = String::new();
+        std::io::Read::read_to_string(&mut std::io::stdin(), &mut s)
+            .map_err(|e| Failure::Other(format!("cannot read standard input: {e}")))?;
+        Ok(s)
+    } else {
+        std::fs::read_to_string(arg).map_err(|e| Failure::BadInput(format!("cannot read config {arg}: {e}")))
+    }
+}
+
+fn plan_of(arg: &str) -> Result<critbox_core::experiment::Plan, Failure> {
+    let text = read_config(arg)?;
+    critbox_core::experiment::parse(&text).map_err(|e| {
+        let lines: Vec<String> = e.problems.iter().map(|p| format!("  {p}")).collect();
+        Failure::BadInput(format!("{arg}: the config has {} problem(s):\n{}", lines.len(), lines.join("\n")))
+    })
+}
+
+fn one_arg(args: &[String], cmd: &str) -> Result<String, Failure> {
+    match args {
+        [one] => Ok(one.clone()),
+        _ => Err(Failure::Usage(format!("`critbox {cmd}` takes exactly one CONFIG argument"))),
+    }
+}
+
+fn print_json(v: &serde_json::Value) -> Result<(), Failure> {
+    let text = serde_json::to_string_pretty(v).map_err(|e| Failure::Other(e.to_string()))?;
+    println!("{text}");
+    Ok(())
+}
+
+fn run(args: &[String]) -> Result<(), Failure> {
+    let Some((cmd, rest)) = args.split_first() else {
+        return Err(Failure::Usage("no command given".into()));
+    };
+    match cmd.as_str() {
+        "run" => {
+            let plan = plan_of(&one_arg(rest, "run")?)?;
+            let results = critbox_core::experiment::run_all(&plan);
+            print_json(&results.summary())
+        }
+        "validate" => {
+            let plan = plan_of(&one_arg(rest, "validate")?)?;
+            print_json(&serde_json::json!({
+                "ok": true,
+                "variants": plan.variants.iter().map(|v| v.label.clone()).collect::<Vec<_>>(),
+                "seeds": plan.config.seeds,
+                "steps": plan.config.steps,
+                "jobs": plan.job_count(),
+            }))
+        }
+        "serve" => {
+            let mut root = PathBuf::from("web");
+            let mut port: u16 = 8000;
+            let mut it = rest.iter();
+            while let Some(a) = it.next() {
+                match a.as_str() {
+                    "--root" => {
+                        root = PathBuf::from(it.next().ok_or_else(|| Failure::Usage("--root needs a folder".into()))?)
+                    }
+                    "--port" => {
+                        let v = it.next().ok_or_else(|| Failure::Usage("--port needs a number".into()))?;
+                        port = v
+                            .parse()
+                            .map_err(|_| Failure::Usage(format!("--port: {v:?} is not a port number (0 to 65535)")))?;
+                    }
+                    other => return Err(Failure::Usage(format!("serve: unknown option {other:?}"))),
+                }
+            }
+            serve_root(&root, port)
+        }
+        "help" | "--help" | "-h" => {
+            println!("{USAGE}");
+            Ok(())
+        }
+        other => Err(Failure::Usage(format!("unknown command {other:?}"))),
+    }
+}
+
+fn serve_root(root: &Path, port: u16) -> Result<(), Failure> {
+    serve::serve(root, port, |addr| {
+        println!("critbox page at {addr}  (Ctrl-C stops)");
+    })
+    .map_err(|e| Failure::Other(e.to_string()))
+}
+
+fn main() -> ExitCode {
+    let args: Vec<String> = std::env::args().skip(1).collect();
+    match run(&args) {
+        Ok(()) => ExitCode::SUCCESS,
+        Err(Failure::Usage(m)) => {
+            eprintln!("critbox: {m}\n\n{USAGE}");
+            ExitCode::from(2)
+        }
+        Err(Failure::BadInput(m)) => {
+            eprintln!("critbox: {m}");
+            ExitCode::from(2)
+        }
+        Err(Failure::Other(m)) => {
+            eprintln!("critbox: {m}");
+            ExitCode::from(1)
+        }
+    }
+}

@@ -1,3 +1,16 @@
-//! critbox core.
+//! critbox core: tasks, actor-critic learners, experiments and statistics.
+//!
+//! Pure Rust with no browser dependencies; the WebAssembly layer and the
+//! native CLI both call into it, so the same config gives the same numbers
+//! bit for bit. Randomness is injected through [`rng::Stream`] and
+//! transcendental functions come from `libm`, so native and WebAssembly
+//! builds agree exactly.
+#![deny(missing_docs)]
+
+pub mod approx;
+pub mod experiment;
+pub mod learn;
+pub mod policy;
 pub mod rng;
 pub mod stats;
+pub mod task;

@@ -1,1 +1,355 @@
-//! wasm
+//! WebAssembly bindings of critbox-core for the page.
+//!
+//! Thin handles over core types; JS holds a handle and calls a few coarse
+//! functions. Bulk data crosses as `Float64Array` copies whose layout
+//! (stride and order) is documented on each accessor. Every error reaches JS
+//! as an exception carrying the core's message; user input never traps.
+//! JS-style (camelCase) names appear only here.
+
+use wasm_bindgen::prelude::*;
+
+use critbox_core::approx::Obs;
+use critbox_core::experiment::config::TaskConfig;
+use critbox_core::experiment::{self, EpisodeRecord, Job, JobStatus, Plan};
+use critbox_core::learn::{build_learner, ActionBuf, Learner, Transition};
+use critbox_core::rng::{Purpose, Stream};
+use critbox_core::task::{Action, Task};
+
+/// Installs the panic hook so a programming error shows its message in the console.
+#[wasm_bindgen(start)]
+pub fn start() {
+    console_error_panic_hook::set_once();
+}
+
+fn plan_of(json: &str) -> Result<Plan, JsError> {
+    experiment::parse(json).map_err(|e| JsError::new(&e.to_string()))
+}
+
+/// Checks a config; returns a JSON description of the plan or throws with
+/// every problem, each naming its field.
+#[wasm_bindgen(js_name = validateConfig)]
+pub fn validate_config(json: &str) -> Result<String, JsError> {
+    let plan = plan_of(json)?;
+    let v = serde_json::json!({
+        "title": plan.config.title,
+        "labels": plan.variants.iter().map(|v| v.label.clone()).collect::<Vec<_>>(),
+        "seeds": plan.config.seeds,
+        "steps": plan.config.steps,
+        "jobs": plan.job_count(),
+        "task_kind": plan.spec.kind,
+        "state_names": plan.spec.state_vars.iter().map(|v| v.name.clone()).collect::<Vec<_>>(),
+        "action_names": plan.spec.actions.names().to_vec(),
+    });
+    Ok(v.to_string())
+}
+
+/// The jobs of a plan owned by one worker.
+#[wasm_bindgen]
+pub struct Run {
+    jobs: Vec<Job>,
+}
+
+#[wasm_bindgen]
+impl Run {
+    /// Creates the jobs `job_ids` (`id = variant * seeds + seed`) of a config.
+    #[wasm_bindgen(constructor)]
+    pub fn new(json: &str, job_ids: &[u32]) -> Result<Run, JsError> {
+        let plan = plan_of(json)?;
+        let n = plan.job_count();
+        let mut jobs = Vec::with_capacity(job_ids.len());
+        for &id in job_ids {
+            if id as usize >= n {
+                return Err(JsError::new(&format!("job id {id} is out of range: the plan has {n} jobs")));
+            }
+            jobs.push(Job::new(&plan, id as usize));
+        }
+        Ok(Run { jobs })
+    }
+
+    /// Advances every owned job by up to `steps_per_job` steps; returns true
+    /// when all of them are finished (done or failed).
+    pub fn advance(&mut self, steps_per_job: f64) -> bool {
+        let n = if steps_per_job.is_finite() && steps_per_job > 0.0 { steps_per_job as u64 } else { 0 };
+        for job in &mut self.jobs {
+            job.advance(n);
+        }
+        self.jobs.iter().all(|j| *j.status() != JobStatus::Running)
+    }
+
+    /// Progress, stride 3 per owned job: job id, steps done, status (0
+    /// running, 1 done, 2 failed).
+    pub fn progress(&self) -> Vec<f64> {
+        let mut out = Vec::with_capacity(self.jobs.len() * 3);
+        for j in &self.jobs {
+            let status = match j.status() {
+                JobStatus::Running => 0.0,
+                JobStatus::Done => 1.0,
+                JobStatus::Failed(_) => 2.0,
+            };
+            out.extend_from_slice(&[j.id() as f64, j.steps_done() as f64, status]);
+        }
+        out
+    }
+
+    /// Episodes finished since the last call, stride 5: job id, end step,
+    /// base return, shaped return, length.
+    #[wasm_bindgen(js_name = takeEpisodes)]
+    pub fn take_episodes(&mut self) -> Vec<f64> {
+        let mut out = Vec::new();
+        for j in &mut self.jobs {
+            let id = j.id() as f64;
+            for e in j.take_new_episodes() {
+                out.extend_from_slice(&[id, e.end_step as f64, e.base_return, e.shaped_return, f64::from(e.length)]);
+            }
+        }
+        out
+    }
+
+    /// Failed jobs as JSON: `[{"job": id, "reason": text}]`.
+    pub fn failures(&self) -> String {
+        let list: Vec<serde_json::Value> = self
+            .jobs
+            .iter()
+            .filter_map(|j| match j.status() {
+                JobStatus::Failed(r) => Some(serde_json::json!({"job": j.id(), "reason": r})),
+                _ => None,
+            })
+            .collect();
+        serde_json::Value::Array(list).to_string()
+    }
+}
+
+/// The results of a whole experiment, fed with episode records from the workers.
+#[wasm_bindgen]
+pub struct Results {
+    inner: experiment::Results,
+    variants: usize,
+}
+
+#[wasm_bindgen]
+impl Results {
+    /// Empty results for a config.
+    #[wasm_bindgen(constructor)]
+    pub fn new(json: &str) -> Result<Results, JsError> {
+        let plan = plan_of(json)?;
+        Ok(Results { inner: experiment::Results::new(&plan), variants: plan.variants.len() })
+    }
+
+    /// Adds episode records, stride 5 as [`Run::take_episodes`] gives them.
+    #[wasm_bindgen(js_name = addEpisodes)]
+    pub fn add_episodes(&mut self, records: &[f64]) -> Result<(), JsError> {
+        if records.len() % 5 != 0 {
+            return Err(JsError::new(&format!("episode records come in groups of 5; got {} numbers", records.len())));
+        }
+        let n = self.inner.job_count();
+        for r in records.chunks_exact(5) {
+            let ok = r.iter().all(|v| v.is_finite()) && r[0] >= 0.0 && (r[0] as usize) < n && r[1] >= 1.0;
+            if !ok {
+                return Err(JsError::new(&format!("invalid episode record {r:?}")));
+            }
+            self.inner.add_episode(
+                r[0] as usize,
+                EpisodeRecord {
+                    end_step: r[1] as u64,
+                    base_return: r[2],
+                    shaped_return: r[3],
+                    length: r[4] as u32,
+                    truncated: false,
+                },
+            );
+        }
+        Ok(())
+    }
+
+    /// Records a job's progress (so curves carry values only as far as it got).
+    #[wasm_bindgen(js_name = setSteps)]
+    pub fn set_steps(&mut self, job: u32, steps_done: f64) {
+        if steps_done.is_finite() && steps_done >= 0.0 {
+            self.inner.set_steps(job as usize, steps_done as u64);
+        }
+    }
+
+    /// Marks a job as failed.
+    #[wasm_bindgen(js_name = markFailed)]
+    pub fn mark_failed(&mut self, job: u32, reason: &str) {
+        self.inner.mark_failed(job as usize, reason.to_string());
+    }
+
+    /// A variant's curve, stride 5 per bin: upper step edge, mean, lower and
+    /// upper 95% bounds (NaN where undefined), seeds with data.
+    pub fn curve(&self, variant: u32) -> Result<Vec<f64>, JsError> {
+        if variant as usize >= self.variants {
+            return Err(JsError::new(&format!("variant {variant} is out of range ({} variants)", self.variants)));
+        }
+        let mut out = Vec::new();
+        for p in self.inner.curve(variant as usize) {
+            out.extend_from_slice(&[p.step as f64, p.mean, p.lo, p.hi, p.n as f64]);
+        }
+        Ok(out)
+    }
+
+    /// The summary JSON, the same as `critbox run` prints.
+    #[wasm_bindgen(js_name = summaryJson)]
+    pub fn summary_json(&self) -> String {
+        self.inner.summary().to_string()
+    }
+}
+
+/// A task driven one step at a time (rollout view, console scripting).
+#[wasm_bindgen]
+pub struct TaskSim {
+    task: Box<dyn Task>,
+    rng: Stream,
+    obs: Vec<f64>,
+}
+
+fn task_of(json: &str) -> Result<Box<dyn Task>, JsError> {
+    let v: serde_json::Value =
+        serde_json::from_str(json).map_err(|e| JsError::new(&format!("task: not valid JSON: {e}")))?;
+    let cfg: TaskConfig = serde_json::from_value(v).map_err(|e| JsError::new(&format!("task: {e}")))?;
+    cfg.build().map_err(|e| JsError::new(&format!("task.{e}")))
+}
+
+#[wasm_bindgen]
+impl TaskSim {
+    /// A task from its config object (the `task` part of a config) and a seed.
+    #[wasm_bindgen(constructor)]
+    pub fn new(task_json: &str, seed: f64) -> Result<TaskSim, JsError> {
+        let task = task_of(task_json)?;
+        let n = task.spec().state_vars.len();
+        Ok(TaskSim { task, rng: Stream::from_seed(seed as u64), obs: vec![0.0; n] })
+    }
+
+    /// Starts an episode; returns the observation.
+    pub fn reset(&mut self) -> Vec<f64> {
+        self.task.reset(&mut self.rng, &mut self.obs);
+        self.obs.clone()
+    }
+
+    /// Applies an action (`[index]` for discrete tasks); returns the next
+    /// observation followed by the reward and 1 if the episode terminated.
+    pub fn step(&mut self, action: &[f64]) -> Result<Vec<f64>, JsError> {
+        let st = match self.task.spec().actions.discrete_count() {
+            Some(n) => {
+                let a = action.first().copied().unwrap_or(f64::NAN);
+                if !(a >= 0.0 && (a as usize) < n && a.fract() == 0.0) {
+                    return Err(JsError::new(&format!("action must be [index] with index in 0..{n}, got {action:?}")));
+                }
+                self.task.step(Action::Index(a as usize), &mut self.rng, &mut self.obs)
+            }
+            None => self.task.step(Action::Vector(action), &mut self.rng, &mut self.obs),
+        };
+        let mut out = self.obs.clone();
+        out.push(st.reward);
+        out.push(if st.terminated { 1.0 } else { 0.0 });
+        Ok(out)
+    }
+
+    /// Names of the state variables, as JSON.
+    #[wasm_bindgen(js_name = stateNames)]
+    pub fn state_names(&self) -> String {
+        serde_json::Value::from(self.task.spec().state_vars.iter().map(|v| v.name.clone()).collect::<Vec<_>>())
+            .to_string()
+    }
+
+    /// Number of discrete actions (0 for a continuous task).
+    #[wasm_bindgen(js_name = actionCount)]
+    pub fn action_count(&self) -> u32 {
+        self.task.spec().actions.discrete_count().unwrap_or(0) as u32
+    }
+}
+
+/// One variant's learner driven one step at a time.
+#[wasm_bindgen]
+pub struct Agent {
+    learner: Box<dyn Learner>,
+    task: Box<dyn Task>,
+    rng: Stream,
+    actions: usize,
+    obs_len: usize,
+    out: ActionBuf,
+}
+
+#[wasm_bindgen]
+impl Agent {
+    /// The learner of variant `variant` of a config, with the agent stream of seed index `seed`.
+    #[wasm_bindgen(constructor)]
+    pub fn new(config_json: &str, variant: u32, seed: u32) -> Result<Agent, JsError> {
+        let plan = plan_of(config_json)?;
+        let Some(v) = plan.variants.get(variant as usize) else {
+            return Err(JsError::new(&format!("variant {variant} is out of range ({} variants)", plan.variants.len())));
+        };
+        let learner = build_learner(&v.setup, &plan.spec).map_err(|e| JsError::new(&e.to_string()))?;
+        Ok(Agent {
+            learner,
+            task: plan.make_task(),
+            rng: Stream::derive(plan.config.master_seed, Purpose::Agent, u64::from(variant), u64::from(seed)),
+            actions: plan.spec.actions.discrete_count().unwrap_or(0),
+            obs_len: plan.spec.state_vars.len(),
+            out: ActionBuf::for_spec(&plan.spec),
+        })
+    }
+
+    fn obs<'a>(&self, values: &'a [f64], what: &str) -> Result<Obs<'a>, JsError> {
+        if values.len() != self.obs_len || values.iter().any(|v| !v.is_finite()) {
+            return Err(JsError::new(&format!(
+                "{what} must hold {} finite numbers, got {values:?}",
+                self.obs_len
+            )));
+        }
+        let id = self.task.id_of(values);
+        if self.task.spec().n_states.is_some() && id.is_none() {
+            return Err(JsError::new(&format!("{what} {values:?} is not a state of this task")));
+        }
+        Ok(Obs { values, id })
+    }
+
+    fn action<'a>(&self, a: &'a [f64], what: &str) -> Result<Action<'a>, JsError> {
+        let ok = a.len() == 1 && a[0] >= 0.0 && a[0].fract() == 0.0 && (a[0] as usize) < self.actions;
+        if ok {
+            Ok(Action::Index(a[0] as usize))
+        } else {
+            Err(JsError::new(&format!("{what} must be [index] with index in 0..{}, got {a:?}", self.actions)))
+        }
+    }
+
+    /// Samples an action at `obs`; returns `[index]`.
+    pub fn act(&mut self, obs: &[f64]) -> Result<Vec<f64>, JsError> {
+        let o = self.obs(obs, "obs")?;
+        self.learner.act(o, &mut self.rng, &mut self.out);
+        Ok(vec![self.out.index() as f64])
+    }
+
+    /// Learns from one transition; `next_action` is empty after a
+    /// termination. Returns the diagnostics: TD error, entropy, actor and
+    /// critic update norms.
+    #[allow(clippy::too_many_arguments)]
+    pub fn learn(
+        &mut self,
+        obs: &[f64],
+        action: &[f64],
+        reward: f64,
+        next_obs: &[f64],
+        next_action: &[f64],
+        terminated: bool,
+        truncated: bool,
+    ) -> Result<Vec<f64>, JsError> {
+        if !reward.is_finite() {
+            return Err(JsError::new(&format!("reward must be finite, got {reward}")));
+        }
+        let tr = Transition {
+            obs: self.obs(obs, "obs")?,
+            action: self.action(action, "action")?,
+            reward,
+            next: self.obs(next_obs, "next_obs")?,
+            next_action: if next_action.is_empty() { None } else { Some(self.action(next_action, "next_action")?) },
+            terminated,
+            truncated,
+        };
+        if !terminated && tr.next_action.is_none() {
+            return Err(JsError::new("next_action is needed unless the transition terminated"));
+        }
+        let d = self.learner.learn(&tr, &mut self.rng).map_err(|e| JsError::new(&e.to_string()))?;
+        Ok(vec![d.td_error, d.entropy, d.actor_grad_norm, d.critic_grad_norm])
+    }
+}

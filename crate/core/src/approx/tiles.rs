@@ -1,0 +1,163 @@
+//! Tile coding.
+//!
+//! Each state variable is scaled to `[0, intervals]` over its declared range
+//! (values outside are clamped). Tiling `k` shifts variable `i` by
+//! `((k * (2i + 1)) mod n) / n` of a tile width, `n` being the number of
+//! tilings: the asymmetric displacements recommended by Sutton & Barto (2018,
+//! Section 9.5.4). A tiling has `(intervals + 1)^d` tiles; when the total
+//! exceeds `hash` (and `hash > 0`), tile coordinates are hashed into `hash`
+//! weights with a fixed integer hash, so the code is the same everywhere.
+
+use super::{FeatureError, Features, Obs, Sparse};
+use crate::task::StateVar;
+
+/// Largest table accepted without hashing.
+pub const MAX_UNHASHED: u64 = 1 << 22;
+
+/// A tile coder over the task's state variables.
+#[derive(Clone, Debug)]
+pub struct TileCoder {
+    low: Vec<f64>,
+    scale: Vec<f64>,
+    tilings: u32,
+    intervals: u32,
+    per_tiling: u64,
+    hash: u32,
+    dim: usize,
+}
+
+fn hash_coords(tiling: u32, coords: impl Iterator<Item = u32>) -> u64 {
+    // FNV-1a over 32-bit words followed by a SplitMix64 finish (common practice, no source).
+    let mut h: u64 = 0xcbf2_9ce4_8422_2325 ^ u64::from(tiling);
+    for c in coords {
+        h ^= u64::from(c);
+        h = h.wrapping_mul(0x0000_0100_0000_01B3);
+    }
+    h ^= h >> 33;
+    h = h.wrapping_mul(0xff51_afd7_ed55_8ccd);
+    h ^= h >> 33;
+    h
+}
+
+impl TileCoder {
+    /// Builds a tile coder, or names the setting that is out of range.
+    pub fn new(vars: &[StateVar], tilings: u32, intervals: u32, hash: u32) -> Result<Self, FeatureError> {
+        let bad = |f: &str, m: String| Err(FeatureError::Invalid(f.into(), m));
+        if !(1..=64).contains(&tilings) {
+            return bad("tilings", format!("must be in [1, 64], got {tilings}"));
+        }
+        if !(1..=64).contains(&intervals) {
+            return bad("intervals", format!("must be in [1, 64], got {intervals}"));
+        }
+        if hash != 0 && !(16..=(1 << 22)).contains(&hash) {
+            return bad("hash", format!("must be 0 (no hashing) or in [16, 4194304], got {hash}"));
+        }
+        let d = vars.len() as u32;
+        let per_tiling = u64::from(intervals + 1).checked_pow(d).unwrap_or(u64::MAX);
+        let total = per_tiling.saturating_mul(u64::from(tilings));
+        let hashed = hash > 0 && total > u64::from(hash);
+        let dim = if hashed {
+            hash as usize
+        } else if total <= MAX_UNHASHED {
+            total as usize
+        } else {
+            return bad(
+                "hash",
+                format!(
+                    "is 0 but {tilings} tilings of {intervals} intervals over {d} variables make {total} tiles; set hash to at most 4194304"
+                ),
+            );
+        };
+        Ok(TileCoder {
+            low: vars.iter().map(|v| v.low).collect(),
+            scale: vars.iter().map(|v| f64::from(intervals) / (v.high - v.low)).collect(),
+            tilings,
+            intervals,
+            per_tiling,
+            hash: if hashed { hash } else { 0 },
+            dim,
+        })
+    }
+}
+
+impl Features for TileCoder {
+    fn dim(&self) -> usize {
+        self.dim
+    }
+
+    fn max_active(&self) -> usize {
+        self.tilings as usize
+    }
+
+    fn compute(&self, obs: Obs<'_>, out: &mut Sparse) {
+        out.clear();
+        let n = self.tilings;
+        let top = f64::from(self.intervals);
+        let coord = |k: u32, i: usize| -> u32 {
+            let v = obs.values[i];
+            let u = ((v - self.low[i]) * self.scale[i]).clamp(0.0, top);
+            let u = if u.is_nan() { 0.0 } else { u };
+            let shift = f64::from((k * (2 * i as u32 + 1)) % n) / f64::from(n);
+            (u + shift).floor().min(top) as u32
+        };
+        for k in 0..n {
+            let index = if self.hash > 0 {
+                let h = hash_coords(k, (0..self.low.len()).map(|i| coord(k, i)));
+                h % u64::from(self.hash)
+            } else {
+                let mut flat = 0u64;
+                for i in 0..self.low.len() {
+                    flat = flat * u64::from(self.intervals + 1) + u64::from(coord(k, i));
+                }
+                u64::from(k) * self.per_tiling + flat
+            };
+            out.push(index as u32, 1.0);
+        }
+    }
+
+    fn step_scale(&self) -> f64 {
+        1.0 / f64::from(self.tilings)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn vars(d: usize) -> Vec<StateVar> {
+        (0..d).map(|i| StateVar { name: format!("v{i}"), low: -1.0, high: 1.0 }).collect()
+    }
+
+    #[test]
+    fn one_tile_per_tiling_and_generalisation() {
+        // Sutton & Barto (2018), Section 9.5.4: nearby points share most tiles,
+        // distant points share none.
+        let t = TileCoder::new(&vars(2), 8, 8, 0).unwrap();
+        assert_eq!(t.dim(), 8 * 81);
+        let mut a = Sparse::default();
+        let mut b = Sparse::default();
+        let mut c = Sparse::default();
+        t.compute(Obs { values: &[0.10, 0.20], id: None }, &mut a);
+        t.compute(Obs { values: &[0.11, 0.21], id: None }, &mut b);
+        t.compute(Obs { values: &[-0.9, 0.9], id: None }, &mut c);
+        assert_eq!(a.idx.len(), 8);
+        let shared = |x: &Sparse, y: &Sparse| x.idx.iter().filter(|i| y.idx.contains(i)).count();
+        assert!(shared(&a, &b) >= 6);
+        assert_eq!(shared(&a, &c), 0);
+        // Each tiling's index lies in its own block.
+        for (k, &i) in a.idx.iter().enumerate() {
+            assert_eq!(i as usize / 81, k);
+        }
+    }
+
+    #[test]
+    fn hashing_stays_in_range_and_clamps() {
+        let t = TileCoder::new(&vars(4), 8, 8, 4096).unwrap();
+        assert_eq!(t.dim(), 4096);
+        let mut a = Sparse::default();
+        t.compute(Obs { values: &[5.0, -7.0, f64::NAN, 0.3], id: None }, &mut a);
+        assert!(a.idx.iter().all(|&i| (i as usize) < 4096));
+        assert!(TileCoder::new(&vars(4), 8, 64, 0).is_err());
+        assert!(TileCoder::new(&vars(2), 0, 8, 0).is_err());
+    }
+}

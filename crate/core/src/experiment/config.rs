@@ -1,0 +1,414 @@
+//! The experiment config and its validation.
+//!
+//! A config names the task, a base learner setup, the variants (each a label
+//! and a `learner` object deep-merged over the base), the number of seeds,
+//! the step budget per job and the master seed. [`parse`] checks everything
+//! and returns a [`Plan`], or a [`ConfigError`] listing each problem with the
+//! path of the field (`variants[1].learner.actor_step`) and what is wrong.
+//! Every setting has a documented default and range; out-of-range values are
+//! rejected, never clamped.
+
+use serde::{Deserialize, Serialize};
+use serde_json::{Map, Value};
+
+use crate::learn::LearnerSetup;
+use crate::task::cartpole::{CartPole, CartPoleConfig};
+use crate::task::grid::{GridConfig, GridWorld};
+use crate::task::{Task, TaskError, TaskSpec};
+
+/// The config schema version this build writes and reads.
+pub const SCHEMA: u32 = 1;
+/// Most variants in one experiment.
+pub const MAX_VARIANTS: usize = 8;
+/// Most seeds per variant.
+pub const MAX_SEEDS: u32 = 100;
+/// Largest step budget per job.
+pub const MAX_STEPS: u64 = 10_000_000;
+/// Largest master seed (2^53 − 1, so a JavaScript number holds it exactly).
+pub const MAX_MASTER_SEED: u64 = (1 << 53) - 1;
+/// Longest accepted config text (bytes).
+pub const MAX_CONFIG_BYTES: usize = 256 * 1024;
+
+/// The task of an experiment.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(tag = "kind", rename_all = "snake_case")]
+pub enum TaskConfig {
+    /// A gridworld from a text map.
+    Grid(GridConfig),
+    /// Cart-pole balancing.
+    Cartpole(CartPoleConfig),
+}
+
+impl TaskConfig {
+    /// Builds the task.
+    pub fn build(&self) -> Result<Box<dyn Task>, TaskError> {
+        Ok(match self {
+            TaskConfig::Grid(c) => Box::new(GridWorld::new(c.clone())?),
+            TaskConfig::Cartpole(c) => Box::new(CartPole::new(c.clone())?),
+        })
+    }
+}
+
+/// One variant: a label and overrides of the base learner setup.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct VariantConfig {
+    /// Name shown in plots and tables (1 to 60 characters, unique).
+    pub label: String,
+    /// Fields of the learner setup that differ from `base`.
+    #[serde(default = "empty_object")]
+    pub learner: Value,
+}
+
+fn empty_object() -> Value {
+    Value::Object(Map::new())
+}
+fn default_seeds() -> u32 {
+    10
+}
+fn default_master_seed() -> u64 {
+    1
+}
+fn default_curve_points() -> u32 {
+    40
+}
+fn default_final_fraction() -> f64 {
+    0.1
+}
+
+/// An experiment config, as written in JSON.
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Config {
+    /// Schema version (this build: [`SCHEMA`]).
+    pub schema: u32,
+    /// A title for the experiment (at most 200 characters). Default empty.
+    #[serde(default)]
+    pub title: String,
+    /// The task.
+    pub task: TaskConfig,
+    /// The base learner setup (see [`LearnerSetup`]). Default: all defaults.
+    #[serde(default = "empty_object")]
+    pub base: Value,
+    /// The variants to compare (1 to 8).
+    pub variants: Vec<VariantConfig>,
+    /// Seeds per variant, in [1, 100]. Default 10.
+    #[serde(default = "default_seeds")]
+    pub seeds: u32,
+    /// Environment steps per job, in [1, 10 000 000].
+    pub steps: u64,
+    /// Master seed, in [0, 2^53 − 1]. Default 1.
+    #[serde(default = "default_master_seed")]
+    pub master_seed: u64,
+    /// Number of step bins of the learning curves, in [2, 1000]. Default 40.
+    #[serde(default = "default_curve_points")]
+    pub curve_points: u32,
+    /// Share of the budget, at its end, over which the final return is
+    /// averaged, in (0, 1]. Default 0.1.
+    #[serde(default = "default_final_fraction")]
+    pub final_fraction: f64,
+}
+
+/// One problem in a config: where and what.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct Problem {
+    /// Path of the field, e.g. `variants[1].learner.actor_step` (empty for the whole text).
+    pub path: String,
+    /// What is wrong.
+    pub message: String,
+}
+
+impl std::fmt::Display for Problem {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        if self.path.is_empty() {
+            write!(f, "{}", self.message)
+        } else {
+            write!(f, "{}: {}", self.path, self.message)
+        }
+    }
+}
+
+/// Everything wrong with a config.
+#[derive(Clone, Debug, PartialEq, Eq)]
+pub struct ConfigError {
+    /// The problems, in the order found.
+    pub problems: Vec<Problem>,
+}
+
+impl std::fmt::Display for ConfigError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        for (i, p) in self.problems.iter().enumerate() {
+            if i > 0 {
+                write!(f, "; ")?;
+            }
+            write!(f, "{p}")?;
+        }
+        Ok(())
+    }
+}
+
+impl std::error::Error for ConfigError {}
+
+impl ConfigError {
+    fn one(path: &str, message: impl Into<String>) -> Self {
+        ConfigError { problems: vec![Problem { path: path.into(), message: message.into() }] }
+    }
+}
+
+/// A resolved variant.
+#[derive(Clone, Debug, PartialEq)]
+pub struct VariantPlan {
+    /// Its label.
+    pub label: String,
+    /// The full learner setup (base with the variant's overrides).
+    pub setup: LearnerSetup,
+}
+
+/// A validated experiment.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Plan {
+    /// The config as given (with defaults filled in).
+    pub config: Config,
+    /// What the task declares.
+    pub spec: TaskSpec,
+    /// The variants, resolved.
+    pub variants: Vec<VariantPlan>,
+}
+
+impl Plan {
+    /// Number of jobs: variants × seeds.
+    pub fn job_count(&self) -> usize {
+        self.variants.len() * self.config.seeds as usize
+    }
+
+    /// The (variant, seed index) of a job id (`id = variant * seeds + seed`).
+    pub fn job_coords(&self, id: usize) -> (usize, usize) {
+        let seeds = self.config.seeds as usize;
+        (id / seeds, id % seeds)
+    }
+
+    /// A fresh instance of the task.
+    pub fn make_task(&self) -> Box<dyn Task> {
+        self.config.task.build().expect("a validated plan's task builds")
+    }
+}
+
+/// Deep merge: objects merge key by key, anything else replaces.
+fn merge(base: &Value, over: &Value) -> Value {
+    match (base, over) {
+        (Value::Object(b), Value::Object(o)) => {
+            let mut out = b.clone();
+            for (k, v) in o {
+                let merged = match out.get(k) {
+                    Some(bv) => merge(bv, v),
+                    None => v.clone(),
+                };
+                out.insert(k.clone(), merged);
+            }
+            Value::Object(out)
+        }
+        (_, o) => o.clone(),
+    }
+}
+
+fn path_string(p: &serde_path_to_error::Path) -> String {
+    let s = p.to_string();
+    if s == "." {
+        String::new()
+    } else {
+        s
+    }
+}
+
+fn join(prefix: &str, rest: &str) -> String {
+    match (prefix.is_empty(), rest.is_empty()) {
+        (true, _) => rest.into(),
+        (_, true) => prefix.into(),
+        _ => format!("{prefix}.{rest}"),
+    }
+}
+
+fn deserialize<T: for<'de> Deserialize<'de>>(v: &Value, prefix: &str) -> Result<T, Problem> {
+    serde_path_to_error::deserialize(v).map_err(|e| {
+        let path = join(prefix, &path_string(e.path()));
+        Problem { path, message: e.into_inner().to_string() }
+    })
+}
+
+/// Parses and validates a config text.
+pub fn parse(text: &str) -> Result<Plan, ConfigError> {
+    if text.len() > MAX_CONFIG_BYTES {
+        return Err(ConfigError::one(
+            "",
+            format!("config is {} bytes; at most {MAX_CONFIG_BYTES} are accepted", text.len()),
+        ));
+    }
+    let value: Value = serde_json::from_str(text).map_err(|e| {
+        ConfigError::one("", format!("not valid JSON at line {} column {}: {e}", e.line(), e.column()))
+    })?;
+    validate_value(&value)
+}
+
+/// Validates a config already parsed as JSON.
+pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
+    let Some(obj) = value.as_object() else {
+        return Err(ConfigError::one("", "the config must be a JSON object"));
+    };
+    match obj.get("schema") {
+        None => return Err(ConfigError::one("schema", format!("missing; this build reads schema {SCHEMA}"))),
+        Some(Value::Number(n)) if n.as_u64() == Some(u64::from(SCHEMA)) => {}
+        Some(Value::Number(n)) if n.as_u64().is_some_and(|v| v > u64::from(SCHEMA)) => {
+            return Err(ConfigError::one(
+                "schema",
+                format!("version {n} is newer than this build understands ({SCHEMA}); open it with a newer critbox"),
+            ))
+        }
+        Some(other) => {
+            return Err(ConfigError::one("schema", format!("must be {SCHEMA}, got {other}")));
+        }
+    }
+    let config: Config = deserialize(value, "").map_err(|p| ConfigError { problems: vec![p] })?;
+    let mut problems = Vec::new();
+    let mut bad = |path: String, message: String| problems.push(Problem { path, message });
+
+    if config.title.chars().count() > 200 {
+        bad("title".into(), "is longer than 200 characters".into());
+    }
+    let spec = match config.task.build() {
+        Ok(t) => Some(t.spec().clone()),
+        Err(TaskError::Invalid(field, msg)) => {
+            bad(format!("task.{field}"), msg);
+            None
+        }
+    };
+    if config.variants.is_empty() || config.variants.len() > MAX_VARIANTS {
+        bad("variants".into(), format!("needs 1 to {MAX_VARIANTS} entries, got {}", config.variants.len()));
+    }
+    if !(1..=MAX_SEEDS).contains(&config.seeds) {
+        bad("seeds".into(), format!("must be in [1, {MAX_SEEDS}], got {}", config.seeds));
+    }
+    if !(1..=MAX_STEPS).contains(&config.steps) {
+        bad("steps".into(), format!("must be in [1, {MAX_STEPS}], got {}", config.steps));
+    }
+    if config.master_seed > MAX_MASTER_SEED {
+        bad("master_seed".into(), format!("must be in [0, {MAX_MASTER_SEED}], got {}", config.master_seed));
+    }
+    if !(2..=1000).contains(&config.curve_points) {
+        bad("curve_points".into(), format!("must be in [2, 1000], got {}", config.curve_points));
+    }
+    if !(config.final_fraction > 0.0 && config.final_fraction <= 1.0) {
+        bad("final_fraction".into(), format!("must be in (0, 1], got {}", config.final_fraction));
+    }
+    if !config.base.is_object() {
+        bad("base".into(), "must be an object of learner settings".into());
+    }
+    let mut variants = Vec::new();
+    for (i, v) in config.variants.iter().enumerate() {
+        let n = v.label.chars().count();
+        if n == 0 || n > 60 || v.label.chars().any(char::is_control) {
+            bad(format!("variants[{i}].label"), "must be 1 to 60 characters with no control characters".into());
+        } else if config.variants[..i].iter().any(|o| o.label == v.label) {
+            bad(format!("variants[{i}].label"), format!("{:?} is used by an earlier variant; labels must differ", v.label));
+        }
+        if !v.learner.is_object() {
+            bad(format!("variants[{i}].learner"), "must be an object of learner settings".into());
+            continue;
+        }
+        let origin = |field: &str| -> String {
+            let key = field.split(['.', '[']).next().unwrap_or("");
+            if v.learner.get(key).is_some() {
+                join(&format!("variants[{i}].learner"), field)
+            } else {
+                join("base", field)
+            }
+        };
+        let merged = merge(&config.base, &v.learner);
+        let setup: LearnerSetup = match serde_path_to_error::deserialize(&merged) {
+            Ok(s) => s,
+            Err(e) => {
+                bad(origin(&path_string(e.path())), e.into_inner().to_string());
+                continue;
+            }
+        };
+        if let Some(spec) = &spec {
+            for e in setup.check(spec) {
+                bad(origin(&e.field), e.message);
+            }
+        }
+        variants.push(VariantPlan { label: v.label.clone(), setup });
+    }
+    // A problem in `base` shows once, not once per variant.
+    let mut seen = std::collections::HashSet::new();
+    problems.retain(|p| seen.insert((p.path.clone(), p.message.clone())));
+    if !problems.is_empty() {
+        return Err(ConfigError { problems });
+    }
+    let spec = spec.expect("no problems means the task built");
+    Ok(Plan { config, spec, variants })
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    fn base_json() -> Value {
+        serde_json::json!({
+            "schema": 1,
+            "task": {"kind": "grid", "map": ["#####", "#S.D#", "#####"]},
+            "base": {"algo": "a2c"},
+            "variants": [{"label": "A"}, {"label": "B", "learner": {"algo": "qac", "actor_step": 0.05}}],
+            "seeds": 2, "steps": 100
+        })
+    }
+
+    fn errors(v: Value) -> String {
+        validate_value(&v).unwrap_err().to_string()
+    }
+
+    #[test]
+    fn valid_config_resolves_variants() {
+        let plan = validate_value(&base_json()).unwrap();
+        assert_eq!(plan.job_count(), 4);
+        assert_eq!(plan.variants[1].setup.algo, crate::learn::Algo::Qac);
+        assert_eq!(plan.variants[1].setup.actor_step, 0.05);
+        assert_eq!(plan.variants[0].setup.actor_step, 0.1);
+        assert_eq!(plan.job_coords(3), (1, 1));
+    }
+
+    #[test]
+    fn problems_name_their_field() {
+        let mut v = base_json();
+        v["variants"][1]["learner"]["actor_step"] = (-1.0).into();
+        assert_eq!(errors(v), "variants[1].learner.actor_step: must be in (0, 10], got -1");
+        let mut v = base_json();
+        v["base"]["critic_step"] = 50.into();
+        assert_eq!(errors(v), "base.critic_step: must be in (0, 10], got 50");
+        let mut v = base_json();
+        v["variants"][0]["learner"] = serde_json::json!({"algo": "ppo"});
+        assert!(errors(v).starts_with("variants[0].learner.algo: unknown variant `ppo`"));
+        let mut v = base_json();
+        v["seeds"] = 0.into();
+        v["steps"] = "many".into();
+        assert!(errors(v).starts_with("steps: invalid type"));
+        let mut v = base_json();
+        v["seeds"] = 1000.into();
+        assert_eq!(errors(v), "seeds: must be in [1, 100], got 1000");
+        let mut v = base_json();
+        v["task"]["map"] = serde_json::json!(["#S.#"]);
+        assert_eq!(errors(v), "task.map: has no dock 'D': the episode could never end at a goal");
+        let mut v = base_json();
+        v["variants"][1]["label"] = "A".into();
+        assert!(errors(v).starts_with("variants[1].label: \"A\" is used"));
+        let mut v = base_json();
+        v["surprise"] = 1.into();
+        assert!(errors(v).contains("unknown field `surprise`"));
+        let mut v = base_json();
+        v["schema"] = 7.into();
+        assert!(errors(v).contains("newer than this build"));
+        let mut v = base_json();
+        v["task"] = serde_json::json!({"kind": "cartpole"});
+        v["base"]["features"] = serde_json::json!({"kind": "tabular"});
+        assert!(errors(v).starts_with("base.features.kind: \"tabular\" needs a finite task"));
+        assert!(parse("{\"schema\": 1,").unwrap_err().to_string().starts_with("not valid JSON at line 1"));
+    }
+}

@@ -1,0 +1,35 @@
+//! Experiments: the config, its validation into a plan, the deterministic
+//! job runner and the aggregation of results.
+//!
+//! One JSON schema ([`config::Config`]) serves the page, the share link and
+//! the CLI. [`config::parse`] turns text into a [`config::Plan`] or into
+//! problems that name the field. A plan is a list of jobs, one per
+//! (variant, seed); [`runner::Job`] advances one of them in chunks of any
+//! size with identical results. [`results::Results`] bins episode returns on
+//! environment steps and summarises them across seeds.
+
+pub mod config;
+pub mod results;
+pub mod runner;
+
+pub use config::{parse, Config, ConfigError, Plan, Problem, VariantPlan, SCHEMA};
+pub use results::{CurvePoint, Results};
+pub use runner::{EpisodeRecord, Job, JobStatus};
+
+/// Runs every job of a plan to the end and collects the results (the CLI's
+/// path; the page spreads the same jobs over workers).
+pub fn run_all(plan: &Plan) -> Results {
+    let mut results = Results::new(plan);
+    for id in 0..plan.job_count() {
+        let mut job = Job::new(plan, id);
+        job.advance(u64::MAX);
+        for rec in job.episodes() {
+            results.add_episode(id, *rec);
+        }
+        results.set_steps(id, job.steps_done());
+        if let JobStatus::Failed(reason) = job.status() {
+            results.mark_failed(id, reason.clone());
+        }
+    }
+    results
+}

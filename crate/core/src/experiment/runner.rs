@@ -1,0 +1,265 @@
+//! The deterministic job runner.
+//!
+//! A [`Job`] is one (variant, seed) pair of a plan. It owns its task, its
+//! learner and two random streams: the task stream depends only on the
+//! master seed and the seed index, so every variant sees the same start
+//! states and transition noise for the same seed index (common random
+//! numbers); the agent stream depends on the variant too. [`Job::advance`]
+//! can be called with any chunk size: the sequence of steps, and so every
+//! number, is the same. A learner that produces a non-finite number stops its
+//! own job with the reason; other jobs are unaffected.
+
+use crate::approx::Obs;
+use crate::experiment::config::Plan;
+use crate::learn::{build_learner, ActionBuf, Learner, StepDiag, Transition};
+use crate::rng::{Purpose, Stream};
+use crate::task::Task;
+
+/// What one finished episode looked like.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct EpisodeRecord {
+    /// Job step count (1-based) at the episode's last step.
+    pub end_step: u64,
+    /// Return under the task's own reward.
+    pub base_return: f64,
+    /// Return under the reward the learner was trained on.
+    pub shaped_return: f64,
+    /// Number of steps.
+    pub length: u32,
+    /// Whether the time limit cut it (rather than a terminal state).
+    pub truncated: bool,
+}
+
+/// Where a job stands.
+#[derive(Clone, Debug, PartialEq)]
+pub enum JobStatus {
+    /// Steps remain.
+    Running,
+    /// The budget is spent.
+    Done,
+    /// The learner diverged; the reason names the step and the quantity.
+    Failed(String),
+}
+
+/// Sums of step diagnostics over one curve bin.
+#[derive(Clone, Copy, Debug, Default, PartialEq)]
+pub struct DiagSums {
+    /// Steps counted.
+    pub count: u64,
+    /// Sum of TD errors.
+    pub td: f64,
+    /// Sum of absolute TD errors.
+    pub abs_td: f64,
+    /// Sum of policy entropies.
+    pub entropy: f64,
+    /// Sum of actor update norms.
+    pub actor_norm: f64,
+    /// Sum of critic update norms.
+    pub critic_norm: f64,
+}
+
+impl DiagSums {
+    fn add(&mut self, d: &StepDiag) {
+        self.count += 1;
+        self.td += d.td_error;
+        self.abs_td += d.td_error.abs();
+        self.entropy += d.entropy;
+        self.actor_norm += d.actor_grad_norm;
+        self.critic_norm += d.critic_grad_norm;
+    }
+}
+
+/// One (variant, seed) run.
+pub struct Job {
+    id: usize,
+    task: Box<dyn Task>,
+    learner: Box<dyn Learner>,
+    task_rng: Stream,
+    agent_rng: Stream,
+    budget: u64,
+    max_len: u32,
+    steps_done: u64,
+    obs: Vec<f64>,
+    next_obs: Vec<f64>,
+    obs_id: Option<usize>,
+    action: ActionBuf,
+    next_action: ActionBuf,
+    in_episode: bool,
+    ep_len: u32,
+    ep_base: f64,
+    ep_shaped: f64,
+    status: JobStatus,
+    episodes: Vec<EpisodeRecord>,
+    unread: usize,
+    bin_edges: Vec<u64>,
+    diag: Vec<DiagSums>,
+}
+
+/// The upper step edges of `points` equal bins over `steps` steps: bin `b`
+/// holds the steps in `(edges[b-1], edges[b]]`.
+pub fn bin_edges(steps: u64, points: u32) -> Vec<u64> {
+    (1..=u64::from(points)).map(|b| ((u128::from(b) * u128::from(steps)) / u128::from(points)) as u64).collect()
+}
+
+/// The bin holding a (1-based) step.
+pub fn bin_of(edges: &[u64], step: u64) -> usize {
+    edges.partition_point(|&e| e < step).min(edges.len() - 1)
+}
+
+impl Job {
+    /// Job `id` of a plan (`id = variant * seeds + seed`).
+    pub fn new(plan: &Plan, id: usize) -> Job {
+        let (variant, seed) = plan.job_coords(id);
+        let cfg = &plan.config;
+        let task = plan.make_task();
+        let spec = task.spec().clone();
+        let learner = build_learner(&plan.variants[variant].setup, &spec).expect("a validated plan's learner builds");
+        let n_obs = spec.state_vars.len();
+        let edges = bin_edges(cfg.steps, cfg.curve_points);
+        Job {
+            id,
+            task,
+            learner,
+            task_rng: Stream::derive(cfg.master_seed, Purpose::Task, u64::MAX, seed as u64),
+            agent_rng: Stream::derive(cfg.master_seed, Purpose::Agent, variant as u64, seed as u64),
+            budget: cfg.steps,
+            max_len: spec.max_steps,
+            steps_done: 0,
+            obs: vec![0.0; n_obs],
+            next_obs: vec![0.0; n_obs],
+            obs_id: None,
+            action: ActionBuf::for_spec(&spec),
+            next_action: ActionBuf::for_spec(&spec),
+            in_episode: false,
+            ep_len: 0,
+            ep_base: 0.0,
+            ep_shaped: 0.0,
+            status: JobStatus::Running,
+            episodes: Vec::new(),
+            unread: 0,
+            diag: vec![DiagSums::default(); edges.len()],
+            bin_edges: edges,
+        }
+    }
+
+    /// The job id.
+    pub fn id(&self) -> usize {
+        self.id
+    }
+
+    /// Steps taken so far.
+    pub fn steps_done(&self) -> u64 {
+        self.steps_done
+    }
+
+    /// Where the job stands.
+    pub fn status(&self) -> &JobStatus {
+        &self.status
+    }
+
+    /// Every finished episode so far.
+    pub fn episodes(&self) -> &[EpisodeRecord] {
+        &self.episodes
+    }
+
+    /// Episodes finished since the last call.
+    pub fn take_new_episodes(&mut self) -> &[EpisodeRecord] {
+        let from = self.unread;
+        self.unread = self.episodes.len();
+        &self.episodes[from..]
+    }
+
+    /// Diagnostic sums per curve bin.
+    pub fn diagnostics(&self) -> &[DiagSums] {
+        &self.diag
+    }
+
+    /// Advances by up to `n` steps (fewer when the budget runs out or the
+    /// learner fails); returns the steps taken.
+    pub fn advance(&mut self, n: u64) -> u64 {
+        let start = self.steps_done;
+        while self.steps_done - start < n {
+            if self.status != JobStatus::Running {
+                break;
+            }
+            if self.steps_done >= self.budget {
+                self.status = JobStatus::Done;
+                break;
+            }
+            if let Err(reason) = self.step() {
+                self.status = JobStatus::Failed(format!("step {}: {reason}", self.steps_done));
+            }
+        }
+        if self.status == JobStatus::Running && self.steps_done >= self.budget {
+            self.status = JobStatus::Done;
+        }
+        self.steps_done - start
+    }
+
+    fn step(&mut self) -> Result<(), crate::learn::LearnError> {
+        if !self.in_episode {
+            self.task.reset(&mut self.task_rng, &mut self.obs);
+            self.obs_id = self.task.state_id();
+            self.learner.act(Obs { values: &self.obs, id: self.obs_id }, &mut self.agent_rng, &mut self.action);
+            self.in_episode = true;
+            self.ep_len = 0;
+            self.ep_base = 0.0;
+            self.ep_shaped = 0.0;
+        }
+        let outcome = self.task.step(self.action.as_action(), &mut self.task_rng, &mut self.next_obs);
+        let next_id = self.task.state_id();
+        self.steps_done += 1;
+        self.ep_len += 1;
+        let reward = outcome.reward;
+        self.ep_base += outcome.reward;
+        self.ep_shaped += reward;
+        let truncated = !outcome.terminated && self.ep_len >= self.max_len;
+        let next = Obs { values: &self.next_obs, id: next_id };
+        if !outcome.terminated {
+            self.learner.act(next, &mut self.agent_rng, &mut self.next_action);
+        }
+        let tr = Transition {
+            obs: Obs { values: &self.obs, id: self.obs_id },
+            action: self.action.as_action(),
+            reward,
+            next,
+            next_action: (!outcome.terminated).then(|| self.next_action.as_action()),
+            terminated: outcome.terminated,
+            truncated,
+        };
+        let d = self.learner.learn(&tr, &mut self.agent_rng)?;
+        self.diag[bin_of(&self.bin_edges, self.steps_done)].add(&d);
+        if outcome.terminated || truncated {
+            self.episodes.push(EpisodeRecord {
+                end_step: self.steps_done,
+                base_return: self.ep_base,
+                shaped_return: self.ep_shaped,
+                length: self.ep_len,
+                truncated,
+            });
+            self.in_episode = false;
+        } else {
+            std::mem::swap(&mut self.obs, &mut self.next_obs);
+            std::mem::swap(&mut self.action, &mut self.next_action);
+            self.obs_id = next_id;
+        }
+        Ok(())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn bins_cover_the_budget() {
+        let e = bin_edges(100, 4);
+        assert_eq!(e, vec![25, 50, 75, 100]);
+        assert_eq!(bin_of(&e, 1), 0);
+        assert_eq!(bin_of(&e, 25), 0);
+        assert_eq!(bin_of(&e, 26), 1);
+        assert_eq!(bin_of(&e, 100), 3);
+        let e = bin_edges(10, 4);
+        assert_eq!(e, vec![2, 5, 7, 10]);
+    }
+}
