@@ -7,7 +7,7 @@
 //! first episode. Across seeds each bin gives the mean and a Student-t 95%
 //! interval. A seed's final return is the mean base return of episodes that
 //! ended in the last `final_fraction` of the budget (or, if none did, of its
-//! last episode). [`Results::summary`] is the JSON the CLI prints and the page
+//! last episode); a failed (diverged) seed has none and is listed apart. [`Results::summary`] is the JSON the CLI prints and the page
 //! shows, so both give the same numbers.
 
 use serde_json::{json, Value};
@@ -141,12 +141,17 @@ impl Results {
             .collect()
     }
 
-    /// Each seed's final return (None when the seed finished no episode).
+    /// Each seed's final return (None when the seed finished no episode, or
+    /// failed: a diverged run has no final performance to report).
     pub fn final_per_seed(&self, variant: usize) -> Vec<Option<f64>> {
         let from = self.steps as f64 * (1.0 - self.final_fraction);
         (0..self.seeds)
             .map(|s| {
-                let eps = &self.job(variant, s).episodes;
+                let job = self.job(variant, s);
+                if job.failed.is_some() {
+                    return None;
+                }
+                let eps = &job.episodes;
                 let tail: Vec<f64> =
                     eps.iter().filter(|e| e.end_step as f64 > from).map(|e| e.base_return).collect();
                 if tail.is_empty() {

@@ -252,6 +252,26 @@ mod tests {
     use super::*;
 
     #[test]
+    fn variants_share_the_task_stream_of_a_seed_index() {
+        // Common random numbers (common practice, no source): same seed index,
+        // same task stream whatever the variant; the agent streams differ.
+        let plan = crate::experiment::parse(
+            r#"{"schema": 1, "task": {"kind": "cartpole"}, "steps": 10, "seeds": 3,
+                "variants": [{"label": "A"}, {"label": "B", "learner": {"algo": "qac"}}]}"#,
+        )
+        .unwrap();
+        let mut a = Job::new(&plan, 1); // variant 0, seed 1
+        let mut b = Job::new(&plan, 4); // variant 1, seed 1
+        let mut c = Job::new(&plan, 2); // variant 0, seed 2
+        let ta: Vec<u64> = (0..4).map(|_| a.task_rng.next_u64()).collect();
+        let tb: Vec<u64> = (0..4).map(|_| b.task_rng.next_u64()).collect();
+        let tc: Vec<u64> = (0..4).map(|_| c.task_rng.next_u64()).collect();
+        assert_eq!(ta, tb);
+        assert_ne!(ta, tc);
+        assert_ne!(a.agent_rng.next_u64(), b.agent_rng.next_u64());
+    }
+
+    #[test]
     fn bins_cover_the_budget() {
         let e = bin_edges(100, 4);
         assert_eq!(e, vec![25, 50, 75, 100]);

@@ -1,0 +1,100 @@
+// The WebAssembly build (run under Node, as the page's workers run it) and the
+// native CLI give identical summaries for the same config: same numbers, bit
+// for bit. Needs `scripts/build` first (web/pkg and target/release/critbox).
+import { test } from 'node:test';
+import assert from 'node:assert/strict';
+import fs from 'node:fs';
+import path from 'node:path';
+import { execFileSync } from 'node:child_process';
+import { fileURLToPath } from 'node:url';
+
+const root = process.env.CRITBOX_ROOT || path.resolve(path.dirname(fileURLToPath(import.meta.url)), '../..');
+const pkg = path.join(root, 'web/pkg');
+const cli = path.join(root, 'target/release/critbox');
+const { default: init, ...cb } = await import(path.join(pkg, 'critbox_wasm.js'));
+await init({ module_or_path: fs.readFileSync(path.join(pkg, 'critbox_wasm_bg.wasm')) });
+
+/** Runs a config the way the page does: jobs dealt to `workers` Run handles,
+ * advanced in chunks, episode records fed to one Results handle. */
+function runLikeThePage(json, workers, chunk) {
+  const plan = JSON.parse(cb.validateConfig(json));
+  const owned = Array.from({ length: workers }, () => []);
+  for (let id = 0; id < plan.jobs; id++) owned[id % workers].push(id);
+  const runs = owned.filter((ids) => ids.length).map((ids) => new cb.Run(json, Uint32Array.from(ids)));
+  const results = new cb.Results(json);
+  let busy = runs.slice();
+  while (busy.length) {
+    busy = busy.filter((run) => {
+      const done = run.advance(chunk);
+      results.addEpisodes(run.takeEpisodes());
+      const p = run.progress();
+      for (let i = 0; i < p.length; i += 3) results.setSteps(p[i], p[i + 1]);
+      for (const f of JSON.parse(run.failures())) results.markFailed(f.job, f.reason);
+      if (done) run.free();
+      return !done;
+    });
+  }
+  const summary = JSON.parse(results.summaryJson());
+  results.free();
+  return summary;
+}
+
+const presets = fs.readdirSync(path.join(root, 'web/presets')).filter((f) => f.endsWith('.json') && f !== 'index.json');
+
+for (const file of presets) {
+  test(`${file}: WebAssembly and native CLI agree exactly`, () => {
+    const configPath = path.join(root, 'web/presets', file);
+    const json = fs.readFileSync(configPath, 'utf8');
+    const native = JSON.parse(execFileSync(cli, ['run', configPath], { encoding: 'utf8', maxBuffer: 1 << 26 }));
+    const wasm = runLikeThePage(json, 2, 1500);
+    assert.deepEqual(wasm, native);
+    assert.ok(native.variants.length >= 1);
+  });
+}
+
+test('chunk size and worker count do not change the numbers', () => {
+  const v = JSON.parse(fs.readFileSync(path.join(root, 'web/presets', presets[0]), 'utf8'));
+  v.seeds = 3;
+  v.steps = 5000;
+  const json = JSON.stringify(v);
+  assert.deepEqual(runLikeThePage(json, 1, 5000), runLikeThePage(json, 3, 333));
+});
+
+test('bad configs throw an Error naming the field, never trap', () => {
+  const v = JSON.parse(fs.readFileSync(path.join(root, 'web/presets', presets[0]), 'utf8'));
+  v.variants[0].learner = { actor_step: 'fast' };
+  assert.throws(() => cb.validateConfig(JSON.stringify(v)), /variants\[0\]\.learner\.actor_step: invalid type/);
+  assert.throws(() => new cb.Run('{"schema": 1', new Uint32Array([0])), /not valid JSON at line 1/);
+  assert.throws(() => new cb.Run(JSON.stringify({ ...v, variants: [{ label: 'x' }] }), new Uint32Array([99])), /job id 99 is out of range/);
+  const results = new cb.Results(JSON.stringify({ ...v, variants: [{ label: 'x' }] }));
+  assert.throws(() => results.addEpisodes(new Float64Array([0, 1, 2])), /groups of 5/);
+  assert.throws(() => results.curve(5), /out of range/);
+  results.free();
+});
+
+test('single-step task and agent handles drive an episode', () => {
+  const v = JSON.parse(fs.readFileSync(path.join(root, 'web/presets/rover-a2c-vs-qac.json'), 'utf8'));
+  const sim = new cb.TaskSim(JSON.stringify(v.task), 3);
+  const agent = new cb.Agent(JSON.stringify(v), 0, 0);
+  assert.deepEqual(JSON.parse(sim.stateNames()), ['row', 'col']);
+  assert.equal(sim.actionCount(), 4);
+  let obs = sim.reset();
+  let action = agent.act(obs);
+  let steps = 0;
+  for (; steps < 200; steps++) {
+    const out = sim.step(action);
+    const next = out.slice(0, 2);
+    const terminated = out[3] === 1;
+    const nextAction = terminated ? new Float64Array() : agent.act(next);
+    const diag = agent.learn(obs, action, out[2], next, nextAction, terminated, false);
+    assert.equal(diag.length, 4);
+    assert.ok(diag.every(Number.isFinite));
+    if (terminated) break;
+    obs = next;
+    action = nextAction;
+  }
+  assert.throws(() => sim.step(new Float64Array([7])), /index in 0\.\.4/);
+  assert.throws(() => agent.act(new Float64Array([0, 0])), /not a state of this task/);
+  sim.free();
+  agent.free();
+});
