@@ -85,13 +85,15 @@ fn run(args: &[String]) -> Result<(), Failure> {
             while let Some(a) = it.next() {
                 match a.as_str() {
                     "--root" => {
-                        root = PathBuf::from(it.next().ok_or_else(|| Failure::Usage("--root needs a folder".into()))?)
+                        root = PathBuf::from(
+                            it.next().ok_or_else(|| Failure::Usage("--root needs a folder".into()))?,
+                        )
                     }
                     "--port" => {
                         let v = it.next().ok_or_else(|| Failure::Usage("--port needs a number".into()))?;
-                        port = v
-                            .parse()
-                            .map_err(|_| Failure::Usage(format!("--port: {v:?} is not a port number (0 to 65535)")))?;
+                        port = v.parse().map_err(|_| {
+                            Failure::Usage(format!("--port: {v:?} is not a port number (0 to 65535)"))
+                        })?;
                     }
                     other => return Err(Failure::Usage(format!("serve: unknown option {other:?}"))),
                 }

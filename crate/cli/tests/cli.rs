@@ -34,7 +34,8 @@ fn run_prints_the_summary_json() {
         assert!(var["final_return"]["mean"].is_f64());
         let ci = var["final_return"]["ci95"].as_array().unwrap();
         assert_eq!(ci.len(), 2);
-        let (lo, hi, m) = (ci[0].as_f64().unwrap(), ci[1].as_f64().unwrap(), var["final_return"]["mean"].as_f64().unwrap());
+        let (lo, hi, m) =
+            (ci[0].as_f64().unwrap(), ci[1].as_f64().unwrap(), var["final_return"]["mean"].as_f64().unwrap());
         assert!(lo <= m && m <= hi);
         assert_eq!(var["per_seed_final"].as_array().unwrap().len(), 3);
     }

@@ -47,9 +47,7 @@ impl Stream {
         let state = ((hi as u128) << 64) | (lo as u128);
         let mut bytes = [0u8; 16];
         bytes.copy_from_slice(&state.to_le_bytes());
-        Stream {
-            gen: Pcg64Mcg::from_seed(bytes),
-        }
+        Stream { gen: Pcg64Mcg::from_seed(bytes) }
     }
 
     /// The stream for `(master, purpose, a, b)`: for jobs, `a` is the variant

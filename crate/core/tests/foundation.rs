@@ -27,7 +27,9 @@ fn optimal_values(m: &FiniteModel, gamma: f64) -> Vec<f64> {
                 continue;
             }
             let best = (0..m.n_actions)
-                .map(|a| m.outcomes[s][a].iter().map(|o| o.prob * (o.reward + gamma * v[o.next])).sum::<f64>())
+                .map(|a| {
+                    m.outcomes[s][a].iter().map(|o| o.prob * (o.reward + gamma * v[o.next])).sum::<f64>()
+                })
                 .fold(f64::NEG_INFINITY, f64::max);
             change = change.max((best - v[s]).abs());
             v[s] = best;

@@ -99,7 +99,13 @@ impl Run {
         for j in &mut self.jobs {
             let id = j.id() as f64;
             for e in j.take_new_episodes() {
-                out.extend_from_slice(&[id, e.end_step as f64, e.base_return, e.shaped_return, f64::from(e.length)]);
+                out.extend_from_slice(&[
+                    id,
+                    e.end_step as f64,
+                    e.base_return,
+                    e.shaped_return,
+                    f64::from(e.length),
+                ]);
             }
         }
         out
@@ -139,7 +145,10 @@ impl Results {
     #[wasm_bindgen(js_name = addEpisodes)]
     pub fn add_episodes(&mut self, records: &[f64]) -> Result<(), JsError> {
         if records.len() % 5 != 0 {
-            return Err(JsError::new(&format!("episode records come in groups of 5; got {} numbers", records.len())));
+            return Err(JsError::new(&format!(
+                "episode records come in groups of 5; got {} numbers",
+                records.len()
+            )));
         }
         let n = self.inner.job_count();
         for r in records.chunks_exact(5) {
@@ -179,7 +188,10 @@ impl Results {
     /// upper 95% bounds (NaN where undefined), seeds with data.
     pub fn curve(&self, variant: u32) -> Result<Vec<f64>, JsError> {
         if variant as usize >= self.variants {
-            return Err(JsError::new(&format!("variant {variant} is out of range ({} variants)", self.variants)));
+            return Err(JsError::new(&format!(
+                "variant {variant} is out of range ({} variants)",
+                self.variants
+            )));
         }
         let mut out = Vec::new();
         for p in self.inner.curve(variant as usize) {
@@ -233,7 +245,9 @@ impl TaskSim {
             Some(n) => {
                 let a = action.first().copied().unwrap_or(f64::NAN);
                 if !(a >= 0.0 && (a as usize) < n && a.fract() == 0.0) {
-                    return Err(JsError::new(&format!("action must be [index] with index in 0..{n}, got {action:?}")));
+                    return Err(JsError::new(&format!(
+                        "action must be [index] with index in 0..{n}, got {action:?}"
+                    )));
                 }
                 self.task.step(Action::Index(a as usize), &mut self.rng, &mut self.obs)
             }
@@ -248,8 +262,10 @@ impl TaskSim {
     /// Names of the state variables, as JSON.
     #[wasm_bindgen(js_name = stateNames)]
     pub fn state_names(&self) -> String {
-        serde_json::Value::from(self.task.spec().state_vars.iter().map(|v| v.name.clone()).collect::<Vec<_>>())
-            .to_string()
+        serde_json::Value::from(
+            self.task.spec().state_vars.iter().map(|v| v.name.clone()).collect::<Vec<_>>(),
+        )
+        .to_string()
     }
 
     /// Number of discrete actions (0 for a continuous task).
@@ -277,7 +293,10 @@ impl Agent {
     pub fn new(config_json: &str, variant: u32, seed: u32) -> Result<Agent, JsError> {
         let plan = plan_of(config_json)?;
         let Some(v) = plan.variants.get(variant as usize) else {
-            return Err(JsError::new(&format!("variant {variant} is out of range ({} variants)", plan.variants.len())));
+            return Err(JsError::new(&format!(
+                "variant {variant} is out of range ({} variants)",
+                plan.variants.len()
+            )));
         };
         let learner = build_learner(&v.setup, &plan.spec).map_err(|e| JsError::new(&e.to_string()))?;
         Ok(Agent {
@@ -342,7 +361,11 @@ impl Agent {
             action: self.action(action, "action")?,
             reward,
             next: self.obs(next_obs, "next_obs")?,
-            next_action: if next_action.is_empty() { None } else { Some(self.action(next_action, "next_action")?) },
+            next_action: if next_action.is_empty() {
+                None
+            } else {
+                Some(self.action(next_action, "next_action")?)
+            },
             terminated,
             truncated,
         };

@@ -172,7 +172,11 @@ pub fn default_features(spec: &TaskSpec) -> FeatureConfig {
     if spec.n_states.is_some() {
         FeatureConfig::Tabular
     } else {
-        FeatureConfig::Tiles { tilings: default_tilings(), intervals: default_intervals(), hash: default_hash() }
+        FeatureConfig::Tiles {
+            tilings: default_tilings(),
+            intervals: default_intervals(),
+            hash: default_hash(),
+        }
     }
 }
 

@@ -306,9 +306,15 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
     for (i, v) in config.variants.iter().enumerate() {
         let n = v.label.chars().count();
         if n == 0 || n > 60 || v.label.chars().any(char::is_control) {
-            bad(format!("variants[{i}].label"), "must be 1 to 60 characters with no control characters".into());
+            bad(
+                format!("variants[{i}].label"),
+                "must be 1 to 60 characters with no control characters".into(),
+            );
         } else if config.variants[..i].iter().any(|o| o.label == v.label) {
-            bad(format!("variants[{i}].label"), format!("{:?} is used by an earlier variant; labels must differ", v.label));
+            bad(
+                format!("variants[{i}].label"),
+                format!("{:?} is used by an earlier variant; labels must differ", v.label),
+            );
         }
         if !v.learner.is_object() {
             bad(format!("variants[{i}].learner"), "must be an object of learner settings".into());

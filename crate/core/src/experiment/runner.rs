@@ -98,7 +98,9 @@ pub struct Job {
 /// The upper step edges of `points` equal bins over `steps` steps: bin `b`
 /// holds the steps in `(edges[b-1], edges[b]]`.
 pub fn bin_edges(steps: u64, points: u32) -> Vec<u64> {
-    (1..=u64::from(points)).map(|b| ((u128::from(b) * u128::from(steps)) / u128::from(points)) as u64).collect()
+    (1..=u64::from(points))
+        .map(|b| ((u128::from(b) * u128::from(steps)) / u128::from(points)) as u64)
+        .collect()
 }
 
 /// The bin holding a (1-based) step.
@@ -113,7 +115,8 @@ impl Job {
         let cfg = &plan.config;
         let task = plan.make_task();
         let spec = task.spec().clone();
-        let learner = build_learner(&plan.variants[variant].setup, &spec).expect("a validated plan's learner builds");
+        let learner =
+            build_learner(&plan.variants[variant].setup, &spec).expect("a validated plan's learner builds");
         let n_obs = spec.state_vars.len();
         let edges = bin_edges(cfg.steps, cfg.curve_points);
         Job {
@@ -200,7 +203,11 @@ impl Job {
         if !self.in_episode {
             self.task.reset(&mut self.task_rng, &mut self.obs);
             self.obs_id = self.task.state_id();
-            self.learner.act(Obs { values: &self.obs, id: self.obs_id }, &mut self.agent_rng, &mut self.action);
+            self.learner.act(
+                Obs { values: &self.obs, id: self.obs_id },
+                &mut self.agent_rng,
+                &mut self.action,
+            );
             self.in_episode = true;
             self.ep_len = 0;
             self.ep_base = 0.0;

@@ -210,7 +210,10 @@ impl LearnerSetup {
             }
         }
         if spec.actions.discrete_count().is_none() {
-            bad("algo", format!("{:?} needs discrete actions; {} has continuous actions", self.algo, spec.kind));
+            bad(
+                "algo",
+                format!("{:?} needs discrete actions; {} has continuous actions", self.algo, spec.kind),
+            );
         }
         if let Err(e) = build_features(&self.features_or_default(spec), spec) {
             let crate::approx::FeatureError::Invalid(field, message) = e;

@@ -99,7 +99,8 @@ mod tests {
             plus.prefs.w[j] += eps;
             let mut minus = base.clone();
             minus.prefs.w[j] -= eps;
-            let fd = (libm::log(plus.probabilities(&x)[a]) - libm::log(minus.probabilities(&x)[a])) / (2.0 * eps);
+            let fd =
+                (libm::log(plus.probabilities(&x)[a]) - libm::log(minus.probabilities(&x)[a])) / (2.0 * eps);
             // Analytic: coefficient of weight j = (1[a=b] − π_b) x_i.
             let (b, i) = (j / 3, j % 3);
             let mut p = base.clone();

@@ -81,7 +81,12 @@ impl CartPole {
         let var = |name: &str, lim: f64| StateVar { name: name.into(), low: -lim, high: lim };
         let spec = TaskSpec {
             kind: "cartpole",
-            state_vars: vec![var("x", X_LIMIT), var("x_dot", 3.0), var("theta", THETA_LIMIT), var("theta_dot", 3.5)],
+            state_vars: vec![
+                var("x", X_LIMIT),
+                var("x_dot", 3.0),
+                var("theta", THETA_LIMIT),
+                var("theta_dot", 3.5),
+            ],
             actions: ActionSpace::Discrete(vec!["push_left".into(), "push_right".into()]),
             n_states: None,
             default_discount: 0.99,

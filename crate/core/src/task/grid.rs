@@ -110,10 +110,7 @@ fn check_reward(field: &str, v: f64) -> Result<(), TaskError> {
     if v.is_finite() && (-1000.0..=1000.0).contains(&v) {
         Ok(())
     } else {
-        Err(TaskError::Invalid(
-            field.into(),
-            format!("must be a number in [-1000, 1000], got {v}"),
-        ))
+        Err(TaskError::Invalid(field.into(), format!("must be a number in [-1000, 1000], got {v}")))
     }
 }
 
@@ -125,10 +122,7 @@ impl GridWorld {
             return bad("map", "is empty: give at least one row".into());
         }
         if cfg.map.len() > MAX_SIDE {
-            return bad(
-                "map",
-                format!("has {} rows; at most {MAX_SIDE} are allowed", cfg.map.len()),
-            );
+            return bad("map", format!("has {} rows; at most {MAX_SIDE} are allowed", cfg.map.len()));
         }
         let cols = cfg.map[0].chars().count();
         let rows = cfg.map.len();
@@ -143,10 +137,7 @@ impl GridWorld {
                 );
             }
             if n == 0 || n > MAX_SIDE {
-                return bad(
-                    &format!("map[{r}]"),
-                    format!("has {n} characters; a row needs 1 to {MAX_SIDE}"),
-                );
+                return bad(&format!("map[{r}]"), format!("has {n} characters; a row needs 1 to {MAX_SIDE}"));
             }
             for (c, ch) in line.chars().enumerate() {
                 let cell = match ch {
@@ -327,7 +318,8 @@ impl Task for GridWorld {
                 let mut list: Vec<Outcome> = Vec::new();
                 if !terminal[s] {
                     let slip = self.cfg.slip;
-                    for (dir, prob) in [(a, 1.0 - slip), ((a + 1) % 4, slip * 0.5), ((a + 3) % 4, slip * 0.5)] {
+                    for (dir, prob) in [(a, 1.0 - slip), ((a + 1) % 4, slip * 0.5), ((a + 3) % 4, slip * 0.5)]
+                    {
                         if prob <= 0.0 {
                             continue;
                         }
@@ -435,9 +427,12 @@ mod tests {
     #[test]
     fn bad_maps_are_named() {
         let e = |map: &[&str]| {
-            GridWorld::new(GridConfig { map: map.iter().map(|s| s.to_string()).collect(), ..GridConfig::default() })
-                .unwrap_err()
-                .to_string()
+            GridWorld::new(GridConfig {
+                map: map.iter().map(|s| s.to_string()).collect(),
+                ..GridConfig::default()
+            })
+            .unwrap_err()
+            .to_string()
         };
         assert!(e(&["#S.#", "#.D"]).starts_with("map[1]: has 3 characters"));
         assert!(e(&["#S.x"]).contains("column 3: unknown character 'x'"));
