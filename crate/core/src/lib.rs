@@ -8,6 +8,7 @@
 #![deny(missing_docs)]
 
 pub mod approx;
+pub mod exact;
 pub mod experiment;
 pub mod learn;
 pub mod policy;
