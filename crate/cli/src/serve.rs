@@ -124,29 +124,18 @@ pub struct Server {
 
 /// Checks `root` and binds 127.0.0.1:`port` (0 lets the system choose).
 pub fn bind(root: &Path, port: u16) -> Result<Server, ServeError> {
-    let canonical = fs::canonicalize(root).map_err(|source| ServeError::Root {
-        path: root.to_path_buf(),
-        source,
-    })?;
+    let canonical =
+        fs::canonicalize(root).map_err(|source| ServeError::Root { path: root.to_path_buf(), source })?;
     if !canonical.is_dir() {
-        return Err(ServeError::RootNotDirectory {
-            path: root.to_path_buf(),
-        });
+        return Err(ServeError::RootNotDirectory { path: root.to_path_buf() });
     }
-    let listener =
-        TcpListener::bind((Ipv4Addr::LOCALHOST, port)).map_err(|source| match source.kind() {
-            io::ErrorKind::AddrInUse => ServeError::PortBusy { port },
-            io::ErrorKind::PermissionDenied => ServeError::PortDenied { port },
-            _ => ServeError::Bind { port, source },
-        })?;
-    let addr = listener
-        .local_addr()
-        .map_err(|source| ServeError::Bind { port, source })?;
-    Ok(Server {
-        listener,
-        root: canonical,
-        addr,
-    })
+    let listener = TcpListener::bind((Ipv4Addr::LOCALHOST, port)).map_err(|source| match source.kind() {
+        io::ErrorKind::AddrInUse => ServeError::PortBusy { port },
+        io::ErrorKind::PermissionDenied => ServeError::PortDenied { port },
+        _ => ServeError::Bind { port, source },
+    })?;
+    let addr = listener.local_addr().map_err(|source| ServeError::Bind { port, source })?;
+    Ok(Server { listener, root: canonical, addr })
 }
 
 impl Server {
@@ -184,12 +173,10 @@ impl Server {
             }
             let root = Arc::clone(&root);
             let done = Arc::clone(&active);
-            let spawned = thread::Builder::new()
-                .name("critbox-serve".to_string())
-                .spawn(move || {
-                    serve_connection(&root, stream);
-                    done.fetch_sub(1, Ordering::SeqCst);
-                });
+            let spawned = thread::Builder::new().name("critbox-serve".to_string()).spawn(move || {
+                serve_connection(&root, stream);
+                done.fetch_sub(1, Ordering::SeqCst);
+            });
             if let Err(err) = spawned {
                 active.fetch_sub(1, Ordering::SeqCst);
                 eprintln!("critbox serve: cannot start a thread for a connection: {err}");
@@ -210,10 +197,7 @@ fn serve_connection(root: &Path, mut stream: TcpStream) {
         Err(HeadError::Io) => return,
     };
     if response.status >= 400 {
-        eprintln!(
-            "critbox serve: {} {}",
-            response.status, response.request_line
-        );
+        eprintln!("critbox serve: {} {}", response.status, response.request_line);
     }
     let _ = stream.write_all(&response.to_bytes());
     let _ = stream.flush();
@@ -241,11 +225,7 @@ fn read_head(stream: &mut impl Read) -> Result<Option<Vec<u8>>, HeadError> {
             Err(_) => return Err(HeadError::Io),
         };
         if n == 0 {
-            return if head.is_empty() {
-                Ok(None)
-            } else {
-                Err(HeadError::Incomplete)
-            };
+            return if head.is_empty() { Ok(None) } else { Err(HeadError::Incomplete) };
         }
         head.extend_from_slice(&chunk[..n]);
         if let Some(end) = head_end(&head) {
@@ -269,10 +249,7 @@ fn head_end(buf: &[u8]) -> Option<usize> {
 }
 
 fn first_line(bytes: &[u8]) -> &[u8] {
-    let end = bytes
-        .iter()
-        .position(|&b| b == b'\r' || b == b'\n')
-        .unwrap_or(bytes.len());
+    let end = bytes.iter().position(|&b| b == b'\r' || b == b'\n').unwrap_or(bytes.len());
     &bytes[..end]
 }
 
@@ -316,10 +293,7 @@ impl Response {
     /// The value of the first header called `name` (case-insensitive).
     #[cfg(test)]
     pub fn header(&self, name: &str) -> Option<&str> {
-        self.headers
-            .iter()
-            .find(|(n, _)| n.eq_ignore_ascii_case(name))
-            .map(|(_, v)| v.as_str())
+        self.headers.iter().find(|(n, _)| n.eq_ignore_ascii_case(name)).map(|(_, v)| v.as_str())
     }
 
     /// Status line, headers, blank line and body as sent on the wire.
@@ -353,11 +327,7 @@ fn reason(status: u16) -> &'static str {
 /// The media type for a file name, by its extension (case-insensitive).
 /// Unknown extensions get `application/octet-stream`.
 pub fn mime_type(path: &Path) -> &'static str {
-    let ext = path
-        .extension()
-        .and_then(|e| e.to_str())
-        .unwrap_or("")
-        .to_ascii_lowercase();
+    let ext = path.extension().and_then(|e| e.to_str()).unwrap_or("").to_ascii_lowercase();
     match ext.as_str() {
         "html" | "htm" => "text/html; charset=utf-8",
         "js" | "mjs" => "text/javascript; charset=utf-8",
@@ -381,11 +351,7 @@ pub fn handle(root: &Path, request: &[u8]) -> Response {
         Ok(root) => answer(&root, line),
         Err(_) => Response::error(500, "the served folder is gone"),
     };
-    response.request_line = String::from_utf8_lossy(line)
-        .split(' ')
-        .take(2)
-        .collect::<Vec<_>>()
-        .join(" ");
+    response.request_line = String::from_utf8_lossy(line).split(' ').take(2).collect::<Vec<_>>().join(" ");
     response
 }
 
@@ -471,9 +437,7 @@ enum Refusal {
 impl Refusal {
     fn response(self) -> Response {
         match self {
-            Refusal::BadEncoding => {
-                Response::error(400, "bad percent-encoding or non-UTF-8 bytes in path")
-            }
+            Refusal::BadEncoding => Response::error(400, "bad percent-encoding or non-UTF-8 bytes in path"),
             Refusal::Forbidden => Response::error(403, "this path is outside the served folder"),
             Refusal::NotFound => Response::error(404, "no such file"),
             Refusal::ReadFailed => Response::error(500, "the file could not be read"),
@@ -538,10 +502,7 @@ fn resolve(root: &Path, relative: &Path, trailing_slash: bool) -> Result<Resolve
     let real = canonical_inside(root, &root.join(relative))?;
     if real.is_dir() {
         if relative.as_os_str().is_empty() || trailing_slash {
-            return Ok(Resolved::File(canonical_inside(
-                root,
-                &real.join("index.html"),
-            )?));
+            return Ok(Resolved::File(canonical_inside(root, &real.join("index.html"))?));
         }
         return Ok(Resolved::Directory);
     }
@@ -593,8 +554,7 @@ mod tests {
     impl Fixture {
         fn new() -> Fixture {
             let n = NEXT_DIR.fetch_add(1, Ordering::SeqCst);
-            let base =
-                std::env::temp_dir().join(format!("critbox-serve-{}-{n}", std::process::id()));
+            let base = std::env::temp_dir().join(format!("critbox-serve-{}-{n}", std::process::id()));
             let _ = fs::remove_dir_all(&base);
             let root = base.join("site");
             fs::create_dir_all(root.join("js")).unwrap();
@@ -613,10 +573,7 @@ mod tests {
         }
 
         fn get(&self, target: &str) -> Response {
-            handle(
-                &self.root,
-                format!("GET {target} HTTP/1.1\r\nHost: x\r\n\r\n").as_bytes(),
-            )
+            handle(&self.root, format!("GET {target} HTTP/1.1\r\nHost: x\r\n\r\n").as_bytes())
         }
     }
 
@@ -671,14 +628,8 @@ mod tests {
             assert_eq!(mime_type(Path::new(name)), want, "{name}");
         }
         let f = Fixture::new();
-        assert_eq!(
-            f.get("/js/app.js").header("Content-Type"),
-            Some("text/javascript; charset=utf-8")
-        );
-        assert_eq!(
-            f.get("/js/mod.mjs").header("Content-Type"),
-            Some("text/javascript; charset=utf-8")
-        );
+        assert_eq!(f.get("/js/app.js").header("Content-Type"), Some("text/javascript; charset=utf-8"));
+        assert_eq!(f.get("/js/mod.mjs").header("Content-Type"), Some("text/javascript; charset=utf-8"));
         let wasm = f.get("/pkg/critbox_wasm.wasm");
         assert_eq!(wasm.status, 200);
         assert_eq!(wasm.header("Content-Type"), Some("application/wasm"));
@@ -688,13 +639,7 @@ mod tests {
     #[test]
     fn missing_and_hidden_files_are_404() {
         let f = Fixture::new();
-        for target in [
-            "/nope.js",
-            "/js/nope.js",
-            "/.hidden",
-            "/js/app.js/",
-            "/index.html/x",
-        ] {
+        for target in ["/nope.js", "/js/nope.js", "/.hidden", "/js/app.js/", "/index.html/x"] {
             let r = f.get(target);
             assert_eq!(r.status, 404, "{target}");
             assert!(!body_text(&r).contains("hidden\n"), "{target}");
@@ -712,10 +657,7 @@ mod tests {
         assert_eq!(head.header("Content-Length"), get.header("Content-Length"));
         assert_eq!(head.header("Content-Type"), Some("text/css; charset=utf-8"));
         let wire = head.to_bytes();
-        assert!(
-            wire.ends_with(b"\r\n\r\n"),
-            "HEAD must end after the headers"
-        );
+        assert!(wire.ends_with(b"\r\n\r\n"), "HEAD must end after the headers");
         let missing = handle(&f.root, b"HEAD /nope HTTP/1.1\r\n\r\n");
         assert_eq!(missing.status, 404);
         assert!(missing.body.is_empty());
@@ -790,10 +732,7 @@ mod tests {
         let f = Fixture::new();
         assert_eq!(body_text(&f.get("/style.css?v=3#top")), "p{}");
         assert_eq!(body_text(&f.get("/a%20b.txt")), "spaced");
-        assert_eq!(
-            body_text(&f.get("/?config=abc")),
-            "<!doctype html><p>home</p>"
-        );
+        assert_eq!(body_text(&f.get("/?config=abc")), "<!doctype html><p>home</p>");
         assert_eq!(body_text(&f.get("//js//./app.js")), "export {};");
     }
 
@@ -813,10 +752,7 @@ mod tests {
         assert_eq!(handle(&f.root, b"").status, 400);
         assert_eq!(handle(&f.root, b"GET / HTTP/1.0\n\n").status, 200);
         let wire = String::from_utf8(post.to_bytes()).unwrap();
-        assert!(
-            wire.starts_with("HTTP/1.1 405 Method Not Allowed\r\n"),
-            "{wire}"
-        );
+        assert!(wire.starts_with("HTTP/1.1 405 Method Not Allowed\r\n"), "{wire}");
         assert!(wire.contains("\r\nAllow: GET, HEAD\r\n"), "{wire}");
     }
 
@@ -829,9 +765,7 @@ mod tests {
         for _ in 0..2000 {
             let mut req = Vec::new();
             for _ in 0..(state % 40) {
-                state = state
-                    .wrapping_mul(6364136223846793005)
-                    .wrapping_add(1442695040888963407);
+                state = state.wrapping_mul(6364136223846793005).wrapping_add(1442695040888963407);
                 req.push(alphabet[(state >> 33) as usize % alphabet.len()]);
             }
             let r = handle(&f.root, &req);
@@ -852,10 +786,7 @@ mod tests {
         ));
         let mut big = b"GET / HTTP/1.1\r\n".to_vec();
         big.extend(std::iter::repeat_n(b'x', MAX_HEAD + 10));
-        assert!(matches!(
-            read_head(&mut Cursor::new(big)),
-            Err(HeadError::TooLarge)
-        ));
+        assert!(matches!(read_head(&mut Cursor::new(big)), Err(HeadError::TooLarge)));
     }
 
     #[test]
@@ -867,10 +798,7 @@ mod tests {
         assert!(err.to_string().contains("no-such-folder"), "{err}");
         let file = f.root.join("index.html");
         let err = bind(&file, 0).unwrap_err();
-        assert!(
-            matches!(err, ServeError::RootNotDirectory { .. }),
-            "{err:?}"
-        );
+        assert!(matches!(err, ServeError::RootNotDirectory { .. }), "{err:?}");
         assert!(err.to_string().contains("not a folder"), "{err}");
     }
 
@@ -880,19 +808,14 @@ mod tests {
         let taken = TcpListener::bind((Ipv4Addr::LOCALHOST, 0)).unwrap();
         let port = taken.local_addr().unwrap().port();
         let err = bind(&f.root, port).unwrap_err();
-        assert!(
-            matches!(err, ServeError::PortBusy { port: p } if p == port),
-            "{err:?}"
-        );
+        assert!(matches!(err, ServeError::PortBusy { port: p } if p == port), "{err:?}");
         assert!(err.to_string().contains(&format!("port {port} ")), "{err}");
     }
 
     /// Sends `request` to a live server and returns everything it answered.
     fn exchange(addr: SocketAddr, request: &[u8]) -> String {
         let mut stream = TcpStream::connect(addr).unwrap();
-        stream
-            .set_read_timeout(Some(Duration::from_secs(20)))
-            .unwrap();
+        stream.set_read_timeout(Some(Duration::from_secs(20))).unwrap();
         stream.write_all(request).unwrap();
         let mut out = Vec::new();
         stream.read_to_end(&mut out).unwrap();
@@ -912,10 +835,7 @@ mod tests {
         let page = exchange(addr, b"GET / HTTP/1.1\r\nHost: 127.0.0.1\r\n\r\n");
         assert!(page.starts_with("HTTP/1.1 200 OK\r\n"), "{page}");
         assert!(page.contains("\r\nConnection: close\r\n"), "{page}");
-        assert!(
-            page.ends_with("\r\n\r\n<!doctype html><p>home</p>"),
-            "{page}"
-        );
+        assert!(page.ends_with("\r\n\r\n<!doctype html><p>home</p>"), "{page}");
 
         let head = exchange(addr, b"HEAD /js/app.js HTTP/1.1\r\n\r\n");
         assert!(head.starts_with("HTTP/1.1 200 OK\r\n"), "{head}");
