@@ -107,6 +107,15 @@ pub struct Config {
     /// averaged, in (0, 1]. Default 0.1.
     #[serde(default = "default_final_fraction")]
     pub final_fraction: f64,
+    /// Return level for the "steps to reach" score (a finite number, or
+    /// absent for no such score). Default absent.
+    #[serde(default)]
+    pub threshold: Option<f64>,
+    /// Difference of final returns the seeds advisor sizes the experiment to
+    /// detect (> 0, or absent to use each pair's observed difference).
+    /// Default absent.
+    #[serde(default)]
+    pub detect_difference: Option<f64>,
 }
 
 /// One problem in a config: where and what.
@@ -298,6 +307,16 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
     }
     if !(config.final_fraction > 0.0 && config.final_fraction <= 1.0) {
         bad("final_fraction".into(), format!("must be in (0, 1], got {}", config.final_fraction));
+    }
+    if let Some(t) = config.threshold {
+        if !t.is_finite() {
+            bad("threshold".into(), format!("must be a finite number, got {t}"));
+        }
+    }
+    if let Some(d) = config.detect_difference {
+        if !(d > 0.0 && d.is_finite()) {
+            bad("detect_difference".into(), format!("must be a finite number > 0, got {d}"));
+        }
     }
     if !config.base.is_object() {
         bad("base".into(), "must be an object of learner settings".into());

@@ -8,6 +8,7 @@
 //! size with identical results. [`results::Results`] bins episode returns on
 //! environment steps and summarises them across seeds.
 
+pub mod compare;
 pub mod config;
 pub mod results;
 pub mod runner;
