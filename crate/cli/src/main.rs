@@ -12,7 +12,11 @@ use std::process::ExitCode;
 
 const USAGE: &str = "\
 usage:
-  critbox run CONFIG.json          run every (variant, seed) job and print the summary JSON
+  critbox run CONFIG.json [--csv FILE] [--save FILE]
+                                   run every (variant, seed) job and print the summary JSON;
+                                   --csv writes the tidy CSV (variant,label,seed,step,metric,value),
+                                   --save a results file that `critbox open` and the page reopen
+  critbox open RESULTS.json        print the summary of a saved results file without re-running
   critbox validate CONFIG.json     check a config; print its plan or the problems
   critbox serve [--root DIR] [--port N]
                                    serve the page on 127.0.0.1 (default root web, port 8000)
@@ -52,6 +56,10 @@ fn one_arg(args: &[String], cmd: &str) -> Result<String, Failure> {
     }
 }
 
+fn write_file(path: &str, text: &str) -> Result<(), Failure> {
+    std::fs::write(path, text).map_err(|e| Failure::Other(format!("cannot write {path}: {e}")))
+}
+
 fn print_json(v: &serde_json::Value) -> Result<(), Failure> {
     let text = serde_json::to_string_pretty(v).map_err(|e| Failure::Other(e.to_string()))?;
     println!("{text}");
@@ -64,8 +72,46 @@ fn run(args: &[String]) -> Result<(), Failure> {
     };
     match cmd.as_str() {
         "run" => {
-            let plan = plan_of(&one_arg(rest, "run")?)?;
+            let mut config = None;
+            let (mut csv, mut save) = (None, None);
+            let mut it = rest.iter();
+            while let Some(a) = it.next() {
+                match a.as_str() {
+                    "--csv" | "--save" => {
+                        let f = it.next().ok_or_else(|| Failure::Usage(format!("{a} needs a file name")))?;
+                        if a == "--csv" {
+                            csv = Some(f.clone())
+                        } else {
+                            save = Some(f.clone())
+                        }
+                    }
+                    other if other.starts_with("--") => {
+                        return Err(Failure::Usage(format!("run: unknown option {other:?}")))
+                    }
+                    other if config.is_none() => config = Some(other.to_string()),
+                    _ => {
+                        return Err(Failure::Usage("`critbox run` takes exactly one CONFIG argument".into()))
+                    }
+                }
+            }
+            let config =
+                config.ok_or_else(|| Failure::Usage("`critbox run` needs a CONFIG argument".into()))?;
+            let plan = plan_of(&config)?;
             let results = critbox_core::experiment::run_all(&plan);
+            if let Some(path) = csv {
+                write_file(&path, &critbox_core::experiment::export::tidy_csv(&results))?;
+            }
+            if let Some(path) = save {
+                write_file(&path, &critbox_core::experiment::export::save(&plan, &results).to_string())?;
+            }
+            print_json(&results.summary())
+        }
+        "open" => {
+            let path = one_arg(rest, "open")?;
+            let text = std::fs::read_to_string(&path)
+                .map_err(|e| Failure::BadInput(format!("cannot read {path}: {e}")))?;
+            let (_, results) = critbox_core::experiment::export::load(&text)
+                .map_err(|e| Failure::BadInput(format!("{path}: {e}")))?;
             print_json(&results.summary())
         }
         "validate" => {

@@ -80,3 +80,36 @@ fn bad_config_names_the_field_and_exits_2() {
     let out = critbox().arg("frobnicate").output().unwrap();
     assert_eq!(out.status.code(), Some(2));
 }
+
+#[test]
+fn csv_and_saved_results_round_trip() {
+    let dir = std::env::temp_dir().join(format!("critbox-cli-save-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let (csv, saved) = (dir.join("out.csv"), dir.join("results.json"));
+    let out = critbox()
+        .arg("run")
+        .arg(small_rover(&dir))
+        .arg("--csv")
+        .arg(&csv)
+        .arg("--save")
+        .arg(&saved)
+        .output()
+        .unwrap();
+    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    let text = std::fs::read_to_string(&csv).unwrap();
+    assert!(text.starts_with("variant,label,seed,step,metric,value\n"));
+    assert!(text.lines().any(|l| l.ends_with(&format!(",final_return,{}", {
+        let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+        v["variants"][0]["per_seed_final"][0].as_f64().unwrap()
+    }))));
+    let reopened = critbox().arg("open").arg(&saved).output().unwrap();
+    assert!(reopened.status.success());
+    assert_eq!(reopened.stdout, out.stdout);
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let c = &v["comparisons"][0];
+    assert!(c["prob_improvement"]["value"].is_f64() && c["welch"]["p"].is_f64() && c["verdict"].is_string());
+    std::fs::write(dir.join("junk.json"), "{\"critbox_results\": 9}").unwrap();
+    let bad = critbox().arg("open").arg(dir.join("junk.json")).output().unwrap();
+    assert_eq!(bad.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&bad.stderr).contains("version 9"));
+}

@@ -129,6 +129,7 @@ impl Run {
 #[wasm_bindgen]
 pub struct Results {
     inner: experiment::Results,
+    plan: Plan,
     variants: usize,
 }
 
@@ -138,7 +139,54 @@ impl Results {
     #[wasm_bindgen(constructor)]
     pub fn new(json: &str) -> Result<Results, JsError> {
         let plan = plan_of(json)?;
-        Ok(Results { inner: experiment::Results::new(&plan), variants: plan.variants.len() })
+        Ok(Results { inner: experiment::Results::new(&plan), variants: plan.variants.len(), plan })
+    }
+
+    /// Rebuilds results from a saved results file (see `saveJson`) without
+    /// re-running; throws with the field that is wrong.
+    #[wasm_bindgen(js_name = fromSaved)]
+    pub fn from_saved(text: &str) -> Result<Results, JsError> {
+        let (plan, inner) = experiment::export::load(text).map_err(|e| JsError::new(&e.to_string()))?;
+        Ok(Results { inner, variants: plan.variants.len(), plan })
+    }
+
+    /// The config (defaults filled in) as JSON text.
+    #[wasm_bindgen(js_name = configJson)]
+    pub fn config_json(&self) -> String {
+        serde_json::to_string(&self.plan.config).unwrap_or_default()
+    }
+
+    /// The results file (config, every episode record, summary) as JSON text.
+    #[wasm_bindgen(js_name = saveJson)]
+    pub fn save_json(&self) -> String {
+        experiment::export::save(&self.plan, &self.inner).to_string()
+    }
+
+    /// The tidy CSV: `variant,label,seed,step,metric,value`.
+    #[wasm_bindgen(js_name = tidyCsv)]
+    pub fn tidy_csv(&self) -> String {
+        experiment::export::tidy_csv(&self.inner)
+    }
+
+    /// A variant's robust curve, stride 2 per bin: IQM and median over seeds.
+    #[wasm_bindgen(js_name = curveRobust)]
+    pub fn curve_robust(&self, variant: u32) -> Result<Vec<f64>, JsError> {
+        if variant as usize >= self.variants {
+            return Err(JsError::new(&format!(
+                "variant {variant} is out of range ({} variants)",
+                self.variants
+            )));
+        }
+        Ok(self.inner.curve(variant as usize).iter().flat_map(|p| [p.iqm, p.median]).collect())
+    }
+
+    /// One seed's binned curve (NaN where it has no data yet), for thin per-seed lines.
+    #[wasm_bindgen(js_name = seedCurve)]
+    pub fn seed_curve(&self, variant: u32, seed: u32) -> Result<Vec<f64>, JsError> {
+        if variant as usize >= self.variants || seed as usize >= self.inner.seeds() {
+            return Err(JsError::new(&format!("variant {variant} / seed {seed} is out of range")));
+        }
+        Ok(self.inner.seed_curve(variant as usize, seed as usize))
     }
 
     /// Adds episode records, stride 5 as [`Run::take_episodes`] gives them.

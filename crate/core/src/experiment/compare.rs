@@ -43,7 +43,8 @@ pub fn score(xs: &[f64], master: u64, key: u64, index: u64) -> Score {
     let s = stats::summarize(xs);
     let mut rng = Stream::derive(master, Purpose::Stats, key, index);
     let boot = if xs.len() >= 2 { stats::bootstrap_mean_ci(xs, 0.95, RESAMPLES, &mut rng) } else { None };
-    let iqm_ci = if xs.len() >= 2 { stats::bootstrap_ci(xs, 0.95, RESAMPLES, &mut rng, stats::iqm) } else { None };
+    let iqm_ci =
+        if xs.len() >= 2 { stats::bootstrap_ci(xs, 0.95, RESAMPLES, &mut rng, stats::iqm) } else { None };
     Score {
         n: xs.len(),
         mean: if xs.is_empty() { f64::NAN } else { s.mean },
@@ -263,6 +264,10 @@ mod tests {
         let c = compare(0, 1, "g2", "g1", &g2, &g1, 1, None);
         let w = c.welch.unwrap();
         assert!((w.t + 1.8608).abs() < 5e-5 && (w.df - 17.776).abs() < 5e-4 && (w.p - 0.07939).abs() < 5e-6);
-        assert!(c.verdict.starts_with("no detectable difference at 10 seeds each (g1 − g2 = -1.58"), "{}", c.verdict);
+        assert!(
+            c.verdict.starts_with("no detectable difference at 10 seeds each (g1 − g2 = -1.58"),
+            "{}",
+            c.verdict
+        );
     }
 }

@@ -10,6 +10,7 @@
 
 pub mod compare;
 pub mod config;
+pub mod export;
 pub mod results;
 pub mod runner;
 

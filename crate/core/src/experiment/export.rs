@@ -1,0 +1,233 @@
+//! Export and import of results.
+//!
+//! [`tidy_csv`] writes one row per (variant, seed, step bin, metric) with the
+//! columns `variant,label,seed,step,metric,value`, ready for a data-frame
+//! library; numbers use Rust's shortest round-trip form, so reading them back
+//! gives the same `f64` bits. [`save`] writes a results file (the config with
+//! defaults filled in, every job's episode records, and the summary) and
+//! [`load`] rebuilds the [`Results`] from it without re-running, checking
+//! every field it reads.
+
+use serde_json::{json, Value};
+
+use crate::experiment::config::{validate_value, Plan};
+use crate::experiment::results::Results;
+use crate::experiment::runner::EpisodeRecord;
+
+/// Version of the results file format.
+pub const RESULTS_VERSION: u32 = 1;
+
+fn csv_field(s: &str) -> String {
+    if s.contains([',', '"', '\n', '\r']) {
+        format!("\"{}\"", s.replace('"', "\"\""))
+    } else {
+        s.to_string()
+    }
+}
+
+fn csv_num(x: f64) -> String {
+    if x.is_finite() {
+        format!("{x}")
+    } else {
+        String::new()
+    }
+}
+
+/// The tidy CSV of a results set. Metrics: `base_return` (the seed's binned
+/// curve value, one row per bin where it has data), `final_return` and `auc`
+/// (one row per seed, at the budget's last step).
+pub fn tidy_csv(r: &Results) -> String {
+    let mut out = String::from("variant,label,seed,step,metric,value\n");
+    let edges: Vec<u64> =
+        crate::experiment::runner::bin_edges(r.steps(), r.curve(0).len().max(2) as u32).into_iter().collect();
+    for (v, label) in r.labels().iter().enumerate() {
+        let label = csv_field(label);
+        let finals = r.final_per_seed(v);
+        let aucs = r.auc_per_seed(v);
+        for s in 0..r.seeds() {
+            for (b, value) in r.seed_curve(v, s).into_iter().enumerate() {
+                if !value.is_nan() {
+                    out.push_str(&format!("{v},{label},{s},{},base_return,{}\n", edges[b], csv_num(value)));
+                }
+            }
+            if let Some(f) = finals[s] {
+                out.push_str(&format!("{v},{label},{s},{},final_return,{}\n", r.steps(), csv_num(f)));
+            }
+            if let Some(a) = aucs[s] {
+                out.push_str(&format!("{v},{label},{s},{},auc,{}\n", r.steps(), csv_num(a)));
+            }
+        }
+    }
+    out
+}
+
+/// The results file: config, episode records per job, summary.
+pub fn save(plan: &Plan, r: &Results) -> Value {
+    let jobs: Vec<Value> = (0..r.job_count())
+        .map(|id| {
+            let (eps, steps_done, failed) = r.job_record(id);
+            json!({
+                "id": id,
+                "steps_done": steps_done,
+                "failed": failed,
+                "episodes": eps.iter().map(|e| json!([e.end_step, e.base_return, e.shaped_return, e.length, e.truncated])).collect::<Vec<_>>(),
+            })
+        })
+        .collect();
+    json!({
+        "critbox_results": RESULTS_VERSION,
+        "config": serde_json::to_value(&plan.config).expect("a config serialises"),
+        "jobs": jobs,
+        "summary": r.summary(),
+    })
+}
+
+/// Errors reading a results file.
+#[derive(Clone, Debug, PartialEq)]
+pub enum LoadError {
+    /// The text is not JSON.
+    Json(String),
+    /// A field is missing or wrong: (path, message).
+    Field(String, String),
+    /// The embedded config does not validate.
+    Config(String),
+}
+
+impl std::fmt::Display for LoadError {
+    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
+        match self {
+            LoadError::Json(m) => write!(f, "results file: not valid JSON: {m}"),
+            LoadError::Field(p, m) => write!(f, "results file: {p}: {m}"),
+            LoadError::Config(m) => write!(f, "results file: config: {m}"),
+        }
+    }
+}
+
+impl std::error::Error for LoadError {}
+
+/// Rebuilds the plan and results from a results file's text.
+pub fn load(text: &str) -> Result<(Plan, Results), LoadError> {
+    let v: Value = serde_json::from_str(text).map_err(|e| LoadError::Json(e.to_string()))?;
+    let field = |p: &str, m: &str| LoadError::Field(p.into(), m.into());
+    match v.get("critbox_results").and_then(Value::as_u64) {
+        Some(1) => {}
+        Some(n) => {
+            return Err(field("critbox_results", &format!("version {n} is not one this build reads (1)")))
+        }
+        None => return Err(field("critbox_results", "missing: this is not a critbox results file")),
+    }
+    let config = v.get("config").ok_or_else(|| field("config", "missing"))?;
+    let plan = validate_value(config).map_err(|e| LoadError::Config(e.to_string()))?;
+    let mut r = Results::new(&plan);
+    let jobs =
+        v.get("jobs").and_then(Value::as_array).ok_or_else(|| field("jobs", "missing or not a list"))?;
+    if jobs.len() != plan.job_count() {
+        return Err(field(
+            "jobs",
+            &format!("has {} entries; the config makes {}", jobs.len(), plan.job_count()),
+        ));
+    }
+    for (i, j) in jobs.iter().enumerate() {
+        let at = |k: &str| format!("jobs[{i}].{k}");
+        let steps_done = j
+            .get("steps_done")
+            .and_then(Value::as_u64)
+            .ok_or_else(|| field(&at("steps_done"), "missing or not a whole number"))?;
+        if steps_done > plan.config.steps {
+            return Err(field(&at("steps_done"), "exceeds the config's step budget"));
+        }
+        let eps = j
+            .get("episodes")
+            .and_then(Value::as_array)
+            .ok_or_else(|| field(&at("episodes"), "missing or not a list"))?;
+        for (k, e) in eps.iter().enumerate() {
+            let bad = || {
+                field(
+                    &format!("jobs[{i}].episodes[{k}]"),
+                    "must be [end_step, base_return, shaped_return, length, truncated]",
+                )
+            };
+            let a = e.as_array().filter(|a| a.len() == 5).ok_or_else(bad)?;
+            let end_step = a[0].as_u64().filter(|&s| s >= 1 && s <= steps_done).ok_or_else(bad)?;
+            let (base, shaped) = (a[1].as_f64().ok_or_else(bad)?, a[2].as_f64().ok_or_else(bad)?);
+            let length = a[3].as_u64().filter(|&l| l <= u64::from(u32::MAX)).ok_or_else(bad)? as u32;
+            let truncated = a[4].as_bool().ok_or_else(bad)?;
+            r.add_episode(
+                i,
+                EpisodeRecord { end_step, base_return: base, shaped_return: shaped, length, truncated },
+            );
+        }
+        r.set_steps(i, steps_done);
+        match j.get("failed") {
+            None | Some(Value::Null) => {}
+            Some(Value::String(reason)) => r.mark_failed(i, reason.clone()),
+            Some(_) => return Err(field(&at("failed"), "must be null or a text")),
+        }
+    }
+    Ok((plan, r))
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::experiment::run_all;
+
+    fn small() -> Plan {
+        crate::experiment::config::validate_value(&json!({
+            "schema": 1,
+            "task": {"kind": "grid", "map": ["#######", "#S.~.D#", "#.....#", "#######"]},
+            "steps": 3000, "seeds": 3, "curve_points": 10,
+            "variants": [{"label": "a2c, tabular"}, {"label": "qac \"plain\"", "learner": {"algo": "qac"}}]
+        }))
+        .unwrap()
+    }
+
+    #[test]
+    fn csv_round_trip_gives_the_same_numbers() {
+        // Common practice, no source: shortest round-trip formatting of f64.
+        let plan = small();
+        let r = run_all(&plan);
+        let csv = tidy_csv(&r);
+        let mut lines = csv.lines();
+        assert_eq!(lines.next(), Some("variant,label,seed,step,metric,value"));
+        let mut n_final = 0;
+        for line in lines {
+            // Labels here hold a comma or quotes, so split from the right.
+            let parts: Vec<&str> = line.rsplitn(5, ',').collect();
+            let (value, metric, step, seed) = (parts[0], parts[1], parts[2], parts[3]);
+            let v: usize = line.split(',').next().unwrap().parse().unwrap();
+            let seed: usize = seed.parse().unwrap();
+            let value: f64 = value.parse().unwrap();
+            let step: u64 = step.parse().unwrap();
+            match metric {
+                "final_return" => {
+                    assert_eq!(value.to_bits(), r.final_per_seed(v)[seed].unwrap().to_bits());
+                    n_final += 1;
+                }
+                "auc" => assert_eq!(value.to_bits(), r.auc_per_seed(v)[seed].unwrap().to_bits()),
+                "base_return" => {
+                    let curve = r.seed_curve(v, seed);
+                    let b = r.curve(v).iter().position(|p| p.step == step).unwrap();
+                    assert_eq!(value.to_bits(), curve[b].to_bits());
+                }
+                other => panic!("unknown metric {other}"),
+            }
+        }
+        assert_eq!(n_final, 6);
+        assert!(csv.contains(",\"a2c, tabular\",") && csv.contains(",\"qac \"\"plain\"\"\","));
+    }
+
+    #[test]
+    fn saved_results_reopen_with_the_same_summary() {
+        let plan = small();
+        let r = run_all(&plan);
+        let text = save(&plan, &r).to_string();
+        let (plan2, r2) = load(&text).unwrap();
+        assert_eq!(plan2.config, plan.config);
+        assert_eq!(r2.summary(), r.summary());
+        assert!(load("{}").unwrap_err().to_string().contains("not a critbox results file"));
+        let mut v: Value = serde_json::from_str(&text).unwrap();
+        v["jobs"][1]["episodes"][0] = json!([0, 1, 1, 1, false]);
+        assert!(load(&v.to_string()).unwrap_err().to_string().contains("jobs[1].episodes[0]"));
+    }
+}
