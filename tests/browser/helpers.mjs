@@ -7,7 +7,7 @@ import { chromium } from 'playwright-core';
 import { startServer, repoRoot } from './server.mjs';
 
 export { repoRoot };
-export const outDir = path.join(repoRoot, 'test-output', 'browser');
+export const outDir = path.join(process.env.CRITBOX_TEST_OUTPUT || path.join(repoRoot, 'test-output'), 'browser');
 
 /** Start the server and the browser; returns {server, browser, close()}. */
 export async function setUp() {

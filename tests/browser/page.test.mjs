@@ -11,7 +11,7 @@ import { setUp, openPage, trainButtonAx, countColourInPlot, outDir, repoRoot } f
 const ROOT = process.env.CRITBOX_ROOT || repoRoot;
 const ROVER = 'rover-a2c-vs-qac.json';
 /** A step budget long enough that a run is still going when paused. */
-const LONG_STEPS = 1000000;
+const LONG_STEPS = 10000000;
 let env;
 
 before(async () => { env = await setUp(); });
@@ -19,6 +19,12 @@ after(async () => { await env?.close(); });
 
 async function preset(file) {
   return JSON.parse(await readFile(path.join(ROOT, 'web', 'presets', file), 'utf8'));
+}
+
+/** Screenshot with the settings sheet scrolled to its top. */
+async function shoot(page, name) {
+  await page.evaluate(() => { document.getElementById('experiment').scrollTop = 0; });
+  await page.screenshot({ path: path.join(outDir, name) });
 }
 
 async function waitForRunEnd(page, timeout = 180000) {
@@ -77,15 +83,14 @@ test('rover preset: train 3 seeds × 3000 steps, curves drawn, summary filled', 
   const hits = await countColourInPlot(page, colour);
   assert.ok(hits > 100, `only ${hits} pixels of ${colour} in the plot area`);
 
-  await page.evaluate(() => { document.getElementById('experiment').scrollTop = 0; });
-  await page.screenshot({ path: path.join(outDir, 'rover-trained-light.png') });
+  await shoot(page, 'rover-trained-light.png');
 
   // Same page in the dark scheme: the chart background follows it.
   await page.emulateMedia({ colorScheme: 'dark' });
   await page.evaluate(() => new Promise((r) => requestAnimationFrame(() => requestAnimationFrame(r))));
   const corner = await page.evaluate(() => Array.from(document.getElementById('curves').getContext('2d').getImageData(2, 2, 1, 1).data));
   assert.ok(corner[0] + corner[1] + corner[2] < 3 * 80, `dark chart background expected, got rgb(${corner.slice(0, 3)})`);
-  await page.screenshot({ path: path.join(outDir, 'rover-trained-dark.png') });
+  await shoot(page, 'rover-trained-dark.png');
 
   // Only the page's own files were asked for.
   const foreign = requests.filter((u) => !u.startsWith(env.server.url) && !u.startsWith('data:') && !u.startsWith('blob:'));
@@ -110,7 +115,7 @@ test('invalid input: the message names the field and the run button is disabled 
   assert.ok(ax, 'Train button in the accessibility tree');
   assert.equal(ax.disabled, true);
   assert.equal(ax.description.trim(), reason);
-  await page.screenshot({ path: path.join(outDir, 'invalid-actor-step.png') });
+  await shoot(page, 'invalid-actor-step.png');
 
   // Fixed again: the button comes back.
   await page.fill('#actor-step', '0.1');
@@ -124,7 +129,7 @@ test('invalid input: the message names the field and the run button is disabled 
   assert.match(mapReason, /task\.map/, mapReason);
   assert.equal(await page.getAttribute('#map', 'aria-invalid'), 'true');
   assert.equal((await trainButtonAx(page)).description.trim(), mapReason);
-  await page.screenshot({ path: path.join(outDir, 'invalid-map.png') });
+  await shoot(page, 'invalid-map.png');
 
   // A blank required field is caught by the form itself.
   await page.fill('#map', '#####\n#S.D#\n#####');
@@ -158,7 +163,7 @@ test('a worker that fails shows a message and the page keeps working', async () 
   const failures = await page.locator('#summary-body td.fail').count();
   assert.ok(failures >= 1, 'the summary lists the failed jobs');
   assert.equal(await page.isDisabled('#train'), false);
-  await page.screenshot({ path: path.join(outDir, 'worker-error.png') });
+  await shoot(page, 'worker-error.png');
   await context.close();
 });
 
@@ -191,7 +196,39 @@ test('pause holds the run still, resume goes on, cancel ends it with a partial s
   assert.match(await page.textContent('#summary-note'), /cancelled/);
   assert.equal(await page.isDisabled('#train'), false);
   assert.equal(await page.isDisabled('#pause'), true);
-  await page.screenshot({ path: path.join(outDir, 'cancelled.png') });
+  await shoot(page, 'cancelled.png');
+  assert.deepEqual(problems, []);
+  await context.close();
+});
+
+test('variants list: add one, override its learner, remove it', async () => {
+  const cfg = await preset(ROVER);
+  const n = cfg.variants.length;
+  const { page, context, problems } = await openPage(env);
+  await page.waitForFunction(() => !document.getElementById('train').disabled);
+
+  await page.click('#add-variant');
+  assert.equal(await page.locator('#variants > li').count(), n + 1);
+  await page.fill(`#v${n}-label`, 'QAC, small actor step');
+  await page.selectOption(`#v${n}-algo`, 'qac');
+  await page.fill(`#v${n}-actor`, '0.05');
+  // A blank field inherits: its placeholder shows the shared value.
+  assert.equal(await page.getAttribute(`#v${n}-critic`, 'placeholder'), String(cfg.base.critic_step));
+  await page.waitForFunction((k) => /Ready: (\d+) variants/.exec(document.getElementById('run-reason').textContent)?.[1] === String(k), n + 1);
+  const added = await page.evaluate((k) => window.__critbox.state.config.variants[k], n);
+  assert.deepEqual(added, { label: 'QAC, small actor step', learner: { algo: 'qac', actor_step: 0.05 } });
+  // The preset's own variants are untouched.
+  const kept = await page.evaluate((k) => window.__critbox.state.config.variants.slice(0, k), n);
+  assert.deepEqual(kept, cfg.variants);
+  await page.evaluate(() => new Promise((r) => requestAnimationFrame(() => requestAnimationFrame(r))));
+  const legend = await page.evaluate(() => window.__critbox.lastDraw.series.map((s) => s.label));
+  assert.deepEqual(legend, [...cfg.variants.map((v) => v.label), 'QAC, small actor step']);
+  await shoot(page, 'variant-added.png');
+
+  await page.click(`#variants > li:nth-child(${n + 1}) button.remove`);
+  assert.equal(await page.locator('#variants > li').count(), n);
+  const after = await page.evaluate(() => window.__critbox.state.config.variants);
+  assert.deepEqual(after, cfg.variants);
   assert.deepEqual(problems, []);
   await context.close();
 });

@@ -1,6 +1,7 @@
 // A tiny static file server for the browser tests: serves <root>/web on
 // 127.0.0.1 (port 0 = any free port), with the wasm MIME type, so the tests
-// need neither the Rust CLI nor any other server.
+// need neither the Rust CLI nor any other server. Every answer carries a
+// Content-Security-Policy like the page's own.
 // root: process.env.CRITBOX_ROOT, or the repository root.
 // Run by hand: `node tests/browser/server.mjs [port]` prints the address.
 
@@ -11,6 +12,12 @@ import { fileURLToPath } from 'node:url';
 
 const here = path.dirname(fileURLToPath(import.meta.url));
 export const repoRoot = path.resolve(here, '..', '..');
+
+/** Sent with every answer, so workers (which take their policy from their
+ * own response, not from the page) run under the same rules as the page:
+ * own files only, WebAssembly compilation allowed. */
+export const CSP = "default-src 'self'; script-src 'self' 'wasm-unsafe-eval'; worker-src 'self'; "
+  + "connect-src 'self'; img-src 'self' data:; style-src 'self'; object-src 'none'; base-uri 'none'";
 
 const TYPES = {
   '.html': 'text/html; charset=utf-8',
@@ -54,6 +61,8 @@ export async function startServer(opts = {}) {
         'Content-Type': TYPES[path.extname(file).toLowerCase()] || 'application/octet-stream',
         'Content-Length': body.length,
         'Cache-Control': 'no-store',
+        'Content-Security-Policy': CSP,
+        'X-Content-Type-Options': 'nosniff',
       });
       res.end(req.method === 'HEAD' ? undefined : body);
     } catch (err) {
