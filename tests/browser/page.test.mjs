@@ -104,6 +104,11 @@ test('invalid input: the message names the field and the run button is disabled 
   const { page, context, problems } = await openPage(env);
   await page.waitForFunction(() => !document.getElementById('train').disabled);
 
+  // Every form control has a label element.
+  const unlabelled = await page.evaluate(() => [...document.querySelectorAll('input, select, textarea, progress')]
+    .filter((el) => !el.labels || el.labels.length === 0).map((el) => el.id || el.outerHTML));
+  assert.deepEqual(unlabelled, []);
+
   // A negative actor step size.
   await page.fill('#actor-step', '-1');
   await page.waitForFunction(() => document.getElementById('train').disabled);
@@ -230,5 +235,23 @@ test('variants list: add one, override its learner, remove it', async () => {
   const after = await page.evaluate(() => window.__critbox.state.config.variants);
   assert.deepEqual(after, cfg.variants);
   assert.deepEqual(problems, []);
+  await context.close();
+});
+
+test('a missing wasm file is reported and Train stays off with the reason', async () => {
+  const { page, context } = await openPage(env, {
+    before: async (_page, ctx) => {
+      await ctx.route('**/pkg/critbox_wasm_bg.wasm', (route) => route.fulfill({ status: 404, body: 'gone' }));
+    },
+  });
+  const messages = await page.locator('#messages .msg p').allTextContents();
+  assert.ok(messages.some((m) => /WebAssembly/.test(m) && /critbox_wasm_bg\.wasm/.test(m)), messages.join('\n'));
+  assert.equal(await page.isDisabled('#train'), true);
+  const reason = (await page.textContent('#run-reason')).trim();
+  assert.match(reason, /WebAssembly module is not loaded/);
+  assert.equal((await trainButtonAx(page)).description.trim(), reason);
+  // The form still works: the preset is shown and can be edited.
+  assert.ok((await page.inputValue('#title')).length > 0);
+  await shoot(page, 'wasm-missing.png');
   await context.close();
 });

@@ -429,7 +429,7 @@ function draw() {
     const labels = state.check.ok ? state.check.info.labels : (cfg.variants || []).map((v, i) => String(v.label ?? `variant ${i + 1}`));
     variants = labels.map((label) => ({ label, curve: new Float64Array(0) }));
     xMax = typeof cfg.steps === 'number' && cfg.steps > 0 ? cfg.steps : 1;
-    note = 'Press Train to see learning curves.';
+    note = state.wasm ? 'Press Train to see learning curves.' : 'Training needs the WebAssembly module.';
     ui.plotTitle.textContent = state.config ? `${cfg.title || 'Untitled experiment'} — not trained yet` : 'No run yet';
   }
   const layout = drawCurves(ctx, { variants, xMax, note }, {
