@@ -38,8 +38,7 @@ fn csv_num(x: f64) -> String {
 /// (one row per seed, at the budget's last step).
 pub fn tidy_csv(r: &Results) -> String {
     let mut out = String::from("variant,label,seed,step,metric,value\n");
-    let edges: Vec<u64> =
-        crate::experiment::runner::bin_edges(r.steps(), r.curve(0).len().max(2) as u32).into_iter().collect();
+    let edges = r.bin_edges();
     for (v, label) in r.labels().iter().enumerate() {
         let label = csv_field(label);
         let finals = r.final_per_seed(v);

@@ -138,6 +138,11 @@ impl Results {
         self.steps
     }
 
+    /// Upper step edges of the curve bins.
+    pub fn bin_edges(&self) -> &[u64] {
+        &self.edges
+    }
+
     /// A job's episodes, progress and failure reason.
     pub fn job_record(&self, id: usize) -> (&[EpisodeRecord], u64, Option<&str>) {
         let j = &self.jobs[id];
