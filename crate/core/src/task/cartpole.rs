@@ -91,6 +91,7 @@ impl CartPole {
             n_states: None,
             default_discount: 0.99,
             max_steps: cfg.max_steps,
+            continuing: false,
         };
         Ok(CartPole { spec, state: [0.0; 4] })
     }

@@ -202,6 +202,7 @@ impl GridWorld {
             n_states: Some(state_cell.len()),
             default_discount: 0.99,
             max_steps: cfg.max_steps,
+            continuing: false,
         };
         Ok(GridWorld { cfg, spec, rows, cols, cells, state_cell, cell_state, start, pos: start })
     }

@@ -70,8 +70,13 @@ pub struct TaskSpec {
     pub n_states: Option<usize>,
     /// The discount used when a learner does not set one.
     pub default_discount: f64,
-    /// Episode length after which the runner truncates.
+    /// Episode length after which the runner truncates; for a continuing
+    /// task, the length of the reporting window instead.
     pub max_steps: u32,
+    /// The task never ends (no terminal state, no truncation): the runner
+    /// resets it once and reports the mean reward per step over windows of
+    /// `max_steps` steps. False for episodic tasks.
+    pub continuing: bool,
 }
 
 /// An action handed to a task.
@@ -112,6 +117,12 @@ pub trait Task: Send {
     /// The exact model, for finite tasks.
     fn model(&self) -> Option<FiniteModel> {
         None
+    }
+    /// Writes the observation (state variables) of discrete state `s` into
+    /// `obs`, for finite tasks; returns false when the task cannot (the
+    /// shaping audit needs it to evaluate formulas on the exact model).
+    fn state_obs(&self, _s: usize, _obs: &mut [f64]) -> bool {
+        false
     }
 }
 
