@@ -1,17 +1,31 @@
 //! Features and function approximators.
 //!
 //! A [`Features`] map turns an observation into a sparse feature vector
-//! ([`Sparse`]): tabular (one-hot on the discrete state) and tile coding
-//! (several offset tilings, optionally hashed). [`Linear`] holds one weight
-//! block per output (per action, for action values and action preferences)
-//! in one contiguous vector. Nothing here allocates per step: buffers are
-//! sized once.
+//! ([`Sparse`]): tabular (one-hot on the discrete state), tile coding
+//! (several offset tilings, optionally hashed; [`tiles`]), the Fourier basis
+//! ([`fourier`]), Gaussian radial basis functions ([`rbf`]) and polynomials
+//! ([`poly`]). [`Linear`] holds one weight block per output (per action, for
+//! action values and action preferences) in one contiguous vector.
+//!
+//! An [`Approx`] is any differentiable function of the state with a few
+//! outputs and a flat weight vector: [`LinearFn`] (a [`Linear`] map over a
+//! feature map, with a [`FeatureCache`]) or a small multi-layer perceptron
+//! ([`mlp::Mlp`]). Learners only talk to [`Approx`]: evaluate the outputs,
+//! add `Σ_k c_k ∇ out_k` to a gradient buffer, and, for the deterministic
+//! learner's critic, differentiate with respect to the input. Nothing here
+//! allocates per step: buffers are sized once.
 
+pub mod fourier;
+pub mod mlp;
+pub mod poly;
+pub mod rbf;
 pub mod tiles;
 
 use serde::{Deserialize, Serialize};
 
-use crate::task::TaskSpec;
+use crate::optim::Grad;
+use crate::rng::Stream;
+use crate::task::{StateVar, TaskSpec};
 
 /// What a learner sees of a state: the observation and, for finite tasks, the
 /// discrete state index.
@@ -67,9 +81,16 @@ pub trait Features: Send {
     /// Writes the features of `obs` into `out` (cleared first).
     fn compute(&self, obs: Obs<'_>, out: &mut Sparse);
     /// Factor applied to step sizes so that a step size means the same for
-    /// any number of active features (1 / number of tilings for tile coding).
+    /// any number of active features (1 / the expected squared norm of the
+    /// feature vector: 1 / number of tilings for tile coding).
     fn step_scale(&self) -> f64 {
         1.0
+    }
+    /// Writes `∂(w · x(values)) / ∂values_j` into `out[j]` for a dense weight
+    /// vector `w` of length [`Features::dim`]; returns false when the
+    /// features are not differentiable in the observation (tabular, tiles).
+    fn input_grad(&self, _values: &[f64], _w: &[f64], _out: &mut [f64]) -> bool {
+        false
     }
 }
 
@@ -92,6 +113,33 @@ pub enum FeatureConfig {
         #[serde(default = "default_hash")]
         hash: u32,
     },
+    /// The Fourier cosine basis (Konidaris, Osentoski & Thomas 2011) over
+    /// the state variables scaled to [0, 1].
+    Fourier {
+        /// Highest frequency per variable, in [0, 20]; `(order + 1)^d`
+        /// features, at most 65536. Default 3.
+        #[serde(default = "default_order")]
+        order: u32,
+    },
+    /// Gaussian radial basis functions on a regular grid of centres over the
+    /// state variables scaled to [0, 1].
+    Rbf {
+        /// Centres per variable, in [2, 32]; `centers^d` features, at most
+        /// 65536. Default 5.
+        #[serde(default = "default_centers")]
+        centers: u32,
+        /// Width σ as a multiple of the spacing of the centres, in [0.1, 10].
+        /// Default 1.
+        #[serde(default = "default_width")]
+        width: f64,
+    },
+    /// All monomials of total degree at most `degree` of the state variables
+    /// scaled to [−1, 1] (Sutton & Barto 2018, Section 9.5.1).
+    Poly {
+        /// Highest total degree, in [1, 8]; at most 65536 features. Default 2.
+        #[serde(default = "default_degree")]
+        degree: u32,
+    },
 }
 
 fn default_tilings() -> u32 {
@@ -103,6 +151,21 @@ fn default_intervals() -> u32 {
 fn default_hash() -> u32 {
     4096
 }
+fn default_order() -> u32 {
+    3
+}
+fn default_centers() -> u32 {
+    5
+}
+fn default_width() -> f64 {
+    1.0
+}
+fn default_degree() -> u32 {
+    2
+}
+
+/// Most features a dense basis (Fourier, RBF, polynomial) may have.
+pub const MAX_DENSE_FEATURES: u64 = 65536;
 
 /// Errors building features.
 #[derive(Clone, Debug, PartialEq)]
@@ -149,21 +212,32 @@ impl Tabular {
 
 /// Builds the feature map a setup asks for, checking it fits the task.
 pub fn build_features(cfg: &FeatureConfig, spec: &TaskSpec) -> Result<Box<dyn Features>, FeatureError> {
+    build_features_over(cfg, &spec.state_vars, spec.n_states, spec.kind)
+}
+
+/// Builds a feature map over explicit variables (`n_states` for tabular
+/// features; `kind` names the task in messages).
+pub fn build_features_over(
+    cfg: &FeatureConfig,
+    vars: &[StateVar],
+    n_states: Option<usize>,
+    kind: &str,
+) -> Result<Box<dyn Features>, FeatureError> {
     match cfg {
-        FeatureConfig::Tabular => match spec.n_states {
+        FeatureConfig::Tabular => match n_states {
             Some(n) => Ok(Box::new(Tabular { n })),
             None => Err(FeatureError::Invalid(
                 "kind".into(),
-                format!(
-                    "\"tabular\" needs a finite task; {} has continuous states: use \"tiles\"",
-                    spec.kind
-                ),
+                format!("\"tabular\" needs a finite task; {kind} has continuous states: use \"tiles\""),
             )),
         },
         FeatureConfig::Tiles { tilings, intervals, hash } => {
-            let t = tiles::TileCoder::new(&spec.state_vars, *tilings, *intervals, *hash)?;
+            let t = tiles::TileCoder::new(vars, *tilings, *intervals, *hash)?;
             Ok(Box::new(t))
         }
+        FeatureConfig::Fourier { order } => Ok(Box::new(fourier::Fourier::new(vars, *order)?)),
+        FeatureConfig::Rbf { centers, width } => Ok(Box::new(rbf::Rbf::new(vars, *centers, *width)?)),
+        FeatureConfig::Poly { degree } => Ok(Box::new(poly::Poly::new(vars, *degree)?)),
     }
 }
 
@@ -177,6 +251,21 @@ pub fn default_features(spec: &TaskSpec) -> FeatureConfig {
             intervals: default_intervals(),
             hash: default_hash(),
         }
+    }
+}
+
+/// The scaled position of `v` in `[low, high]`, clamped to [0, 1], and the
+/// derivative of that position with respect to `v` (0 where clamped).
+#[inline]
+pub(crate) fn unit(v: f64, low: f64, high: f64) -> (f64, f64) {
+    let width = high - low;
+    let u = (v - low) / width;
+    if u.is_nan() || u < 0.0 {
+        (0.0, 0.0)
+    } else if u > 1.0 {
+        (1.0, 0.0)
+    } else {
+        (u, 1.0 / width)
     }
 }
 
@@ -220,6 +309,276 @@ impl Linear {
     }
 }
 
+/// A two-slot cache of feature vectors keyed by observation, so that the
+/// features of a state are computed once although the state is seen by
+/// `act`, then by `learn` as the next state, then by `learn` as the state.
+pub struct FeatureCache {
+    features: Box<dyn Features>,
+    keys: [Vec<f64>; 2],
+    ids: [Option<usize>; 2],
+    valid: [bool; 2],
+    slots: [Sparse; 2],
+    newest: usize,
+}
+
+impl FeatureCache {
+    /// A cache over a feature map; buffers are sized once here.
+    pub fn new(features: Box<dyn Features>) -> Self {
+        let cap = features.max_active();
+        FeatureCache {
+            features,
+            keys: [Vec::new(), Vec::new()],
+            ids: [None; 2],
+            valid: [false; 2],
+            slots: [Sparse::with_capacity(cap), Sparse::with_capacity(cap)],
+            newest: 0,
+        }
+    }
+
+    /// Length of the feature vectors.
+    pub fn dim(&self) -> usize {
+        self.features.dim()
+    }
+
+    /// The feature map.
+    pub fn features(&self) -> &dyn Features {
+        self.features.as_ref()
+    }
+
+    fn find(&self, obs: Obs<'_>) -> Option<usize> {
+        (0..2).find(|&i| {
+            self.valid[i]
+                && self.ids[i] == obs.id
+                && self.keys[i].len() == obs.values.len()
+                && self.keys[i].iter().zip(obs.values).all(|(a, b)| a.to_bits() == b.to_bits())
+        })
+    }
+
+    /// The slot holding `obs`'s features, computing them if needed without
+    /// evicting slot `keep`.
+    fn ensure(&mut self, obs: Obs<'_>, keep: Option<usize>) -> usize {
+        if let Some(i) = self.find(obs) {
+            self.newest = i;
+            return i;
+        }
+        let slot = match keep {
+            Some(k) => 1 - k,
+            None => 1 - self.newest,
+        };
+        // Sized on first use only (observation lengths never change in a job).
+        self.keys[slot].clear();
+        self.keys[slot].extend_from_slice(obs.values);
+        self.ids[slot] = obs.id;
+        self.valid[slot] = true;
+        self.features.compute(obs, &mut self.slots[slot]);
+        self.newest = slot;
+        slot
+    }
+
+    /// Features of one state.
+    pub fn get(&mut self, obs: Obs<'_>) -> &Sparse {
+        let i = self.ensure(obs, None);
+        &self.slots[i]
+    }
+
+    /// Features of a state and of the next state.
+    pub fn pair(&mut self, obs: Obs<'_>, next: Obs<'_>) -> (&Sparse, &Sparse) {
+        let i = self.ensure(obs, None);
+        let j = self.ensure(next, Some(i));
+        (&self.slots[i], &self.slots[j])
+    }
+}
+
+/// A differentiable function of the state with a few outputs and a flat
+/// weight vector.
+pub trait Approx: Send {
+    /// Number of outputs.
+    fn outputs(&self) -> usize;
+    /// The weights.
+    fn params(&self) -> &[f64];
+    /// The weights, mutable.
+    fn params_mut(&mut self) -> &mut [f64];
+    /// Step-size factor (see [`Features::step_scale`]; 1 for an MLP).
+    fn step_scale(&self) -> f64 {
+        1.0
+    }
+    /// The outputs at `obs`.
+    fn eval(&mut self, obs: Obs<'_>) -> &[f64];
+    /// Adds `signal · Σ_k coef[k] ∇_w out_k(obs)` to `grad`.
+    fn accumulate(&mut self, obs: Obs<'_>, coef: &[f64], signal: f64, grad: &mut Grad);
+    /// Plain SGD shortcut: adds `step · Σ_k coef[k] ∇_w out_k(obs)` to the
+    /// weights directly and returns `‖Σ_k coef[k] ∇_w out_k‖`, or returns
+    /// `None` (and changes nothing) when the approximator has no shortcut.
+    fn sgd_step(&mut self, _obs: Obs<'_>, _coef: &[f64], _step: f64) -> Option<f64> {
+        None
+    }
+    /// Writes `Σ_k coef[k] ∂out_k/∂values_j` into `out[j]`; returns false
+    /// when the approximator is not differentiable in its input.
+    fn input_grad(&mut self, obs: Obs<'_>, coef: &[f64], out: &mut [f64]) -> bool;
+}
+
+/// A linear map over a feature map: `out_k = w_k · x(s)`.
+pub struct LinearFn {
+    cache: FeatureCache,
+    lin: Linear,
+    out: Vec<f64>,
+    comb: Vec<f64>,
+}
+
+impl LinearFn {
+    /// Zero weights over `features`, with `outputs` outputs.
+    pub fn new(features: Box<dyn Features>, outputs: usize) -> Self {
+        let dim = features.dim();
+        LinearFn { cache: FeatureCache::new(features), lin: Linear::zeros(dim, outputs), out: vec![0.0; outputs], comb: Vec::new() }
+    }
+
+    /// The features of a state (cached).
+    pub fn features_of(&mut self, obs: Obs<'_>) -> &Sparse {
+        self.cache.get(obs)
+    }
+}
+
+impl Approx for LinearFn {
+    fn outputs(&self) -> usize {
+        self.lin.outputs
+    }
+    fn params(&self) -> &[f64] {
+        &self.lin.w
+    }
+    fn params_mut(&mut self) -> &mut [f64] {
+        &mut self.lin.w
+    }
+    fn step_scale(&self) -> f64 {
+        self.cache.features().step_scale()
+    }
+    fn eval(&mut self, obs: Obs<'_>) -> &[f64] {
+        let x = self.cache.get(obs);
+        for k in 0..self.lin.outputs {
+            self.out[k] = self.lin.value(k, x);
+        }
+        &self.out
+    }
+    fn accumulate(&mut self, obs: Obs<'_>, coef: &[f64], signal: f64, grad: &mut Grad) {
+        let x = self.cache.get(obs);
+        let dim = self.lin.dim;
+        for (k, &c) in coef.iter().enumerate() {
+            let c = signal * c;
+            if c == 0.0 {
+                continue;
+            }
+            for (&i, &v) in x.idx.iter().zip(&x.val) {
+                grad.add(k * dim + i as usize, c * v);
+            }
+        }
+    }
+    fn sgd_step(&mut self, obs: Obs<'_>, coef: &[f64], step: f64) -> Option<f64> {
+        let x = self.cache.get(obs);
+        let mut sq = 0.0;
+        for (k, &c) in coef.iter().enumerate() {
+            sq += c * c;
+            self.lin.add(k, step * c, x);
+        }
+        Some(libm::sqrt(sq * x.norm_sq()))
+    }
+    fn input_grad(&mut self, obs: Obs<'_>, coef: &[f64], out: &mut [f64]) -> bool {
+        let dim = self.lin.dim;
+        if self.comb.len() != dim {
+            // Sized once, on the first call.
+            self.comb = vec![0.0; dim];
+        }
+        for i in 0..dim {
+            self.comb[i] = coef.iter().enumerate().map(|(k, c)| c * self.lin.w[k * dim + i]).sum();
+        }
+        self.cache.features().input_grad(obs.values, &self.comb, out)
+    }
+}
+
+/// Hidden-unit nonlinearity of an MLP.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Activation {
+    /// Hyperbolic tangent.
+    #[default]
+    Tanh,
+    /// Rectified linear unit, `max(0, x)`.
+    Relu,
+}
+
+/// Which function approximator an actor or a critic uses (the `actor` and
+/// `critic` objects of a learner setup).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(tag = "kind", rename_all = "snake_case", deny_unknown_fields)]
+pub enum ApproxConfig {
+    /// Linear in features: its own `features` object, or (the default) the
+    /// setup's `features`.
+    Linear {
+        /// Features for this approximator only. Default: the setup's.
+        #[serde(default)]
+        features: Option<FeatureConfig>,
+    },
+    /// A multi-layer perceptron over the state variables scaled to [−1, 1].
+    Mlp {
+        /// Units per hidden layer: 1 to 4 layers of 1 to 512 units. Default [32].
+        #[serde(default = "default_hidden")]
+        hidden: Vec<u32>,
+        /// `"tanh"` or `"relu"`. Default `"tanh"`.
+        #[serde(default)]
+        activation: Activation,
+    },
+}
+
+fn default_hidden() -> Vec<u32> {
+    vec![32]
+}
+
+impl Default for ApproxConfig {
+    fn default() -> Self {
+        ApproxConfig::Linear { features: None }
+    }
+}
+
+/// Builds an approximator with `outputs` outputs over `vars` (`n_states`
+/// for tabular features). A linear approximator without its own features
+/// uses `shared`. An MLP draws its initial weights from `rng`; a linear one
+/// starts at zero and draws nothing. Errors name the field relative to the
+/// approximator object.
+pub fn build_approx(
+    cfg: &ApproxConfig,
+    shared: &FeatureConfig,
+    vars: &[StateVar],
+    n_states: Option<usize>,
+    kind: &str,
+    outputs: usize,
+    rng: &mut Stream,
+) -> Result<Box<dyn Approx>, FeatureError> {
+    match cfg {
+        ApproxConfig::Linear { features } => {
+            let (fc, prefix) = match features {
+                Some(f) => (f, "features."),
+                None => (shared, "features."),
+            };
+            let f = build_features_over(fc, vars, n_states, kind).map_err(|e| {
+                let FeatureError::Invalid(field, msg) = e;
+                FeatureError::Invalid(format!("{prefix}{field}"), msg)
+            })?;
+            Ok(Box::new(LinearFn::new(f, outputs)))
+        }
+        ApproxConfig::Mlp { hidden, activation } => {
+            if hidden.is_empty() || hidden.len() > 4 {
+                return Err(FeatureError::Invalid(
+                    "hidden".into(),
+                    format!("needs 1 to 4 layer sizes, got {}", hidden.len()),
+                ));
+            }
+            if let Some(h) = hidden.iter().find(|&&h| !(1..=512).contains(&h)) {
+                return Err(FeatureError::Invalid("hidden".into(), format!("layer sizes must be in [1, 512], got {h}")));
+            }
+            let sizes: Vec<usize> = hidden.iter().map(|&h| h as usize).collect();
+            Ok(Box::new(mlp::Mlp::new(vars, &sizes, outputs, *activation, rng)))
+        }
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -234,5 +593,24 @@ mod tests {
         assert_eq!(l.value(0, &x), 0.0);
         assert_eq!(l.value(1, &x), 2.0 * 1.0 + 2.0 * 0.25);
         assert_eq!(l.w[5 + 1], 2.0);
+    }
+
+    #[test]
+    fn linear_fn_shortcut_equals_the_gradient_path() {
+        // Common practice, no source: the SGD shortcut and the gathered
+        // gradient give the same change of the weights.
+        let vars = [StateVar { name: "a".into(), low: -1.0, high: 1.0 }];
+        let mk = || LinearFn::new(Box::new(tiles::TileCoder::new(&vars, 4, 4, 0).unwrap()), 2);
+        let (mut a, mut b) = (mk(), mk());
+        let obs = Obs { values: &[0.3], id: None };
+        let n = a.sgd_step(obs, &[1.0, -0.5], 0.1).unwrap();
+        let mut g = Grad::new(b.params().len());
+        b.accumulate(obs, &[1.0, -0.5], 1.0, &mut g);
+        assert!((g.norm() - n).abs() < 1e-12);
+        for (i, w) in b.params_mut().iter_mut().enumerate() {
+            *w += 0.1 * g.values()[i];
+        }
+        assert_eq!(a.params(), b.params());
+        assert_eq!(a.eval(obs), &[0.1 * 4.0, -0.05 * 4.0]);
     }
 }

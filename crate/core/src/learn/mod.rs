@@ -5,18 +5,32 @@
 //! runner calls `act` at the next state *before* `learn`, so Sarsa-style
 //! critics get their next action; a terminal transition carries no next
 //! action and is never bootstrapped, a truncated one is. One file per learner
-//! family: [`a2c`] (TD(0) state-value critic, TD error as the advantage) and
-//! [`qac`] (Sarsa action-value critic). [`LearnerSetup`] is the config object
-//! that selects and tunes them.
+//! family: [`reinforce`] (Monte Carlo policy gradient with baselines),
+//! [`qac`] (Sarsa action-value critic), [`a2c`] (state-value critic; TD(0),
+//! n-step and GAE(λ) advantages; entropy bonus), [`offpolicy`] (importance
+//! weighted, Degris, White & Sutton 2012), [`deterministic`] (off-policy
+//! deterministic policy gradient, Silver et al. 2014) and [`differential`]
+//! (average reward). [`LearnerSetup`] ([`setup`]) is the config object that
+//! selects and tunes them; [`build_learner_with`] builds one.
 
 pub mod a2c;
+pub mod deterministic;
+pub mod differential;
+pub mod offpolicy;
 pub mod qac;
+pub mod reinforce;
+pub mod setup;
 
-use serde::{Deserialize, Serialize};
+pub use crate::approx::FeatureCache;
+pub use setup::{
+    joint_vars, Algo, Baseline, BehaviourConfig, BehaviourKind, LearnerSetup, ReplayConfig, SetupError,
+};
 
-use crate::approx::{build_features, default_features, FeatureConfig, Features, Obs, Sparse};
+use crate::approx::{build_approx, ApproxConfig, Obs};
+use crate::optim::Trainable;
+use crate::policy::StochasticPolicy;
 use crate::rng::Stream;
-use crate::task::{Action, TaskSpec};
+use crate::task::{Action, ActionSpace, TaskSpec};
 
 /// An action chosen by a learner, in a buffer owned by the caller.
 #[derive(Clone, Debug, PartialEq)]
@@ -31,8 +45,8 @@ impl ActionBuf {
     /// A buffer fit for the task's action space.
     pub fn for_spec(spec: &TaskSpec) -> Self {
         match &spec.actions {
-            crate::task::ActionSpace::Discrete(_) => ActionBuf::Index(0),
-            crate::task::ActionSpace::Continuous { low, .. } => ActionBuf::Vector(vec![0.0; low.len()]),
+            ActionSpace::Discrete(_) => ActionBuf::Index(0),
+            ActionSpace::Continuous { low, .. } => ActionBuf::Vector(vec![0.0; low.len()]),
         }
     }
 
@@ -49,6 +63,15 @@ impl ActionBuf {
         match self {
             ActionBuf::Index(i) => *i,
             ActionBuf::Vector(_) => panic!("a discrete learner was given a continuous action"),
+        }
+    }
+
+    /// The action as numbers: `[index]` for a discrete action, the
+    /// components for a continuous one.
+    pub fn to_vec(&self) -> Vec<f64> {
+        match self {
+            ActionBuf::Index(i) => vec![*i as f64],
+            ActionBuf::Vector(v) => v.clone(),
         }
     }
 }
@@ -75,14 +98,23 @@ pub struct Transition<'a> {
 /// Per-step diagnostics of a learning update.
 #[derive(Clone, Copy, Debug, Default, PartialEq)]
 pub struct StepDiag {
-    /// The TD error δ of the critic.
+    /// The TD error δ of the critic (REINFORCE: the mean of `G_t − b_t`
+    /// over the episode, at its last step; 0 on other steps).
     pub td_error: f64,
-    /// Entropy of the policy at the updated state (nats).
+    /// Entropy of the policy at the updated state (nats; for a Gaussian the
+    /// pre-squash entropy; for the deterministic learner the entropy of the
+    /// exploration noise, in action units).
     pub entropy: f64,
-    /// Norm of the actor's update direction (before the step size).
+    /// Norm of the actor's update direction (before the step size; 0 on a
+    /// step without an actor update).
     pub actor_grad_norm: f64,
     /// Norm of the critic's update direction (before the step size).
     pub critic_grad_norm: f64,
+    /// The importance weight `π(a|s) / b(a|s)` before any cap (off-policy
+    /// learner only).
+    pub weight: Option<f64>,
+    /// Whether the weight was cut at `rho_cap`.
+    pub weight_truncated: bool,
 }
 
 /// Why a learner stopped.
@@ -106,222 +138,89 @@ impl std::error::Error for LearnError {}
 
 /// An agent that acts and learns one transition at a time.
 pub trait Learner: Send {
-    /// Samples an action at `obs` into `out`.
+    /// Samples an action at `obs` into `out` (off-policy learners: from the
+    /// behaviour policy; the deterministic learner: with exploration noise).
     fn act(&mut self, obs: Obs<'_>, rng: &mut Stream, out: &mut ActionBuf);
     /// Learns from one transition.
     fn learn(&mut self, t: &Transition<'_>, rng: &mut Stream) -> Result<StepDiag, LearnError>;
-}
-
-/// The learner families.
-#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize)]
-#[serde(rename_all = "snake_case")]
-pub enum Algo {
-    /// Advantage actor-critic: TD(0) state-value critic, TD error as the advantage.
-    #[default]
-    A2c,
-    /// Q actor-critic: Sarsa action-value critic, Q(s, a) scales the score.
-    Qac,
-}
-
-/// A learner setup (the `base` object of a config, and each variant's
-/// `learner` overrides).
-#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
-#[serde(deny_unknown_fields)]
-pub struct LearnerSetup {
-    /// Which learner. Default `"a2c"`.
-    #[serde(default)]
-    pub algo: Algo,
-    /// Discount γ in [0, 1]. Default: the task's (0.99 for the built-in tasks).
-    #[serde(default)]
-    pub discount: Option<f64>,
-    /// Actor step size in (0, 10]. Default 0.1.
-    #[serde(default = "default_actor_step")]
-    pub actor_step: f64,
-    /// Critic step size in (0, 10]. Default 0.2.
-    #[serde(default = "default_critic_step")]
-    pub critic_step: f64,
-    /// Features for actor and critic. Default: tabular on finite tasks, tile
-    /// coding otherwise.
-    #[serde(default)]
-    pub features: Option<FeatureConfig>,
-}
-
-fn default_actor_step() -> f64 {
-    0.1
-}
-fn default_critic_step() -> f64 {
-    0.2
-}
-
-impl Default for LearnerSetup {
-    fn default() -> Self {
-        LearnerSetup {
-            algo: Algo::default(),
-            discount: None,
-            actor_step: default_actor_step(),
-            critic_step: default_critic_step(),
-            features: None,
-        }
+    /// The action the learned (target) policy prefers at `obs`, without
+    /// exploration: the most probable action, the squashed Gaussian mean, or
+    /// the clipped deterministic action.
+    fn best_action(&mut self, obs: Obs<'_>, out: &mut ActionBuf);
+    /// The learned (target) policy's probabilities `π(·|s)` on a task with
+    /// discrete actions, written into `out`; false for continuous actions.
+    fn probabilities(&mut self, _obs: Obs<'_>, _out: &mut [f64]) -> bool {
+        false
     }
 }
 
-/// A setting of a learner setup that is out of range: (field path within
-/// the setup, message).
-#[derive(Clone, Debug, PartialEq)]
-pub struct SetupError {
-    /// Field path within the setup, e.g. `features.tilings`.
-    pub field: String,
-    /// What is wrong.
-    pub message: String,
-}
-
-impl std::fmt::Display for SetupError {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        write!(f, "{}: {}", self.field, self.message)
-    }
-}
-
-impl std::error::Error for SetupError {}
-
-/// Resolved hyper-parameters shared by the learners.
-#[derive(Clone, Copy, Debug, PartialEq)]
-pub struct Resolved {
-    /// Discount γ.
-    pub discount: f64,
-    /// Actor step size, already scaled by the features' step scale.
-    pub actor_step: f64,
-    /// Critic step size, already scaled by the features' step scale.
-    pub critic_step: f64,
-}
-
-impl LearnerSetup {
-    /// Checks ranges and fit to the task; returns every problem found.
-    pub fn check(&self, spec: &TaskSpec) -> Vec<SetupError> {
-        let mut errs = Vec::new();
-        let mut bad = |field: &str, message: String| errs.push(SetupError { field: field.into(), message });
-        if let Some(g) = self.discount {
-            if !(0.0..=1.0).contains(&g) {
-                bad("discount", format!("must be in [0, 1], got {g}"));
-            }
-        }
-        for (name, v) in [("actor_step", self.actor_step), ("critic_step", self.critic_step)] {
-            if !(v > 0.0 && v <= 10.0) {
-                bad(name, format!("must be in (0, 10], got {v}"));
-            }
-        }
-        if spec.actions.discrete_count().is_none() {
-            bad(
-                "algo",
-                format!("{:?} needs discrete actions; {} has continuous actions", self.algo, spec.kind),
-            );
-        }
-        if let Err(e) = build_features(&self.features_or_default(spec), spec) {
-            let crate::approx::FeatureError::Invalid(field, message) = e;
-            bad(&format!("features.{field}"), message);
-        }
-        errs
-    }
-
-    /// The features this setup uses on `spec`.
-    pub fn features_or_default(&self, spec: &TaskSpec) -> FeatureConfig {
-        self.features.clone().unwrap_or_else(|| default_features(spec))
-    }
-}
-
-/// Builds the learner a setup describes (call [`LearnerSetup::check`] first;
-/// this returns its first error otherwise).
-pub fn build_learner(setup: &LearnerSetup, spec: &TaskSpec) -> Result<Box<dyn Learner>, SetupError> {
+/// Builds the learner a setup describes, drawing any random initial weights
+/// (MLPs only) from `rng` (call [`LearnerSetup::check`] first; this returns
+/// its first error otherwise).
+pub fn build_learner_with(
+    setup: &LearnerSetup,
+    spec: &TaskSpec,
+    rng: &mut Stream,
+) -> Result<Box<dyn Learner>, SetupError> {
     if let Some(e) = setup.check(spec).into_iter().next() {
         return Err(e);
     }
-    let features = build_features(&setup.features_or_default(spec), spec)
-        .map_err(|e| SetupError { field: "features".into(), message: e.to_string() })?;
-    let scale = features.step_scale();
-    let resolved = Resolved {
-        discount: setup.discount.unwrap_or(spec.default_discount),
-        actor_step: setup.actor_step * scale,
-        critic_step: setup.critic_step * scale,
-    };
-    let actions = spec.actions.discrete_count().unwrap_or(0);
     Ok(match setup.algo {
-        Algo::A2c => Box::new(a2c::A2c::new(features, actions, resolved)),
-        Algo::Qac => Box::new(qac::Qac::new(features, actions, resolved)),
+        Algo::A2c => Box::new(a2c::A2c::new(setup, spec, rng)),
+        Algo::Qac => Box::new(qac::Qac::new(setup, spec, rng)),
+        Algo::Reinforce => Box::new(reinforce::Reinforce::new(setup, spec, rng)),
+        Algo::OffPolicy => Box::new(offpolicy::OffPolicy::new(setup, spec, rng)),
+        Algo::Deterministic => Box::new(deterministic::Deterministic::new(setup, spec, rng)),
+        Algo::Differential => Box::new(differential::Differential::new(setup, spec, rng)),
     })
 }
 
-/// A two-slot cache of feature vectors keyed by observation, so that the
-/// features of a state are computed once although the state is seen by
-/// `act`, then by `learn` as the next state, then by `learn` as the state.
-pub struct FeatureCache {
-    features: Box<dyn Features>,
-    keys: [Vec<f64>; 2],
-    ids: [Option<usize>; 2],
-    valid: [bool; 2],
-    slots: [Sparse; 2],
-    newest: usize,
+/// Builds a learner with MLP weights (if any) drawn from a fixed stream.
+pub fn build_learner(setup: &LearnerSetup, spec: &TaskSpec) -> Result<Box<dyn Learner>, SetupError> {
+    build_learner_with(setup, spec, &mut Stream::from_seed(0))
 }
 
-impl FeatureCache {
-    /// A cache over a feature map; buffers are sized once here.
-    pub fn new(features: Box<dyn Features>) -> Self {
-        let cap = features.max_active();
-        FeatureCache {
-            features,
-            keys: [Vec::new(), Vec::new()],
-            ids: [None; 2],
-            valid: [false; 2],
-            slots: [Sparse::with_capacity(cap), Sparse::with_capacity(cap)],
-            newest: 0,
+/// An approximator over the task's state with `outputs` outputs and its
+/// optimizer, for a checked setup.
+pub(crate) fn state_net(
+    setup: &LearnerSetup,
+    spec: &TaskSpec,
+    cfg: &ApproxConfig,
+    outputs: usize,
+    step: f64,
+    rng: &mut Stream,
+) -> Trainable {
+    let net = build_approx(
+        cfg,
+        &setup.features_or_default(spec),
+        &spec.state_vars,
+        spec.n_states,
+        spec.kind,
+        outputs,
+        rng,
+    )
+    .expect("a checked setup's approximator builds");
+    Trainable::new(net, &setup.optimizer, step)
+}
+
+/// The stochastic actor of a checked setup: softmax on discrete actions,
+/// squashed Gaussian on continuous ones.
+pub(crate) fn stochastic_actor(setup: &LearnerSetup, spec: &TaskSpec, rng: &mut Stream) -> StochasticPolicy {
+    let actor = setup.actor_or_default();
+    match &spec.actions {
+        ActionSpace::Discrete(names) => {
+            StochasticPolicy::softmax(state_net(setup, spec, &actor, names.len(), setup.actor_step, rng))
+        }
+        ActionSpace::Continuous { low, high, .. } => {
+            let net = state_net(setup, spec, &actor, low.len(), setup.actor_step, rng);
+            StochasticPolicy::gaussian(net, &setup.policy, low, high, &setup.optimizer, setup.actor_step)
         }
     }
+}
 
-    /// Length of the feature vectors.
-    pub fn dim(&self) -> usize {
-        self.features.dim()
-    }
-
-    fn find(&self, obs: Obs<'_>) -> Option<usize> {
-        (0..2).find(|&i| {
-            self.valid[i]
-                && self.ids[i] == obs.id
-                && self.keys[i].len() == obs.values.len()
-                && self.keys[i].iter().zip(obs.values).all(|(a, b)| a.to_bits() == b.to_bits())
-        })
-    }
-
-    /// The slot holding `obs`'s features, computing them if needed without
-    /// evicting slot `keep`.
-    fn ensure(&mut self, obs: Obs<'_>, keep: Option<usize>) -> usize {
-        if let Some(i) = self.find(obs) {
-            self.newest = i;
-            return i;
-        }
-        let slot = match keep {
-            Some(k) => 1 - k,
-            None => 1 - self.newest,
-        };
-        // Sized on first use only (observation lengths never change in a job).
-        self.keys[slot].clear();
-        self.keys[slot].extend_from_slice(obs.values);
-        self.ids[slot] = obs.id;
-        self.valid[slot] = true;
-        self.features.compute(obs, &mut self.slots[slot]);
-        self.newest = slot;
-        slot
-    }
-
-    /// Features of one state.
-    pub fn get(&mut self, obs: Obs<'_>) -> &Sparse {
-        let i = self.ensure(obs, None);
-        &self.slots[i]
-    }
-
-    /// Features of a state and of the next state.
-    pub fn pair(&mut self, obs: Obs<'_>, next: Obs<'_>) -> (&Sparse, &Sparse) {
-        let i = self.ensure(obs, None);
-        let j = self.ensure(next, Some(i));
-        (&self.slots[i], &self.slots[j])
-    }
+/// The state-value critic of a checked setup.
+pub(crate) fn value_critic(setup: &LearnerSetup, spec: &TaskSpec, rng: &mut Stream) -> Trainable {
+    state_net(setup, spec, &setup.critic_or_default(), 1, setup.critic_step, rng)
 }
 
 /// Checks that a learner's numbers stay finite.
@@ -333,10 +232,102 @@ pub(crate) fn finite(what: &str, v: f64) -> Result<f64, LearnError> {
     }
 }
 
+/// A stored stretch of transitions (an episode for REINFORCE, a segment for
+/// n-step A2C), sized once: observations, state ids, actions, rewards and
+/// two spare numbers per step.
+pub(crate) struct Trajectory {
+    n_obs: usize,
+    dims: usize,
+    cap: usize,
+    len: usize,
+    obs: Vec<f64>,
+    ids: Vec<Option<usize>>,
+    index: Vec<usize>,
+    vector: Vec<f64>,
+    /// Rewards.
+    pub reward: Vec<f64>,
+    /// A spare number per step (e.g. the TD error).
+    pub x: Vec<f64>,
+    /// Another spare number per step (e.g. the return).
+    pub y: Vec<f64>,
+}
+
+impl Trajectory {
+    /// Room for `cap` steps of a task with `n_obs` state variables and
+    /// `dims` continuous action components (0 for discrete actions).
+    pub fn new(cap: usize, n_obs: usize, dims: usize) -> Self {
+        Trajectory {
+            n_obs,
+            dims,
+            cap,
+            len: 0,
+            obs: vec![0.0; cap * n_obs],
+            ids: vec![None; cap],
+            index: vec![0; cap],
+            vector: vec![0.0; cap * dims],
+            reward: vec![0.0; cap],
+            x: vec![0.0; cap],
+            y: vec![0.0; cap],
+        }
+    }
+
+    /// Steps stored.
+    pub fn len(&self) -> usize {
+        self.len
+    }
+
+    /// Whether no more steps fit.
+    pub fn is_full(&self) -> bool {
+        self.len == self.cap
+    }
+
+    /// Stores a transition's state, action and reward (the caller checks
+    /// [`Trajectory::is_full`] first); returns its position.
+    pub fn push(&mut self, t: &Transition<'_>) -> usize {
+        let i = self.len;
+        self.obs[i * self.n_obs..(i + 1) * self.n_obs].copy_from_slice(t.obs.values);
+        self.ids[i] = t.obs.id;
+        match t.action {
+            Action::Index(a) => self.index[i] = a,
+            Action::Vector(v) => self.vector[i * self.dims..(i + 1) * self.dims].copy_from_slice(v),
+        }
+        self.reward[i] = t.reward;
+        self.len += 1;
+        i
+    }
+
+    /// The state of step `i`.
+    pub fn obs(&self, i: usize) -> Obs<'_> {
+        Obs { values: &self.obs[i * self.n_obs..(i + 1) * self.n_obs], id: self.ids[i] }
+    }
+
+    /// The action of step `i`.
+    pub fn action(&self, i: usize) -> Action<'_> {
+        if self.dims == 0 {
+            Action::Index(self.index[i])
+        } else {
+            Action::Vector(&self.vector[i * self.dims..(i + 1) * self.dims])
+        }
+    }
+
+    /// Forgets every step.
+    pub fn clear(&mut self) {
+        self.len = 0;
+    }
+}
+
+/// Number of continuous action components (0 for discrete actions).
+pub(crate) fn action_dims(spec: &TaskSpec) -> usize {
+    match &spec.actions {
+        ActionSpace::Discrete(_) => 0,
+        ActionSpace::Continuous { low, .. } => low.len(),
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::approx::Tabular;
+    use crate::approx::{Features, Sparse, Tabular};
 
     #[test]
     fn cache_computes_each_state_once_in_runner_order() {

@@ -1,0 +1,215 @@
+//! Off-policy actor-critic with per-decision importance weights.
+//!
+//! After Degris, White & Sutton (2012), "Off-policy actor-critic", ICML, in
+//! its one-step form (λ = 0, a TD(0) critic in place of their GTD(λ)): the
+//! agent acts with a behaviour policy `b` while it learns a target policy
+//! `π`. Each transition is weighted by `ρ = π(a|s) / b(a|s)` (for continuous
+//! actions the ratio of densities, with the tanh-squash correction of both
+//! where it applies), optionally cut at `rho_cap` (`ρ̄ = min(ρ, cap)`, as in
+//! Retrace and V-trace; Munos et al. 2016, Espeholt et al. 2018). Critic:
+//! `w ← w + α_c ρ̄ δ ∇V(s)` with `δ = r + γ V(s') − V(s)`; actor:
+//! `θ ← θ + α_a ρ̄ δ ∇ log π(a|s)` (plus an optional, unweighted entropy
+//! bonus). Their gradient theorem holds only for tabular policies (Imani,
+//! Graves & White 2018); with features the update follows the excursion
+//! objective. Behaviours ([`BehaviourKind`]): uniform over the actions (or
+//! the action box), `(1 − ε) π + ε · uniform`, or a frozen copy of `π`
+//! refreshed every `snapshot_every` learning steps. Each step reports `ρ`
+//! before the cap; the runner turns the weights into per-bin statistics and
+//! the effective sample size `(Σρ)² / Σρ²` (Kong 1992).
+//!
+//! The curves of an off-policy job show the returns of the episodes it ran,
+//! that is, of the behaviour policy.
+
+use super::{
+    finite, stochastic_actor, value_critic, BehaviourKind, LearnError, Learner, LearnerSetup, StepDiag,
+    Transition,
+};
+use crate::approx::Obs;
+use crate::learn::ActionBuf;
+use crate::optim::Trainable;
+use crate::policy::StochasticPolicy;
+use crate::rng::Stream;
+use crate::task::{Action, ActionSpace, TaskSpec};
+
+/// The importance weight of an action from log-probabilities under the
+/// target and the behaviour, and the cap: returns `(ρ, min(ρ, cap), cut)`.
+pub fn importance_weight(log_pi: f64, log_b: f64, cap: Option<f64>) -> (f64, f64, bool) {
+    let rho = libm::exp(log_pi - log_b);
+    match cap {
+        Some(c) if rho > c => (rho, c, true),
+        _ => (rho, rho, false),
+    }
+}
+
+/// The off-policy actor-critic.
+pub struct OffPolicy {
+    target: StochasticPolicy,
+    snapshot: Option<StochasticPolicy>,
+    critic: Trainable,
+    kind: BehaviourKind,
+    epsilon: f64,
+    every: u64,
+    cap: Option<f64>,
+    gamma: f64,
+    beta: f64,
+    steps: u64,
+    n_actions: usize,
+    low: Vec<f64>,
+    high: Vec<f64>,
+    log_volume: f64,
+    probs: Vec<f64>,
+    copy: Vec<f64>,
+}
+
+impl OffPolicy {
+    /// A learner for a checked setup.
+    pub fn new(setup: &LearnerSetup, spec: &TaskSpec, rng: &mut Stream) -> Self {
+        let target = stochastic_actor(setup, spec, rng);
+        let critic = value_critic(setup, spec, rng);
+        let snapshot = (setup.behaviour.kind == BehaviourKind::Snapshot).then(|| {
+            // Same shape; the weights are copied from the target below.
+            stochastic_actor(setup, spec, &mut rng.clone())
+        });
+        let (n_actions, low, high) = match &spec.actions {
+            ActionSpace::Discrete(n) => (n.len(), Vec::new(), Vec::new()),
+            ActionSpace::Continuous { low, high, .. } => (0, low.clone(), high.clone()),
+        };
+        let log_volume = low.iter().zip(&high).map(|(l, h)| libm::log(h - l)).sum();
+        let mut me = OffPolicy {
+            target,
+            snapshot,
+            critic,
+            kind: setup.behaviour.kind,
+            epsilon: setup.behaviour.epsilon,
+            every: setup.behaviour.snapshot_every,
+            cap: setup.rho_cap,
+            gamma: setup.discount_on(spec),
+            beta: setup.entropy,
+            steps: 0,
+            probs: vec![0.0; n_actions],
+            n_actions,
+            low,
+            high,
+            log_volume,
+            copy: Vec::new(),
+        };
+        me.refresh_snapshot();
+        me
+    }
+
+    fn refresh_snapshot(&mut self) {
+        if let Some(s) = &mut self.snapshot {
+            self.target.copy_params_into(&mut self.copy);
+            s.set_params(&self.copy);
+        }
+    }
+
+    /// `log b(a|s)` of the behaviour policy.
+    pub fn behaviour_log_prob(&mut self, obs: Obs<'_>, action: Action<'_>) -> f64 {
+        let discrete = self.n_actions > 0;
+        let log_uniform = if discrete { -libm::log(self.n_actions as f64) } else { -self.log_volume };
+        match self.kind {
+            BehaviourKind::Uniform => log_uniform,
+            BehaviourKind::EpsilonMix => {
+                let log_pi = self.target.log_prob(obs, action);
+                let mixed = (1.0 - self.epsilon) * libm::exp(log_pi) + self.epsilon * libm::exp(log_uniform);
+                libm::log(mixed)
+            }
+            BehaviourKind::Snapshot => {
+                self.snapshot.as_mut().expect("a snapshot behaviour has a snapshot").log_prob(obs, action)
+            }
+        }
+    }
+
+    /// `log π(a|s)` of the target policy.
+    pub fn target_log_prob(&mut self, obs: Obs<'_>, action: Action<'_>) -> f64 {
+        self.target.log_prob(obs, action)
+    }
+}
+
+impl Learner for OffPolicy {
+    fn act(&mut self, obs: Obs<'_>, rng: &mut Stream, out: &mut ActionBuf) {
+        match (self.kind, out) {
+            (BehaviourKind::Snapshot, out) => {
+                self.snapshot.as_mut().expect("a snapshot behaviour has a snapshot").act(obs, rng, out)
+            }
+            (BehaviourKind::Uniform, ActionBuf::Index(i)) => *i = rng.below(self.n_actions),
+            (BehaviourKind::Uniform, ActionBuf::Vector(a)) => {
+                for j in 0..a.len() {
+                    a[j] = rng.uniform_in(self.low[j], self.high[j]);
+                }
+            }
+            (BehaviourKind::EpsilonMix, ActionBuf::Index(i)) => {
+                let eps = self.epsilon;
+                let n = self.n_actions as f64;
+                let p = self.target.probabilities(obs);
+                for (b, &q) in self.probs.iter_mut().zip(p) {
+                    *b = (1.0 - eps) * q + eps / n;
+                }
+                *i = rng.categorical(&self.probs);
+            }
+            (BehaviourKind::EpsilonMix, out @ ActionBuf::Vector(_)) => {
+                if rng.uniform() < self.epsilon {
+                    let ActionBuf::Vector(a) = out else { unreachable!() };
+                    for j in 0..a.len() {
+                        a[j] = rng.uniform_in(self.low[j], self.high[j]);
+                    }
+                } else {
+                    self.target.act(obs, rng, out);
+                }
+            }
+        }
+    }
+
+    fn learn(&mut self, t: &Transition<'_>, _rng: &mut Stream) -> Result<StepDiag, LearnError> {
+        let log_pi = self.target.log_prob(t.obs, t.action);
+        let log_b = self.behaviour_log_prob(t.obs, t.action);
+        let (rho, w, cut) = importance_weight(log_pi, log_b, self.cap);
+        finite("importance weight", w)?;
+        let v = self.critic.eval(t.obs)[0];
+        let vn = if t.terminated { 0.0 } else { self.critic.eval(t.next)[0] };
+        let delta = finite("TD error", t.reward + self.gamma * vn - v)?;
+        let critic_norm = self.critic.ascend(t.obs, &[1.0], w * delta);
+        let entropy = finite("policy entropy", self.target.entropy(t.obs))?;
+        let actor_norm = self.target.ascend(t.obs, t.action, w * delta, self.beta);
+        self.steps += 1;
+        if self.steps % self.every == 0 {
+            self.refresh_snapshot();
+        }
+        Ok(StepDiag {
+            td_error: delta,
+            entropy,
+            actor_grad_norm: actor_norm,
+            critic_grad_norm: critic_norm,
+            weight: Some(rho),
+            weight_truncated: cut,
+        })
+    }
+
+    fn best_action(&mut self, obs: Obs<'_>, out: &mut ActionBuf) {
+        self.target.best_action(obs, out);
+    }
+
+    fn probabilities(&mut self, obs: Obs<'_>, out: &mut [f64]) -> bool {
+        if !self.target.is_discrete() {
+            return false;
+        }
+        out.copy_from_slice(self.target.probabilities(obs));
+        true
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn weights_and_cap() {
+        // Definition (Degris, White & Sutton 2012, Section 2): ρ = π(a|s)/b(a|s);
+        // truncation min(ρ, c) (Munos et al. 2016, Section 3).
+        let (rho, w, cut) = importance_weight(libm::log(0.6), libm::log(0.2), Some(2.0));
+        assert!((rho - 3.0).abs() < 1e-12 && w == 2.0 && cut);
+        let (rho, w, cut) = importance_weight(libm::log(0.1), libm::log(0.2), Some(2.0));
+        assert!((rho - 0.5).abs() < 1e-12 && w == rho && !cut);
+    }
+}

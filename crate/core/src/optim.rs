@@ -1,0 +1,436 @@
+//! Optimizers: how an update direction becomes a change of the weights.
+//!
+//! Learners express every update as an *ascent direction* `d` in weight
+//! space (for a critic, `δ ∇V`; for an actor, `A ∇ log π`), gathered in a
+//! [`Grad`] (a dense buffer that remembers which entries were touched, so a
+//! sparse feature vector costs only its own entries). An [`Optimizer`] turns
+//! it into a change of the weights: plain stochastic gradient steps
+//! `w ← w + α d`, or Adam (Kingma & Ba 2015, Algorithm 1), optionally after
+//! scaling `d` down to a largest Euclidean norm (gradient-norm clipping,
+//! Pascanu, Mikolov & Bengio 2013). [`Trainable`] bundles an approximator with
+//! its optimizer state and step size; the actor and the critic each own one,
+//! so their step sizes are separate. Nothing here allocates after
+//! construction.
+
+use serde::{Deserialize, Serialize};
+
+use crate::approx::{Approx, Obs};
+
+/// The optimizer kinds.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum OptimKind {
+    /// Stochastic gradient steps `w ← w + α d`.
+    #[default]
+    Sgd,
+    /// Adam (Kingma & Ba 2015) with bias correction.
+    Adam,
+}
+
+/// Optimizer settings (the `optimizer` object of a learner setup).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct OptimizerConfig {
+    /// `"sgd"` or `"adam"`. Default `"sgd"`.
+    #[serde(default)]
+    pub kind: OptimKind,
+    /// Largest Euclidean norm of an update direction; longer ones are scaled
+    /// down to it. `null` (the default) means no clipping; otherwise in
+    /// (0, 1e6].
+    #[serde(default)]
+    pub clip: Option<f64>,
+    /// Adam's first-moment decay, in [0, 1). Default 0.9.
+    #[serde(default = "default_beta1")]
+    pub beta1: f64,
+    /// Adam's second-moment decay, in [0, 1). Default 0.999.
+    #[serde(default = "default_beta2")]
+    pub beta2: f64,
+    /// Adam's denominator offset, in (0, 1]. Default 1e-8.
+    #[serde(default = "default_epsilon")]
+    pub epsilon: f64,
+}
+
+fn default_beta1() -> f64 {
+    0.9
+}
+fn default_beta2() -> f64 {
+    0.999
+}
+fn default_epsilon() -> f64 {
+    1e-8
+}
+
+impl Default for OptimizerConfig {
+    fn default() -> Self {
+        OptimizerConfig {
+            kind: OptimKind::Sgd,
+            clip: None,
+            beta1: default_beta1(),
+            beta2: default_beta2(),
+            epsilon: default_epsilon(),
+        }
+    }
+}
+
+impl OptimizerConfig {
+    /// Every out-of-range setting as `(field, message)`, fields relative to
+    /// the `optimizer` object.
+    pub fn check(&self) -> Vec<(String, String)> {
+        let mut errs = Vec::new();
+        if let Some(c) = self.clip {
+            if !(c > 0.0 && c <= 1e6) {
+                errs.push(("clip".into(), format!("must be null (no clipping) or in (0, 1e6], got {c}")));
+            }
+        }
+        for (name, v) in [("beta1", self.beta1), ("beta2", self.beta2)] {
+            if !(0.0..1.0).contains(&v) {
+                errs.push((name.into(), format!("must be in [0, 1), got {v}")));
+            }
+        }
+        if !(self.epsilon > 0.0 && self.epsilon <= 1.0) {
+            errs.push(("epsilon".into(), format!("must be in (0, 1], got {}", self.epsilon)));
+        }
+        errs
+    }
+}
+
+/// An update direction in weight space, accumulated entry by entry.
+///
+/// Entries are added with [`Grad::add`]; the buffer keeps the list of
+/// touched entries so that applying and clearing it costs only those (a
+/// tile-coded critic touches a handful of its thousands of weights). A
+/// dense approximator (an MLP) marks the whole buffer touched instead.
+#[derive(Clone, Debug)]
+pub struct Grad {
+    g: Vec<f64>,
+    mark: Vec<bool>,
+    touched: Vec<u32>,
+    dense: bool,
+}
+
+impl Grad {
+    /// A zero direction over `n` weights.
+    pub fn new(n: usize) -> Self {
+        Grad { g: vec![0.0; n], mark: vec![false; n], touched: Vec::with_capacity(n.min(4096)), dense: false }
+    }
+
+    /// Number of weights.
+    pub fn len(&self) -> usize {
+        self.g.len()
+    }
+
+    /// Whether the buffer covers no weights at all.
+    pub fn is_empty(&self) -> bool {
+        self.g.is_empty()
+    }
+
+    /// Adds `v` to entry `i`.
+    #[inline]
+    pub fn add(&mut self, i: usize, v: f64) {
+        if !self.dense && !self.mark[i] {
+            self.mark[i] = true;
+            if self.touched.len() == self.touched.capacity() {
+                // More distinct entries than the initial room: treat as dense
+                // rather than grow the list (keeps the step allocation-free).
+                self.dense = true;
+            } else {
+                self.touched.push(i as u32);
+            }
+        }
+        self.g[i] += v;
+    }
+
+    /// Marks every entry touched and gives mutable access to all of them
+    /// (for dense approximators).
+    pub fn dense_mut(&mut self) -> &mut [f64] {
+        self.dense = true;
+        &mut self.g
+    }
+
+    /// The entries (zero where untouched).
+    pub fn values(&self) -> &[f64] {
+        &self.g
+    }
+
+    fn for_each_touched(&self, mut f: impl FnMut(usize)) {
+        if self.dense {
+            (0..self.g.len()).for_each(f);
+        } else {
+            for &i in &self.touched {
+                f(i as usize);
+            }
+        }
+    }
+
+    /// Euclidean norm.
+    pub fn norm(&self) -> f64 {
+        let mut sq = 0.0;
+        self.for_each_touched(|i| sq += self.g[i] * self.g[i]);
+        libm::sqrt(sq)
+    }
+
+    /// Dot product with another direction over the same weights.
+    pub fn dot(&self, other: &Grad) -> f64 {
+        let mut s = 0.0;
+        self.for_each_touched(|i| s += self.g[i] * other.g[i]);
+        s
+    }
+
+    /// Adds `a · other` to this direction.
+    pub fn add_scaled(&mut self, a: f64, other: &Grad) {
+        if other.dense {
+            for i in 0..other.g.len() {
+                let v = a * other.g[i];
+                self.add(i, v);
+            }
+        } else {
+            for &i in &other.touched {
+                let v = a * other.g[i as usize];
+                self.add(i as usize, v);
+            }
+        }
+    }
+
+    /// Multiplies every entry by `a`.
+    pub fn scale(&mut self, a: f64) {
+        if self.dense {
+            self.g.iter_mut().for_each(|v| *v *= a);
+        } else {
+            for &i in &self.touched {
+                self.g[i as usize] *= a;
+            }
+        }
+    }
+
+    /// Resets to the zero direction.
+    pub fn clear(&mut self) {
+        if self.dense {
+            self.g.iter_mut().for_each(|v| *v = 0.0);
+            self.mark.iter_mut().for_each(|m| *m = false);
+            self.dense = false;
+        } else {
+            for &i in &self.touched {
+                self.g[i as usize] = 0.0;
+                self.mark[i as usize] = false;
+            }
+        }
+        self.touched.clear();
+    }
+}
+
+/// Optimizer state for one set of weights.
+#[derive(Clone, Debug)]
+pub struct Optimizer {
+    kind: OptimKind,
+    clip: Option<f64>,
+    beta1: f64,
+    beta2: f64,
+    epsilon: f64,
+    m: Vec<f64>,
+    v: Vec<f64>,
+    beta1_t: f64,
+    beta2_t: f64,
+}
+
+impl Optimizer {
+    /// State for `n` weights.
+    pub fn new(cfg: &OptimizerConfig, n: usize) -> Self {
+        let adam = cfg.kind == OptimKind::Adam;
+        Optimizer {
+            kind: cfg.kind,
+            clip: cfg.clip,
+            beta1: cfg.beta1,
+            beta2: cfg.beta2,
+            epsilon: cfg.epsilon,
+            m: if adam { vec![0.0; n] } else { Vec::new() },
+            v: if adam { vec![0.0; n] } else { Vec::new() },
+            beta1_t: 1.0,
+            beta2_t: 1.0,
+        }
+    }
+
+    /// Plain SGD without clipping: the update can be applied directly,
+    /// without gathering a [`Grad`].
+    pub fn is_plain_sgd(&self) -> bool {
+        self.kind == OptimKind::Sgd && self.clip.is_none()
+    }
+
+    /// Applies `step · clip(d)` (SGD) or an Adam step along `d` to `w`, then
+    /// clears `d`. Returns the norm of `d` before clipping.
+    pub fn apply(&mut self, w: &mut [f64], d: &mut Grad, step: f64) -> f64 {
+        let norm = d.norm();
+        let factor = match self.clip {
+            Some(c) if norm > c => c / norm,
+            _ => 1.0,
+        };
+        match self.kind {
+            OptimKind::Sgd => {
+                let s = step * factor;
+                d.for_each_touched(|i| w[i] += s * d.g[i]);
+            }
+            OptimKind::Adam => {
+                self.beta1_t *= self.beta1;
+                self.beta2_t *= self.beta2;
+                let (b1, b2) = (self.beta1, self.beta2);
+                let c1 = 1.0 - self.beta1_t;
+                let c2 = 1.0 - self.beta2_t;
+                for i in 0..w.len() {
+                    let g = d.g[i] * factor;
+                    self.m[i] = b1 * self.m[i] + (1.0 - b1) * g;
+                    self.v[i] = b2 * self.v[i] + (1.0 - b2) * g * g;
+                    let mh = self.m[i] / c1;
+                    let vh = self.v[i] / c2;
+                    w[i] += step * mh / (libm::sqrt(vh) + self.epsilon);
+                }
+            }
+        }
+        d.clear();
+        norm
+    }
+}
+
+/// An approximator with its optimizer state, its gradient buffer and its
+/// step size: one per actor or critic.
+pub struct Trainable {
+    /// The function being learned.
+    pub net: Box<dyn Approx>,
+    opt: Optimizer,
+    grad: Grad,
+    step: f64,
+}
+
+impl Trainable {
+    /// Wraps `net`; the step size is `step` times the approximator's step
+    /// scale (1 / number of active tiles for tile coding), for SGD and Adam
+    /// alike.
+    pub fn new(net: Box<dyn Approx>, cfg: &OptimizerConfig, step: f64) -> Self {
+        let n = net.params().len();
+        let step = step * net.step_scale();
+        Trainable { opt: Optimizer::new(cfg, n), grad: Grad::new(n), step, net }
+    }
+
+    /// The effective step size.
+    pub fn step(&self) -> f64 {
+        self.step
+    }
+
+    /// The outputs at `obs`.
+    pub fn eval(&mut self, obs: Obs<'_>) -> &[f64] {
+        self.net.eval(obs)
+    }
+
+    /// One update along `signal · Σ_k coef[k] ∇ out_k(obs)`; returns the norm
+    /// of that direction.
+    pub fn ascend(&mut self, obs: Obs<'_>, coef: &[f64], signal: f64) -> f64 {
+        if self.opt.is_plain_sgd() {
+            if let Some(n) = self.net.sgd_step(obs, coef, self.step * signal) {
+                return n * signal.abs();
+            }
+        }
+        self.net.accumulate(obs, coef, signal, &mut self.grad);
+        self.opt.apply(self.net.params_mut(), &mut self.grad, self.step)
+    }
+
+    /// Adds `signal · Σ_k coef[k] ∇ out_k(obs)` to the pending direction
+    /// (for updates over a batch of states; see [`Trainable::apply`]).
+    pub fn accumulate(&mut self, obs: Obs<'_>, coef: &[f64], signal: f64) {
+        self.net.accumulate(obs, coef, signal, &mut self.grad);
+    }
+
+    /// The pending direction.
+    pub fn pending(&self) -> &Grad {
+        &self.grad
+    }
+
+    /// Mutable access to the pending direction.
+    pub fn pending_mut(&mut self) -> &mut Grad {
+        &mut self.grad
+    }
+
+    /// Applies the pending direction as one optimizer step and clears it;
+    /// returns its norm.
+    pub fn apply(&mut self) -> f64 {
+        self.opt.apply(self.net.params_mut(), &mut self.grad, self.step)
+    }
+
+    /// Whether every weight is finite.
+    pub fn is_finite(&self) -> bool {
+        self.net.params().iter().all(|v| v.is_finite())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+
+    #[test]
+    fn grad_tracks_touched_entries() {
+        let mut g = Grad::new(10);
+        g.add(3, 1.0);
+        g.add(7, 2.0);
+        g.add(3, 2.0);
+        assert_eq!(g.norm(), libm::sqrt(9.0 + 4.0));
+        let mut h = Grad::new(10);
+        h.add_scaled(2.0, &g);
+        assert_eq!(h.values()[3], 6.0);
+        assert_eq!(g.dot(&h), 3.0 * 6.0 + 2.0 * 4.0);
+        g.clear();
+        assert!(g.values().iter().all(|&v| v == 0.0));
+        assert_eq!(g.norm(), 0.0);
+    }
+
+    #[test]
+    fn clipping_limits_the_step_length() {
+        // Pascanu, Mikolov & Bengio (2013), Algorithm 1: a direction longer than
+        // the threshold is rescaled to the threshold.
+        let cfg = OptimizerConfig { clip: Some(1.0), ..OptimizerConfig::default() };
+        let mut opt = Optimizer::new(&cfg, 2);
+        let mut w = [0.0, 0.0];
+        let mut g = Grad::new(2);
+        g.add(0, 3.0);
+        g.add(1, 4.0);
+        let n = opt.apply(&mut w, &mut g, 1.0);
+        assert_eq!(n, 5.0);
+        assert!((w[0] - 0.6).abs() < 1e-15 && (w[1] - 0.8).abs() < 1e-15);
+    }
+
+    #[test]
+    fn adam_first_step_has_the_step_size_as_length_per_weight() {
+        // Kingma & Ba (2015), Section 2.1: with bias correction the first
+        // effective step is ±α per weight (up to ε), whatever the gradient scale.
+        let cfg = OptimizerConfig { kind: OptimKind::Adam, ..OptimizerConfig::default() };
+        let mut opt = Optimizer::new(&cfg, 3);
+        let mut w = [0.0; 3];
+        let mut g = Grad::new(3);
+        g.add(0, 1e-3);
+        g.add(1, -250.0);
+        opt.apply(&mut w, &mut g, 0.01);
+        assert!((w[0] - 0.01).abs() < 1e-7, "{w:?}");
+        assert!((w[1] + 0.01).abs() < 1e-9, "{w:?}");
+        assert_eq!(w[2], 0.0);
+    }
+
+    #[test]
+    fn adam_minimises_a_quadratic() {
+        // Common practice, no source: Adam descends f(w) = (w0 − 3)² + 10 (w1 + 1)²
+        // to its minimum.
+        let cfg = OptimizerConfig { kind: OptimKind::Adam, ..OptimizerConfig::default() };
+        let mut opt = Optimizer::new(&cfg, 2);
+        let mut w = [0.0; 2];
+        let mut g = Grad::new(2);
+        for _ in 0..5000 {
+            g.add(0, -2.0 * (w[0] - 3.0));
+            g.add(1, -20.0 * (w[1] + 1.0));
+            opt.apply(&mut w, &mut g, 0.01);
+        }
+        assert!((w[0] - 3.0).abs() < 1e-3 && (w[1] + 1.0).abs() < 1e-3, "{w:?}");
+    }
+
+    #[test]
+    fn config_ranges_are_checked() {
+        let cfg = OptimizerConfig { clip: Some(0.0), beta1: 1.0, epsilon: 0.0, ..OptimizerConfig::default() };
+        let errs = cfg.check();
+        assert_eq!(errs.len(), 3, "{errs:?}");
+        assert_eq!(errs[0].0, "clip");
+    }
+}
