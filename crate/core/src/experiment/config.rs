@@ -12,8 +12,12 @@ use serde::{Deserialize, Serialize};
 use serde_json::{Map, Value};
 
 use crate::learn::LearnerSetup;
+use crate::reward::RewardConfig;
 use crate::task::cartpole::{CartPole, CartPoleConfig};
 use crate::task::grid::{GridConfig, GridWorld};
+use crate::task::mountain_car::{MountainCar, MountainCarConfig};
+use crate::task::pendulum::{Pendulum, PendulumConfig};
+use crate::task::server::{Server, ServerConfig};
 use crate::task::{Task, TaskError, TaskSpec};
 
 /// The config schema version this build writes and reads.
@@ -37,6 +41,12 @@ pub enum TaskConfig {
     Grid(GridConfig),
     /// Cart-pole balancing.
     Cartpole(CartPoleConfig),
+    /// Mountain car (Sutton & Barto 2018, Example 10.1).
+    MountainCar(MountainCarConfig),
+    /// Pendulum swing-up with limited torque (Doya 2000).
+    Pendulum(PendulumConfig),
+    /// The job server (continuing; our own).
+    Server(ServerConfig),
 }
 
 impl TaskConfig {
@@ -45,6 +55,9 @@ impl TaskConfig {
         Ok(match self {
             TaskConfig::Grid(c) => Box::new(GridWorld::new(c.clone())?),
             TaskConfig::Cartpole(c) => Box::new(CartPole::new(c.clone())?),
+            TaskConfig::MountainCar(c) => Box::new(MountainCar::new(c.clone())?),
+            TaskConfig::Pendulum(c) => Box::new(Pendulum::new(c.clone())?),
+            TaskConfig::Server(c) => Box::new(Server::new(c.clone())?),
         })
     }
 }
@@ -58,6 +71,10 @@ pub struct VariantConfig {
     /// Fields of the learner setup that differ from `base`.
     #[serde(default = "empty_object")]
     pub learner: Value,
+    /// The reward this variant trains on, replacing the experiment's
+    /// `reward` whole. Default: the experiment's.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub reward: Option<RewardConfig>,
 }
 
 fn empty_object() -> Value {
@@ -90,6 +107,10 @@ pub struct Config {
     /// The base learner setup (see [`LearnerSetup`]). Default: all defaults.
     #[serde(default = "empty_object")]
     pub base: Value,
+    /// The reward the learners train on (see [`RewardConfig`]). Default: the
+    /// task's base reward.
+    #[serde(default)]
+    pub reward: RewardConfig,
     /// The variants to compare (1 to 8).
     pub variants: Vec<VariantConfig>,
     /// Seeds per variant, in [1, 100]. Default 10.
@@ -171,6 +192,8 @@ pub struct VariantPlan {
     pub label: String,
     /// The full learner setup (base with the variant's overrides).
     pub setup: LearnerSetup,
+    /// The reward it trains on (the variant's own, or the experiment's).
+    pub reward: RewardConfig,
 }
 
 /// A validated experiment.
@@ -321,6 +344,11 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
     if !config.base.is_object() {
         bad("base".into(), "must be an object of learner settings".into());
     }
+    if let Some(spec) = &spec {
+        for p in config.reward.check(spec, spec.default_discount) {
+            bad(format!("reward.{}", p.field), p.message);
+        }
+    }
     let mut variants = Vec::new();
     for (i, v) in config.variants.iter().enumerate() {
         let n = v.label.chars().count();
@@ -360,7 +388,13 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
                 bad(origin(&e.field), e.message);
             }
         }
-        variants.push(VariantPlan { label: v.label.clone(), setup });
+        let reward = v.reward.clone().unwrap_or_else(|| config.reward.clone());
+        if let (Some(spec), Some(_)) = (&spec, &v.reward) {
+            for p in reward.check(spec, setup.discount.unwrap_or(spec.default_discount)) {
+                bad(format!("variants[{i}].reward.{}", p.field), p.message);
+            }
+        }
+        variants.push(VariantPlan { label: v.label.clone(), setup, reward });
     }
     // A problem in `base` shows once, not once per variant.
     let mut seen = std::collections::HashSet::new();

@@ -155,12 +155,17 @@ impl Results {
 
     /// Per-bin values of one seed (NaN where it has no data yet).
     pub fn seed_curve(&self, variant: usize, seed: usize) -> Vec<f64> {
+        self.seed_curve_of(variant, seed, false)
+    }
+
+    /// Per-bin base (or, with `shaped`, shaped) returns of one seed.
+    pub fn seed_curve_of(&self, variant: usize, seed: usize, shaped: bool) -> Vec<f64> {
         let j = self.job(variant, seed);
         let mut sums = vec![0.0; self.edges.len()];
         let mut counts = vec![0u32; self.edges.len()];
         for e in &j.episodes {
             let b = bin_of(&self.edges, e.end_step);
-            sums[b] += e.base_return;
+            sums[b] += if shaped { e.shaped_return } else { e.base_return };
             counts[b] += 1;
         }
         let reached = if j.steps_done == 0 { None } else { Some(bin_of(&self.edges, j.steps_done)) };
@@ -216,6 +221,46 @@ impl Results {
                 point
             })
             .collect()
+    }
+
+    /// The curve of the shaped return (what the learner was trained on):
+    /// per bin the mean over seeds with a Student-t 95% interval (cheaper
+    /// than the bootstrap of [`Results::curve`]), the IQM and the median.
+    pub fn shaped_curve(&self, variant: usize) -> Vec<CurvePoint> {
+        let per_seed: Vec<Vec<f64>> = (0..self.seeds).map(|s| self.seed_curve_of(variant, s, true)).collect();
+        let mut xs = Vec::with_capacity(self.seeds);
+        self.edges
+            .iter()
+            .enumerate()
+            .map(|(b, &step)| {
+                xs.clear();
+                xs.extend(per_seed.iter().map(|c| c[b]).filter(|v| !v.is_nan()));
+                let s = stats::summarize(&xs);
+                let (lo, hi) = s.ci95.unwrap_or((f64::NAN, f64::NAN));
+                CurvePoint {
+                    step,
+                    mean: s.mean,
+                    lo,
+                    hi,
+                    n: xs.len(),
+                    iqm: stats::iqm(&xs),
+                    median: stats::median(&xs),
+                }
+            })
+            .collect()
+    }
+
+    /// The reward-hacking signal of a variant (see
+    /// [`crate::reward::audit::trend`]): per seed, whether the shaped return
+    /// rose while the base return fell between the start and the end of the
+    /// run; `flag` when more than half of the seeds say so.
+    pub fn hacking(&self, variant: usize) -> Value {
+        let trends: Vec<_> = (0..self.seeds)
+            .map(|s| {
+                crate::reward::audit::trend(&self.job(variant, s).episodes, self.steps, self.final_fraction)
+            })
+            .collect();
+        crate::reward::audit::hacking_json(&trends)
     }
 
     /// Each seed's area under its curve, as the mean of its binned values
@@ -278,6 +323,7 @@ impl Results {
                 let auc: Vec<f64> = self.auc_per_seed(v).into_iter().flatten().collect();
                 let auc = score(&auc, self.master_seed, 200 + v as u64, 0);
                 let curve = self.curve(v);
+                let shaped = self.shaped_curve(v);
                 let failed: Vec<Value> = (0..self.seeds)
                     .filter_map(|s| self.job(v, s).failed.as_ref().map(|r| json!({"seed": s, "reason": r})))
                     .collect();
@@ -302,6 +348,13 @@ impl Results {
                     "steps_to_threshold": reach,
                     "episodes": episodes,
                     "failed": failed,
+                    "hacking": self.hacking(v),
+                    "curve_shaped": {
+                        "mean": shaped.iter().map(|p| num(p.mean)).collect::<Vec<_>>(),
+                        "lo": shaped.iter().map(|p| num(p.lo)).collect::<Vec<_>>(),
+                        "hi": shaped.iter().map(|p| num(p.hi)).collect::<Vec<_>>(),
+                        "n": shaped.iter().map(|p| p.n).collect::<Vec<_>>(),
+                    },
                     "curve": {
                         "step": curve.iter().map(|p| p.step).collect::<Vec<_>>(),
                         "mean": curve.iter().map(|p| num(p.mean)).collect::<Vec<_>>(),

@@ -7,11 +7,15 @@
 //! numbers); the agent stream depends on the variant too. [`Job::advance`]
 //! can be called with any chunk size: the sequence of steps, and so every
 //! number, is the same. A learner that produces a non-finite number stops its
-//! own job with the reason; other jobs are unaffected.
+//! own job with the reason; other jobs are unaffected. The reward the
+//! learner trains on comes from the variant's compiled reward ([`Shaper`]),
+//! evaluated once per step without allocating; a non-finite value stops the
+//! job the same way. Both the base and the shaped return are recorded.
 
 use crate::approx::Obs;
 use crate::experiment::config::Plan;
 use crate::learn::{build_learner, ActionBuf, Learner, StepDiag, Transition};
+use crate::reward::{Shaper, StepInput};
 use crate::rng::{Purpose, Stream};
 use crate::task::Task;
 
@@ -74,6 +78,7 @@ pub struct Job {
     id: usize,
     task: Box<dyn Task>,
     learner: Box<dyn Learner>,
+    shaper: Shaper,
     task_rng: Stream,
     agent_rng: Stream,
     budget: u64,
@@ -117,12 +122,16 @@ impl Job {
         let spec = task.spec().clone();
         let learner =
             build_learner(&plan.variants[variant].setup, &spec).expect("a validated plan's learner builds");
+        let gamma = plan.variants[variant].setup.discount.unwrap_or(spec.default_discount);
+        let shaper = Shaper::new(&plan.variants[variant].reward, &spec, gamma)
+            .expect("a validated plan's reward compiles");
         let n_obs = spec.state_vars.len();
         let edges = bin_edges(cfg.steps, cfg.curve_points);
         Job {
             id,
             task,
             learner,
+            shaper,
             task_rng: Stream::derive(cfg.master_seed, Purpose::Task, u64::MAX, seed as u64),
             agent_rng: Stream::derive(cfg.master_seed, Purpose::Agent, variant as u64, seed as u64),
             budget: cfg.steps,
@@ -199,7 +208,7 @@ impl Job {
         self.steps_done - start
     }
 
-    fn step(&mut self) -> Result<(), crate::learn::LearnError> {
+    fn step(&mut self) -> Result<(), String> {
         if !self.in_episode {
             self.task.reset(&mut self.task_rng, &mut self.obs);
             self.obs_id = self.task.state_id();
@@ -217,7 +226,20 @@ impl Job {
         let next_id = self.task.state_id();
         self.steps_done += 1;
         self.ep_len += 1;
-        let reward = outcome.reward;
+        let reward = self.shaper.reward(&StepInput {
+            obs: &self.obs,
+            action: self.action.as_action(),
+            next: &self.next_obs,
+            base: outcome.reward,
+            terminal: outcome.terminated,
+            t: u64::from(self.ep_len - 1),
+        });
+        if !reward.is_finite() {
+            return Err(format!(
+                "the reward formula gave {reward} (base reward {}); check divisions, logarithms and square roots",
+                outcome.reward
+            ));
+        }
         self.ep_base += outcome.reward;
         self.ep_shaped += reward;
         let truncated = !outcome.terminated && self.ep_len >= self.max_len;
@@ -234,7 +256,7 @@ impl Job {
             terminated: outcome.terminated,
             truncated,
         };
-        let d = self.learner.learn(&tr, &mut self.agent_rng)?;
+        let d = self.learner.learn(&tr, &mut self.agent_rng).map_err(|e| e.to_string())?;
         self.diag[bin_of(&self.bin_edges, self.steps_done)].add(&d);
         if outcome.terminated || truncated {
             self.episodes.push(EpisodeRecord {

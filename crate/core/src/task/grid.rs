@@ -3,15 +3,20 @@
 //! Map characters: `#` wall, `.` floor, `S` start (exactly one), `D` dock (the
 //! goal; entering it ends the episode), `~` spill (a hazard cell: entering it
 //! adds `hazard_reward`, and with `hazard_restart` sends the agent back to the
-//! start). Every move costs `step_reward`; reaching a dock adds `goal_reward`.
+//! start), `>` `<` `^` `v` one-way conveyors (entered only by a move in the
+//! arrow's direction; every action on one moves on in that direction).
+//! Every move costs `step_reward`; reaching a dock adds `goal_reward`.
 //! Actions are north, east, south, west; a move into a wall or off the map
 //! leaves the agent in place. With probability `slip` the move goes to one of
 //! the two perpendicular directions instead (half each). The exact model
 //! ([`FiniteModel`]) follows from the same rules, in [`GridWorld::model`].
+//! Instead of a `map`, a config may name a built-in `layout`
+//! ([`super::layouts`]), which also sets the reward settings it needs;
+//! settings given explicitly override the layout's.
 
 use serde::{Deserialize, Serialize};
 
-use super::{Action, ActionSpace, FiniteModel, Outcome, StateVar, Step, Task, TaskError, TaskSpec};
+use super::{layouts, Action, ActionSpace, FiniteModel, Outcome, StateVar, Step, Task, TaskError, TaskSpec};
 use crate::rng::Stream;
 
 /// Largest map side accepted.
@@ -19,10 +24,15 @@ pub const MAX_SIDE: usize = 64;
 
 /// Settings of a gridworld (the `task` object of a config with `"kind": "grid"`).
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
-#[serde(deny_unknown_fields)]
+#[serde(from = "RawGridConfig")]
 pub struct GridConfig {
-    /// The map, one string per row (see the module documentation).
+    /// The map, one string per row (see the module documentation). Required
+    /// unless `layout` is given.
     pub map: Vec<String>,
+    /// A built-in layout by name (`rover`, `ledge`, `maze`), instead of `map`;
+    /// it also sets the defaults of the settings below. Default none.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub layout: Option<String>,
     /// Probability in [0, 0.5] that a move slips sideways. Default 0.
     #[serde(default)]
     pub slip: f64,
@@ -41,6 +51,57 @@ pub struct GridConfig {
     /// Episode length limit (truncation), in [1, 100000]. Default 200.
     #[serde(default = "default_max_steps")]
     pub max_steps: u32,
+}
+
+/// A grid config as written: unset settings come from the layout, if any.
+#[derive(Deserialize)]
+#[serde(deny_unknown_fields)]
+struct RawGridConfig {
+    map: Option<Vec<String>>,
+    layout: Option<String>,
+    slip: Option<f64>,
+    step_reward: Option<f64>,
+    hazard_reward: Option<f64>,
+    hazard_restart: Option<bool>,
+    goal_reward: Option<f64>,
+    max_steps: Option<u32>,
+}
+
+impl From<RawGridConfig> for GridConfig {
+    fn from(r: RawGridConfig) -> Self {
+        let base = GridConfig::default();
+        let l = r.layout.as_deref().and_then(layouts::find);
+        GridConfig {
+            map: r.map.unwrap_or_else(|| match l {
+                Some(l) => l.map.iter().map(|s| s.to_string()).collect(),
+                None => Vec::new(),
+            }),
+            layout: r.layout,
+            slip: r.slip.or(l.map(|l| l.slip)).unwrap_or(base.slip),
+            step_reward: r.step_reward.or(l.map(|l| l.step_reward)).unwrap_or(base.step_reward),
+            hazard_reward: r.hazard_reward.or(l.map(|l| l.hazard_reward)).unwrap_or(base.hazard_reward),
+            hazard_restart: r.hazard_restart.or(l.map(|l| l.hazard_restart)).unwrap_or(base.hazard_restart),
+            goal_reward: r.goal_reward.or(l.map(|l| l.goal_reward)).unwrap_or(base.goal_reward),
+            max_steps: r.max_steps.or(l.map(|l| l.max_steps)).unwrap_or(base.max_steps),
+        }
+    }
+}
+
+impl GridConfig {
+    /// The config of a built-in layout with its own settings.
+    pub fn layout(name: &str) -> Option<GridConfig> {
+        let l = layouts::find(name)?;
+        Some(GridConfig {
+            map: l.map.iter().map(|s| s.to_string()).collect(),
+            layout: Some(name.to_string()),
+            slip: l.slip,
+            step_reward: l.step_reward,
+            hazard_reward: l.hazard_reward,
+            hazard_restart: l.hazard_restart,
+            goal_reward: l.goal_reward,
+            max_steps: l.max_steps,
+        })
+    }
 }
 
 fn default_step_reward() -> f64 {
@@ -69,6 +130,7 @@ impl Default for GridConfig {
     fn default() -> Self {
         GridConfig {
             map: ROVER_MAP.iter().map(|s| s.to_string()).collect(),
+            layout: None,
             slip: 0.0,
             step_reward: default_step_reward(),
             hazard_reward: default_hazard_reward(),
@@ -85,6 +147,8 @@ enum Cell {
     Floor,
     Dock,
     Spill,
+    /// A one-way conveyor moving in direction 0..4 (north, east, south, west).
+    OneWay(usize),
 }
 
 /// Row and column moves for north, east, south, west.
@@ -118,8 +182,28 @@ impl GridWorld {
     /// Builds the world, or says which setting (or which map cell) is wrong.
     pub fn new(cfg: GridConfig) -> Result<Self, TaskError> {
         let bad = |f: &str, m: String| Err(TaskError::Invalid(f.into(), m));
+        if let Some(name) = &cfg.layout {
+            match layouts::find(name) {
+                None => {
+                    return bad(
+                        "layout",
+                        format!("unknown layout {name:?}; the layouts are {}", layouts::names()),
+                    )
+                }
+                Some(l) if !cfg.map.iter().map(String::as_str).eq(l.map.iter().copied()) => {
+                    return bad(
+                        "layout",
+                        format!("the config gives both a `map` and the layout {name:?}; give one of them"),
+                    )
+                }
+                Some(_) => {}
+            }
+        }
         if cfg.map.is_empty() {
-            return bad("map", "is empty: give at least one row".into());
+            return bad(
+                "map",
+                format!("is empty: give the rows of a map, or a `layout` ({})", layouts::names()),
+            );
         }
         if cfg.map.len() > MAX_SIDE {
             return bad("map", format!("has {} rows; at most {MAX_SIDE} are allowed", cfg.map.len()));
@@ -145,6 +229,10 @@ impl GridWorld {
                     '.' => Cell::Floor,
                     'D' => Cell::Dock,
                     '~' => Cell::Spill,
+                    '^' => Cell::OneWay(0),
+                    '>' => Cell::OneWay(1),
+                    'v' => Cell::OneWay(2),
+                    '<' => Cell::OneWay(3),
                     'S' => {
                         if start.is_some() {
                             return bad(
@@ -159,7 +247,7 @@ impl GridWorld {
                         return bad(
                             &format!("map[{r}]"),
                             format!(
-                                "column {c}: unknown character {other:?}; use '#' wall, '.' floor, 'S' start, 'D' dock, '~' spill"
+                                "column {c}: unknown character {other:?}; use '#' wall, '.' floor, 'S' start, 'D' dock, '~' spill, '>' '<' '^' 'v' one-way"
                             ),
                         )
                     }
@@ -217,8 +305,14 @@ impl GridWorld {
         self.state_cell[s]
     }
 
-    /// The cell reached by moving from `cell` in direction `dir` (walls and edges block).
+    /// The cell reached by moving from `cell` in direction `dir` (walls,
+    /// edges and conveyors facing another way block; on a conveyor every
+    /// move goes its way).
     fn target(&self, cell: usize, dir: usize) -> usize {
+        let dir = match self.cells[cell] {
+            Cell::OneWay(d) => d,
+            _ => dir,
+        };
         let (dr, dc) = MOVES[dir];
         let r = (cell / self.cols) as i32 + dr;
         let c = (cell % self.cols) as i32 + dc;
@@ -226,10 +320,10 @@ impl GridWorld {
             return cell;
         }
         let t = r as usize * self.cols + c as usize;
-        if self.cells[t] == Cell::Wall {
-            cell
-        } else {
-            t
+        match self.cells[t] {
+            Cell::Wall => cell,
+            Cell::OneWay(d) if d != dir => cell,
+            _ => t,
         }
     }
 
@@ -304,6 +398,16 @@ impl Task for GridWorld {
         }
         let s = self.cell_state[r * self.cols + c];
         (s != usize::MAX).then_some(s)
+    }
+
+    fn state_obs(&self, s: usize, obs: &mut [f64]) -> bool {
+        let Some(&cell) = self.state_cell.get(s) else { return false };
+        if obs.len() < 2 {
+            return false;
+        }
+        obs[0] = (cell / self.cols) as f64;
+        obs[1] = (cell % self.cols) as f64;
+        true
     }
 
     fn model(&self) -> Option<FiniteModel> {

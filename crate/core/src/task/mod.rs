@@ -9,6 +9,10 @@
 
 pub mod cartpole;
 pub mod grid;
+pub mod layouts;
+pub mod mountain_car;
+pub mod pendulum;
+pub mod server;
 
 use crate::rng::Stream;
 
