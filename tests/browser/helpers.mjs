@@ -74,3 +74,40 @@ export async function countColourInPlot(page, colour, tol = 24) {
     return n;
   }, { colour, tol });
 }
+
+/** Wait for two animation frames (a scheduled redraw has happened). */
+export function nextFrame(page) {
+  return page.evaluate(() => new Promise((r) => requestAnimationFrame(() => requestAnimationFrame(r))));
+}
+
+/** Wait until the current run is over (done, cancelled or interrupted). */
+export async function waitForRunEnd(page, timeout = 180000) {
+  await page.waitForFunction(() => {
+    const r = window.__critbox.state.run;
+    return r && (r.status === 'done' || r.status === 'cancelled');
+  }, null, { timeout, polling: 200 });
+}
+
+/** Press Train once it is enabled and wait for the run to finish. */
+export async function runToEnd(page, timeout = 180000) {
+  await page.waitForFunction(() => !document.getElementById('train').disabled);
+  await page.click('#train');
+  await page.waitForFunction(() => window.__critbox.state.run, null, { timeout: 10000 });
+  await waitForRunEnd(page, timeout);
+  await nextFrame(page);
+}
+
+/**
+ * Screenshot into the test-output folder, the settings sheet scrolled to its
+ * top and the results bench to `scrollBench` px.
+ */
+export async function shoot(page, name, { scrollBench = 0 } = {}) {
+  await page.evaluate((y) => {
+    const sheet = document.getElementById('experiment');
+    if (sheet) sheet.scrollTop = 0;
+    const bench = document.querySelector('.bench');
+    if (bench) bench.scrollTop = y;
+  }, scrollBench);
+  await nextFrame(page);
+  await page.screenshot({ path: path.join(outDir, name) });
+}

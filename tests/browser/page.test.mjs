@@ -60,16 +60,16 @@ test('rover preset: train 3 seeds × 3000 steps, curves drawn, summary filled', 
   assert.equal((await page.textContent('#percent')).trim(), '100%');
   assert.equal(await page.isDisabled('#train'), false, 'Train is usable again after the run');
 
-  // Summary table: one row per variant, in order, with a number for the mean
+  // Score table: one row per variant, in order, with a number for the mean
   // and all three seeds counted.
-  const rows = page.locator('#summary-body tr');
+  const rows = page.locator('#scores-body tr');
   assert.equal(await rows.count(), cfg.variants.length);
   for (let i = 0; i < cfg.variants.length; i++) {
-    const cells = await rows.nth(i).locator('td').allTextContents();
-    assert.equal(cells[0].trim(), cfg.variants[i].label);
-    assert.match(cells[1], /^-?\d+(\.\d+)?$/, `mean of ${cfg.variants[i].label}: ${cells[1]}`);
-    assert.match(cells[3], /^\d of 3$/);
-    assert.ok(Number(cells[4]) > 0, `episodes of ${cfg.variants[i].label}: ${cells[4]}`);
+    assert.equal((await rows.nth(i).locator('th').textContent()).trim(), cfg.variants[i].label);
+    const mean = await rows.nth(i).locator('td').nth(0).locator('.main').textContent();
+    assert.match(mean, /^[−-]?\d+(\.\d+)?$/, `mean of ${cfg.variants[i].label}: ${mean}`);
+    const seeds = await rows.nth(i).locator('td').last().locator('.main').textContent();
+    assert.equal(seeds, '3 of 3');
   }
 
   // The curve: wait for the frame after the run ended, then look for the
@@ -165,7 +165,7 @@ test('a worker that fails shows a message and the page keeps working', async () 
   assert.ok(messages.length >= 1, 'an error message is shown');
   assert.ok(messages.some((m) => /worker/i.test(m)), messages.join('\n'));
   // Every job is counted as failed, the run ends, and Train works again.
-  const failures = await page.locator('#summary-body td.fail').count();
+  const failures = await page.locator('#scores-body td.fail').count();
   assert.ok(failures >= 1, 'the summary lists the failed jobs');
   assert.equal(await page.isDisabled('#train'), false);
   await shoot(page, 'worker-error.png');
@@ -198,7 +198,7 @@ test('pause holds the run still, resume goes on, cancel ends it with a partial s
   assert.equal(await page.evaluate(() => window.__critbox.state.run.status), 'cancelled');
   assert.ok((await percent()) < 100);
   assert.match(await page.textContent('#percent'), /cancelled/);
-  assert.match(await page.textContent('#summary-note'), /cancelled/);
+  assert.match(await page.textContent('#scores-note'), /cancelled/);
   assert.equal(await page.isDisabled('#train'), false);
   assert.equal(await page.isDisabled('#pause'), true);
   await shoot(page, 'cancelled.png');

@@ -2,7 +2,9 @@
 // its arguments: it keeps no state between calls and returns the layout it
 // used (so a caller or a test can find the plot area). Each variant gets a
 // colour and a dash pattern (second cue for readers who cannot tell the
-// colours apart): a mean line and a translucent 95% band.
+// colours apart): a line of the chosen statistic over seeds (mean with its
+// translucent 95% band, or the IQM, or the median), optionally one thin line
+// per seed, and an optional dotted threshold line.
 
 /** Dash patterns, one per variant in order (CSS px); the first is solid. */
 export const DASHES = [[], [9, 4], [2, 3], [11, 3, 2, 3], [5, 5], [14, 3, 2, 3, 2, 3]];
@@ -14,6 +16,15 @@ export const PALETTE = ['#2f5fb3', '#cf6d12', '#16866a', '#ad3c84', '#806600', '
 
 /** Curve record stride (contract): binEndStep, mean, lo95, hi95, nSeedsWithData. */
 export const CURVE_STRIDE = 5;
+/** Robust curve stride (Results.curveRobust): iqm, median. */
+export const ROBUST_STRIDE = 2;
+
+/** The statistics a curve can show, with the y-axis title of each. */
+export const STATS = {
+  mean: 'return: mean over seeds with 95% bootstrap band',
+  iqm: 'return: interquartile mean over seeds',
+  median: 'return: median over seeds',
+};
 
 export function seriesStyle(i, palette = PALETTE) {
   // Past the palette's length the dash cycle is shifted, so no two of the
@@ -80,12 +91,16 @@ function runsWhere(n, pred) {
  * Draw learning curves.
  * @param {CanvasRenderingContext2D} ctx  canvas already sized to width*dpr × height*dpr
  * @param {object} data
- *   variants: [{label: string, curve: Float64Array (stride 5, see CURVE_STRIDE)}]
- *   xMax:     the step budget (x runs from 0 to xMax)
- *   note:     text shown in the plot when no variant has data (optional)
+ *   variants: [{label: string, curve: Float64Array (stride 5, see CURVE_STRIDE),
+ *               robust: Float64Array (stride 2, see ROBUST_STRIDE; needed for 'iqm' and 'median'),
+ *               seeds: [Float64Array] (one value per bin and seed, NaN where none; optional)}]
+ *   xMax:      the step budget (x runs from 0 to xMax)
+ *   note:      text shown in the plot when no variant has data (optional)
+ *   threshold: a return level drawn as a dotted line (optional)
  * @param {object} options
  *   width, height (CSS px), dpr,
  *   colours: {background, ink, muted, grid}, palette: [css colours], font: css font family,
+ *   stat: 'mean' (default) | 'iqm' | 'median', seedLines: bool (draw data.variants[i].seeds),
  *   xLabel, yLabel (optional axis titles)
  * @returns {{plot:{x,y,w,h}, x:[number,number], y:[number,number], series:Array}}
  *   layout in CSS px; series[i] = {label, colour, dash, points (finite means drawn)}
@@ -96,8 +111,18 @@ export function drawCurves(ctx, data, options) {
   const palette = options.palette && options.palette.length ? options.palette : PALETTE;
   const family = options.font || 'sans-serif';
   const xLabel = options.xLabel ?? 'environment steps';
-  const yLabel = options.yLabel ?? 'return (mean and 95% interval over seeds)';
+  const stat = STATS[options.stat] ? options.stat : 'mean';
+  const yLabel = options.yLabel ?? STATS[stat];
   const variants = data.variants || [];
+  const seedLines = !!options.seedLines;
+  // The value of the drawn statistic at bin k of variant v.
+  const lineAt = variants.map((v) => {
+    const c = v.curve || [];
+    const r = v.robust || [];
+    if (stat === 'iqm') return (k) => r[k * ROBUST_STRIDE];
+    if (stat === 'median') return (k) => r[k * ROBUST_STRIDE + 1];
+    return (k) => c[k * CURVE_STRIDE + 1];
+  });
 
   ctx.save();
   ctx.setTransform(dpr, 0, 0, dpr, 0, 0);
@@ -108,16 +133,18 @@ export function drawCurves(ctx, data, options) {
   const xMax = data.xMax > 0 ? data.xMax : 1;
   let yMin = Infinity;
   let yMax = -Infinity;
-  for (const v of variants) {
+  const widen = (y) => { if (Number.isFinite(y)) { if (y < yMin) yMin = y; if (y > yMax) yMax = y; } };
+  variants.forEach((v, i) => {
     const c = v.curve || [];
-    for (let i = 0; i + CURVE_STRIDE <= c.length; i += CURVE_STRIDE) {
-      for (const k of [1, 2, 3]) {
-        const y = c[i + k];
-        if (Number.isFinite(y)) { if (y < yMin) yMin = y; if (y > yMax) yMax = y; }
-      }
+    const n = Math.floor(c.length / CURVE_STRIDE);
+    for (let k = 0; k < n; k++) {
+      widen(lineAt[i](k));
+      if (stat === 'mean') { widen(c[k * CURVE_STRIDE + 2]); widen(c[k * CURVE_STRIDE + 3]); }
     }
-  }
+    if (seedLines && v.seeds) for (const s of v.seeds) for (const y of s) widen(y);
+  });
   const hasData = yMin <= yMax;
+  if (hasData && Number.isFinite(data.threshold)) widen(data.threshold);
   if (!hasData) { yMin = -1; yMax = 1; }
   if (yMax - yMin < 1e-9) { const pad = Math.max(1, Math.abs(yMax) * 0.1); yMin -= pad; yMax += pad; }
   const yPad = (yMax - yMin) * 0.04;
@@ -170,7 +197,27 @@ export function drawCurves(ctx, data, options) {
   ctx.beginPath();
   ctx.rect(plot.x, plot.y, plot.w, plot.h);
   ctx.clip();
+  if (seedLines) {
+    variants.forEach((v, i) => {
+      const c = v.curve || [];
+      const n = Math.floor(c.length / CURVE_STRIDE);
+      ctx.strokeStyle = series[i].colour;
+      ctx.globalAlpha = 0.35;
+      ctx.lineWidth = 1;
+      ctx.setLineDash([]);
+      for (const s of v.seeds || []) {
+        for (const [a, b] of runsWhere(Math.min(n, s.length), (k) => Number.isFinite(s[k]))) {
+          if (a === b) continue;
+          ctx.beginPath();
+          for (let k = a; k <= b; k++) ctx.lineTo(sx(c[k * CURVE_STRIDE]), sy(s[k]));
+          ctx.stroke();
+        }
+      }
+      ctx.globalAlpha = 1;
+    });
+  }
   variants.forEach((v, i) => {
+    if (stat !== 'mean') return;
     const c = v.curve || [];
     const n = Math.floor(c.length / CURVE_STRIDE);
     const at = (k, f) => c[k * CURVE_STRIDE + f];
@@ -195,20 +242,36 @@ export function drawCurves(ctx, data, options) {
     ctx.lineWidth = 2;
     ctx.lineJoin = 'round';
     ctx.setLineDash(series[i].dash);
-    for (const [a, b] of runsWhere(n, (k) => Number.isFinite(at(k, 1)) && Number.isFinite(at(k, 0)))) {
+    const y = lineAt[i];
+    for (const [a, b] of runsWhere(n, (k) => Number.isFinite(y(k)) && Number.isFinite(at(k, 0)))) {
       series[i].points += b - a + 1;
       if (a === b) {
         ctx.beginPath();
-        ctx.arc(sx(at(a, 0)), sy(at(a, 1)), 2.5, 0, 2 * Math.PI);
+        ctx.arc(sx(at(a, 0)), sy(y(a)), 2.5, 0, 2 * Math.PI);
         ctx.fill();
         continue;
       }
       ctx.beginPath();
-      for (let k = a; k <= b; k++) ctx.lineTo(sx(at(k, 0)), sy(at(k, 1)));
+      for (let k = a; k <= b; k++) ctx.lineTo(sx(at(k, 0)), sy(y(k)));
       ctx.stroke();
     }
     ctx.setLineDash([]);
   });
+  if (hasData && Number.isFinite(data.threshold)) {
+    const ty = Math.round(sy(data.threshold)) + 0.5;
+    ctx.strokeStyle = colours.ink;
+    ctx.lineWidth = 1;
+    ctx.setLineDash([1, 3]);
+    ctx.beginPath();
+    ctx.moveTo(plot.x, ty);
+    ctx.lineTo(plot.x + plot.w, ty);
+    ctx.stroke();
+    ctx.setLineDash([]);
+    ctx.fillStyle = colours.muted;
+    ctx.textAlign = 'right';
+    ctx.textBaseline = 'bottom';
+    ctx.fillText(`threshold ${formatValue(data.threshold, yTicks.step / 10)}`, plot.x + plot.w - 4, ty - 2);
+  }
   ctx.restore();
 
   // ---- frame, axis titles, note
@@ -255,7 +318,7 @@ export function drawCurves(ctx, data, options) {
   });
 
   ctx.restore();
-  return { plot, x: [0, xMax], y: [yLo, yHi], series };
+  return { plot, x: [0, xMax], y: [yLo, yHi], series, stat, seedLines };
 }
 
 /** A legend sample: band patch behind a short line in the variant's style. */

@@ -54,6 +54,10 @@ export function findControls(doc) {
     seeds: $('seeds'),
     steps: $('steps'),
     masterSeed: $('master-seed'),
+    finalFraction: $('final-fraction'),
+    curvePoints: $('curve-points'),
+    threshold: $('threshold'),
+    detectDifference: $('detect-difference'),
   };
 }
 
@@ -94,6 +98,10 @@ export function writeForm(els, config) {
   setNum(els.seeds, config.seeds);
   setNum(els.steps, config.steps);
   setNum(els.masterSeed, config.master_seed);
+  setNum(els.finalFraction, config.final_fraction ?? 0.1);
+  setNum(els.curvePoints, config.curve_points ?? 40);
+  setNum(els.threshold, config.threshold);
+  setNum(els.detectDifference, config.detect_difference);
 
   renderVariants(els, config);
   refreshForm(els);
@@ -329,6 +337,14 @@ export function readForm(els, prev) {
   cfg.seeds = num(els.seeds, 'seeds', { integer: true });
   cfg.steps = num(els.steps, 'steps', { integer: true });
   cfg.master_seed = num(els.masterSeed, 'master_seed', { integer: true });
+  const optional = (key, input, opts) => {
+    const v = num(input, key, { optional: true, ...opts });
+    if (v === undefined) delete cfg[key]; else cfg[key] = v;
+  };
+  optional('final_fraction', els.finalFraction);
+  optional('curve_points', els.curvePoints, { integer: true });
+  optional('threshold', els.threshold);
+  optional('detect_difference', els.detectDifference);
   return { config: cfg, error };
 }
 

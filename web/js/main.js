@@ -1,16 +1,24 @@
 // Wires the page: loads the wasm module and the presets, keeps the form and
 // the config in step (validating on every edit), starts runs on a worker
-// pool, feeds every episode record into one Results handle on this thread and
-// redraws the curves at most once per animation frame.
+// pool, feeds every episode record into one Results handle on this thread,
+// redraws the curves at most once per animation frame, and fills the result
+// tables when a run ends or a results file is opened.
 
 import { loadWasm, messageOf } from './wasm.js';
 import { Pool } from './pool.js';
-import { createState, newRun, runFraction, addMessage, dismissMessage } from './state.js';
+import {
+  createState, newRun, runFraction, variantFractions, secondsLeft, formatLeft, addMessage, dismissMessage,
+} from './state.js';
 import { drawCurves, drawSample, sizeCanvas, seriesStyle } from './chart.js';
 import {
   findControls, writeForm, readForm, refreshForm, renderVariants, newVariant,
   pathOfMessage, controlForPath, DEFAULT_GRID_TASK,
 } from './controls.js';
+import {
+  renderScores, renderComparisons, renderAdvisor, SCORE_COLUMNS, COMPARISON_COLUMNS, ADVISOR_COLUMNS,
+} from './tables.js';
+import { download, canvasPng, fileStem, readFileText } from './export.js';
+import { fetchPresetIndex, fetchPresetText } from './platform.js';
 
 /** Steps each job advances per chunk in a worker. */
 const CHUNK_STEPS = 2000;
@@ -21,7 +29,7 @@ const FALLBACK_CONFIG = {
   title: 'Rover to dock (built-in fallback)',
   task: DEFAULT_GRID_TASK,
   base: { algo: 'a2c', discount: 0.99, actor_step: 0.1, critic_step: 0.2, features: { kind: 'tabular' } },
-  variants: [{ label: 'A2C' }, { label: 'QAC', learner: { algo: 'qac' } }],
+  variants: [{ label: 'A2C' }, { label: 'QAC', learner: { algo: 'qac', actor_step: 0.01 } }],
   seeds: 5,
   steps: 10000,
   master_seed: 1,
@@ -31,22 +39,38 @@ const FALLBACK_CONFIG = {
 
 const state = createState();
 const els = findControls(document);
+const $ = (id) => document.getElementById(id);
 const ui = {
-  train: document.getElementById('train'),
-  pause: document.getElementById('pause'),
-  cancel: document.getElementById('cancel'),
-  progress: document.getElementById('progress'),
-  percent: document.getElementById('percent'),
-  reason: document.getElementById('run-reason'),
-  messages: document.getElementById('messages'),
-  canvas: document.getElementById('curves'),
-  canvasBox: document.getElementById('canvas-box'),
-  plotTitle: document.getElementById('plot-title'),
-  summaryBody: document.getElementById('summary-body'),
-  summaryNote: document.getElementById('summary-note'),
+  train: $('train'),
+  pause: $('pause'),
+  cancel: $('cancel'),
+  progress: $('progress'),
+  percent: $('percent'),
+  eta: $('eta'),
+  reason: $('run-reason'),
+  variantProgress: $('variant-progress'),
+  messages: $('messages'),
+  notes: $('notes'),
+  canvas: $('curves'),
+  canvasBox: $('canvas-box'),
+  plotTitle: $('plot-title'),
+  scoresHead: $('scores-head'),
+  scoresBody: $('scores-body'),
+  scoresNote: $('scores-note'),
+  comparisonsHead: $('comparisons-head'),
+  comparisonsBody: $('comparisons-body'),
+  advisorHead: $('advisor-head'),
+  advisorBody: $('advisor-body'),
+  seedLines: $('seed-lines'),
+  pngCurves: $('png-curves'),
+  saveResults: $('save-results'),
+  exportCsv: $('export-csv'),
+  openFile: $('open-file'),
+  tabs: [...document.querySelectorAll('[role="tab"]')],
 };
 let pool = null;
 let drawPending = false;
+let progressTimer = 0;
 
 // For tests and for curious people in the console: read-only by convention.
 const debug = { state, ready: false, draws: 0, lastDraw: null };
@@ -68,11 +92,20 @@ function renderMessages() {
     const b = document.createElement('button');
     b.type = 'button';
     b.textContent = 'Dismiss';
+    b.setAttribute('aria-label', `Dismiss: ${m.text.slice(0, 80)}`);
     b.addEventListener('click', () => { dismissMessage(state, m.id); renderMessages(); });
     div.append(p, b);
     return div;
   });
   ui.messages.replaceChildren(...nodes);
+}
+
+let noteTimer = 0;
+/** A short confirmation ("Link copied") that goes away by itself. */
+function showNote(text, ms = 6000) {
+  ui.notes.textContent = text;
+  clearTimeout(noteTimer);
+  noteTimer = setTimeout(() => { ui.notes.textContent = ''; }, ms);
 }
 
 window.addEventListener('error', (e) => showError(`page error: ${e.message}`));
@@ -90,8 +123,13 @@ function revalidate() {
   refreshForm(els);
   const { config, error } = readForm(els, state.config);
   state.config = config;
-  if (error) {
-    state.check = { ok: false, message: error.message, path: error.path };
+  checkConfig(error);
+}
+
+function checkConfig(formError = null) {
+  const config = state.config;
+  if (formError) {
+    state.check = { ok: false, message: formError.message, path: formError.path };
   } else if (!state.wasm) {
     state.check = { ok: false, message: 'The WebAssembly module is not loaded, so nothing can be checked or trained.', path: '' };
   } else {
@@ -134,22 +172,21 @@ function renderButtons() {
   ui.cancel.disabled = !active;
   ui.pause.textContent = state.run && state.run.status === 'paused' ? 'Resume' : 'Pause';
   els.preset.disabled = active;
+  const haveResults = !!state.results && !!state.run;
+  ui.saveResults.disabled = !haveResults || active;
+  ui.exportCsv.disabled = !haveResults || active;
 }
 
 // ---------------------------------------------------------------- presets
 
 async function loadPresetIndex() {
-  const res = await fetch('presets/index.json');
-  if (!res.ok) throw new Error(`presets/index.json: HTTP ${res.status}`);
-  const list = await res.json();
+  const list = await fetchPresetIndex();
   if (!Array.isArray(list)) throw new Error('presets/index.json: expected a list of {file, title}');
   return list.filter((p) => p && typeof p.file === 'string' && /^[\w.-]+\.json$/.test(p.file));
 }
 
 async function loadPreset(file) {
-  const res = await fetch(`presets/${file}`);
-  if (!res.ok) throw new Error(`presets/${file}: HTTP ${res.status}`);
-  const text = await res.text();
+  const text = await fetchPresetText(file);
   try {
     return JSON.parse(text);
   } catch (err) {
@@ -164,11 +201,11 @@ function renderPresetPicker() {
     o.textContent = typeof p.title === 'string' && p.title ? p.title : p.file;
     return o;
   });
-  if (!opts.length) {
+  if (!state.presetFile || !state.presets.some((p) => p.file === state.presetFile)) {
     const o = document.createElement('option');
     o.value = '';
-    o.textContent = '(no presets found)';
-    opts.push(o);
+    o.textContent = state.presets.length ? '(your own experiment)' : '(no presets found)';
+    opts.unshift(o);
   }
   els.preset.replaceChildren(...opts);
   els.preset.value = state.presetFile;
@@ -185,6 +222,7 @@ async function choosePreset(file) {
     const config = await loadPreset(file);
     state.presetFile = file;
     applyConfig(config);
+    renderPresetPicker();
   } catch (err) {
     showError(messageOf(err));
     els.preset.value = state.presetFile;
@@ -193,11 +231,18 @@ async function choosePreset(file) {
 
 // ---------------------------------------------------------------- runs
 
+function freeResults() {
+  if (state.results) {
+    try { state.results.free(); } catch { /* already freed */ }
+    state.results = null;
+  }
+}
+
 function startRun() {
   if (!state.check.ok || isActive() || !state.wasm) return;
   const json = JSON.stringify(state.config);
   const info = state.check.info;
-  if (state.results) { try { state.results.free(); } catch { /* already freed */ } state.results = null; }
+  freeResults();
   try {
     state.results = new state.wasm.Results(json);
   } catch (err) {
@@ -205,11 +250,22 @@ function startRun() {
     return;
   }
   state.run = newRun(json, info);
+  state.run.threshold = typeof state.config.threshold === 'number' ? state.config.threshold : null;
   state.summary = null;
-  renderSummary();
+  renderResults();
+  launch(Array.from({ length: info.jobs }, (_, j) => j));
+}
+
+/** Start workers on the given job ids of state.run. */
+function launch(jobIds) {
+  const run = state.run;
+  run.status = 'running';
+  run.resumedAt = performance.now();
   pool = new Pool({ onProgress, onError: onWorkerError, onPaused, onDone });
-  pool.start(json, info.jobs, CHUNK_STEPS);
-  state.run.workers = Pool.workerCount(info.jobs);
+  run.workers = Pool.workerCount(jobIds.length);
+  pool.start(run.configJson, jobIds, CHUNK_STEPS);
+  clearInterval(progressTimer);
+  progressTimer = setInterval(renderProgress, 1000);
   renderProgress();
   renderCheck();
   scheduleDraw();
@@ -222,6 +278,7 @@ function onProgress({ progress, episodes, failures }) {
     if (episodes.length) {
       state.results.addEpisodes(episodes);
       run.episodes += episodes.length / 5;
+      run.version += 1;
     }
     for (let k = 0; k + 3 <= progress.length; k += 3) {
       const job = progress[k];
@@ -232,6 +289,7 @@ function onProgress({ progress, episodes, failures }) {
     for (const f of failures) {
       run.jobStatus[f.job] = 2;
       state.results.markFailed(f.job, String(f.reason));
+      run.version += 1;
     }
   } catch (err) {
     showError(`recording results: ${messageOf(err)}`);
@@ -250,6 +308,7 @@ function onWorkerError(message, jobIds) {
       try { state.results.markFailed(j, message); } catch (err) { showError(`recording a failure: ${messageOf(err)}`); }
     }
   }
+  run.version += 1;
   renderProgress();
 }
 
@@ -258,8 +317,13 @@ function onPaused() {
   renderButtons();
 }
 
+function stopClock(run) {
+  if (run.resumedAt) { run.activeMs += performance.now() - run.resumedAt; run.resumedAt = 0; }
+}
+
 function onDone() {
   if (!state.run) return;
+  stopClock(state.run);
   state.run.status = 'done';
   pool = null;
   finishSummary();
@@ -269,10 +333,12 @@ function togglePause() {
   if (!pool || !state.run) return;
   if (state.run.status === 'running') {
     state.run.status = 'paused';
+    stopClock(state.run);
     pool.pause();
   } else if (state.run.status === 'paused') {
     state.run.status = 'running';
     state.run.idle = false;
+    state.run.resumedAt = performance.now();
     pool.resume();
   }
   renderProgress();
@@ -283,18 +349,21 @@ function cancelRun() {
   if (!pool || !state.run) return;
   pool.cancel();
   pool = null;
+  stopClock(state.run);
   state.run.status = 'cancelled';
   finishSummary();
 }
 
 function finishSummary() {
+  clearInterval(progressTimer);
   try {
     state.summary = JSON.parse(state.results.summaryJson());
   } catch (err) {
     state.summary = null;
     showError(`could not summarise the run: ${messageOf(err)}`);
   }
-  renderSummary();
+  state.run.version += 1;
+  renderResults();
   renderProgress();
   renderCheck();
   scheduleDraw();
@@ -307,81 +376,166 @@ function renderProgress() {
   let text = `${pct}%`;
   if (run && run.status === 'paused') text += ' (paused)';
   if (run && run.status === 'cancelled') text += ' (cancelled)';
+  if (run && run.status === 'interrupted') text += ' (interrupted)';
   const failed = run ? run.jobStatus.reduce((n, st) => n + (st === 2 ? 1 : 0), 0) : 0;
   if (failed) text += ` · ${failed} job${failed === 1 ? '' : 's'} failed`;
   ui.percent.textContent = text;
+  ui.eta.textContent = run && run.status === 'running' ? formatLeft(secondsLeft(run, performance.now())) : '';
+
+  const show = !!run && run.status !== 'opened' && run.labels.length > 1;
+  ui.variantProgress.hidden = !show;
+  if (!show) return;
+  const fr = variantFractions(run);
+  if (ui.variantProgress.children.length !== fr.length) {
+    ui.variantProgress.replaceChildren(...run.labels.map((label, i) => {
+      const li = document.createElement('li');
+      const lab = document.createElement('label');
+      const name = document.createElement('span');
+      name.textContent = label;
+      const p = document.createElement('progress');
+      p.max = 100;
+      lab.append(name, p);
+      li.style.setProperty('--series-colour', `var(--series-${(i % 6) + 1})`);
+      li.append(lab);
+      return li;
+    }));
+  }
+  fr.forEach((f, i) => {
+    const p = ui.variantProgress.children[i].querySelector('progress');
+    p.value = Math.floor(f * 100);
+  });
 }
 
-// ---------------------------------------------------------------- summary
+// ---------------------------------------------------------------- results
 
-function fmt(x) {
-  if (typeof x !== 'number' || !Number.isFinite(x)) return '–';
-  const a = Math.abs(x);
-  return a >= 1000 ? x.toFixed(0) : a >= 100 ? x.toFixed(1) : x.toFixed(2);
+function headRow(tr, columns) {
+  if (tr.children.length) return;
+  tr.replaceChildren(...columns.map((c, i) => {
+    const th = document.createElement('th');
+    th.scope = 'col';
+    th.textContent = c;
+    if (i > 0 && i < columns.length - 1) th.className = 'num';
+    return th;
+  }));
 }
 
-function renderSummary() {
+function swatch(i) {
+  const sw = document.createElement('canvas');
+  sw.className = 'swatch';
+  const dpr = window.devicePixelRatio || 1;
+  sizeCanvas(sw, 30, 12, dpr);
+  const sctx = sw.getContext('2d');
+  sctx.setTransform(dpr, 0, 0, dpr, 0, 0);
+  drawSample(sctx, 0, 6, 30, seriesStyle(i, readPalette()));
+  sw.setAttribute('aria-hidden', 'true');
+  return sw;
+}
+
+function renderResults() {
+  headRow(ui.scoresHead, SCORE_COLUMNS);
+  headRow(ui.comparisonsHead, COMPARISON_COLUMNS);
+  headRow(ui.advisorHead, ADVISOR_COLUMNS);
   const s = state.summary;
   const run = state.run;
-  if (!s) {
-    const tr = document.createElement('tr');
-    tr.className = 'empty';
-    const td = document.createElement('td');
-    td.colSpan = 6;
-    td.textContent = isActive() ? 'Training… the table is filled in when the run finishes.' : 'Filled in when a run finishes.';
-    tr.append(td);
-    ui.summaryBody.replaceChildren(tr);
-    ui.summaryNote.textContent = '';
-    return;
+  const emptyText = isActive() ? 'Training… filled in when the run finishes.' : 'Filled in when a run finishes.';
+  renderScores(ui.scoresBody, s, { swatch, emptyText });
+  renderComparisons(ui.comparisonsBody, s, { emptyText });
+  renderAdvisor(ui.advisorBody, s, { emptyText });
+  let note = '';
+  if (s) {
+    const frac = typeof s.final_fraction === 'number' ? s.final_fraction : null;
+    note = frac ? `(final return: mean base return over the last ${Math.round(frac * 100)}% of each seed's steps, then over seeds)` : '';
+    if (run && run.status === 'cancelled') note += ' — run cancelled, partial data';
+    if (run && run.status === 'interrupted') note += ' — finished jobs only; the run was interrupted';
+    if (run && run.origin === 'file') note += ` — opened from ${run.fileName}`;
   }
-  const palette = readPalette();
-  const rows = (s.variants || []).map((v, i) => {
-    const tr = document.createElement('tr');
-    const name = document.createElement('td');
-    const sw = document.createElement('canvas');
-    sw.className = 'swatch';
-    const dpr = window.devicePixelRatio || 1;
-    sizeCanvas(sw, 30, 12, dpr);
-    const sctx = sw.getContext('2d');
-    sctx.setTransform(dpr, 0, 0, dpr, 0, 0);
-    drawSample(sctx, 0, 6, 30, seriesStyle(i, palette));
-    sw.setAttribute('aria-hidden', 'true');
-    const label = document.createElement('span');
-    label.textContent = String(v.label ?? `variant ${i + 1}`);
-    name.append(sw, label);
-
-    const fr = v.final_return || {};
-    const ci = Array.isArray(fr.ci95) ? fr.ci95 : [];
-    const failed = Array.isArray(v.failed) ? v.failed : [];
-    const cells = [
-      numCell(fmt(fr.mean)),
-      numCell(ci.length === 2 ? `${fmt(ci[0])} to ${fmt(ci[1])}` : '–'),
-      numCell(`${fr.n ?? 0} of ${s.seeds ?? '?'}`),
-      numCell(String(v.episodes ?? 0)),
-    ];
-    const fail = document.createElement('td');
-    if (failed.length) {
-      fail.className = 'fail';
-      fail.textContent = failed.map((f) => `seed ${f.seed}: ${f.reason}`).join('; ');
-    } else {
-      fail.textContent = 'none';
-    }
-    tr.append(name, ...cells, fail);
-    return tr;
-  });
-  ui.summaryBody.replaceChildren(...rows);
-  const frac = typeof state.config?.final_fraction === 'number' ? state.config.final_fraction : null;
-  let note = frac ? `(mean over the last ${Math.round(frac * 100)}% of steps per seed` : '(per seed';
-  note += ', then over seeds)';
-  if (run && run.status === 'cancelled') note += ' — run cancelled, partial data';
-  ui.summaryNote.textContent = note;
+  ui.scoresNote.textContent = note;
+  renderButtons();
 }
 
-function numCell(text) {
-  const td = document.createElement('td');
-  td.className = 'num';
-  td.textContent = text;
-  return td;
+function exportBase() {
+  return fileStem(state.run?.title || state.config?.title);
+}
+
+function saveResultsFile() {
+  if (!state.results) return;
+  try {
+    download(`${exportBase()}-results.json`, state.results.saveJson(), 'application/json');
+  } catch (err) {
+    showError(`could not write the results file: ${messageOf(err)}`);
+  }
+}
+
+function exportCsv() {
+  if (!state.results) return;
+  try {
+    download(`${exportBase()}.csv`, state.results.tidyCsv(), 'text/csv');
+  } catch (err) {
+    showError(`could not write the CSV: ${messageOf(err)}`);
+  }
+}
+
+async function savePng(canvas, name) {
+  try {
+    download(`${exportBase()}-${name}.png`, await canvasPng(canvas));
+  } catch (err) {
+    showError(messageOf(err));
+  }
+}
+
+/** Open a results file: rebuild the results without re-running. */
+async function openResultsFile(file) {
+  if (!state.wasm) { showError('The WebAssembly module is not loaded, so results files cannot be read.'); return; }
+  if (isActive()) { showError('A run is in progress; cancel it before opening a results file.'); return; }
+  let text;
+  try {
+    text = await readFileText(file);
+  } catch (err) {
+    showError(messageOf(err));
+    return;
+  }
+  showResultsText(text, file.name, 'file');
+}
+
+/** Show saved results (results file format); returns true when it worked. */
+function showResultsText(text, fileName, origin) {
+  let results;
+  let configJson;
+  let info;
+  try {
+    results = state.wasm.Results.fromSaved(text);
+    configJson = results.configJson();
+    info = JSON.parse(state.wasm.validateConfig(configJson));
+  } catch (err) {
+    try { results?.free(); } catch { /* nothing to free */ }
+    showError(`${fileName} could not be opened: ${messageOf(err)}`);
+    return false;
+  }
+  freeResults();
+  state.results = results;
+  const config = JSON.parse(configJson);
+  const run = newRun(configJson, info, origin);
+  run.status = 'opened';
+  run.fileName = fileName;
+  run.threshold = typeof config.threshold === 'number' ? config.threshold : null;
+  run.jobStatus.fill(1);
+  run.stepsDone.fill(run.steps);
+  state.run = run;
+  try {
+    state.summary = JSON.parse(results.summaryJson());
+  } catch (err) {
+    state.summary = null;
+    showError(`could not summarise ${fileName}: ${messageOf(err)}`);
+  }
+  // The form shows the experiment that produced the results.
+  state.presetFile = '';
+  renderPresetPicker();
+  applyConfig(config);
+  renderResults();
+  renderProgress();
+  scheduleDraw();
+  if (origin === 'file') showNote(`Opened ${fileName}: ${info.labels.length} variants × ${info.seeds} seeds, not re-run.`);
+  return true;
 }
 
 // ---------------------------------------------------------------- drawing
@@ -402,6 +556,22 @@ function scheduleDraw() {
   requestAnimationFrame(() => { drawPending = false; draw(); });
 }
 
+/** Per-seed curves, cached per results version. */
+let seedCache = { key: '', data: [] };
+function seedCurves(run) {
+  const key = `${run.version}/${run.labels.length}/${run.seeds}/${run.configJson.length}`;
+  if (seedCache.key === key && seedCache.results === state.results) return seedCache.data;
+  const data = run.labels.map((_, v) => {
+    const out = [];
+    for (let s = 0; s < run.seeds; s++) {
+      try { out.push(state.results.seedCurve(v, s)); } catch (err) { reportDrawError(err); }
+    }
+    return out;
+  });
+  seedCache = { key, data, results: state.results };
+  return data;
+}
+
 function draw() {
   const box = ui.canvasBox;
   const width = Math.floor(box.clientWidth);
@@ -412,18 +582,30 @@ function draw() {
   const ctx = ui.canvas.getContext('2d');
 
   const run = state.run;
+  const stat = state.view.stat;
   let variants;
   let xMax;
   let note = '';
+  let threshold = null;
   if (run && state.results) {
+    const seeds = state.view.seedLines ? seedCurves(run) : null;
     variants = run.labels.map((label, v) => {
       let curve;
-      try { curve = state.results.curve(v); } catch (err) { curve = new Float64Array(0); reportDrawError(err); }
-      return { label, curve };
+      let robust;
+      try {
+        curve = state.results.curve(v);
+        robust = stat === 'mean' ? undefined : state.results.curveRobust(v);
+      } catch (err) {
+        curve = new Float64Array(0);
+        reportDrawError(err);
+      }
+      return { label, curve, robust, seeds: seeds ? seeds[v] : undefined };
     });
     xMax = run.steps;
+    threshold = run.threshold;
     note = run.status === 'running' ? 'Waiting for the first finished episodes…' : 'No finished episodes to show.';
-    ui.plotTitle.textContent = `${run.title || 'Untitled experiment'} — ${statusWord(run)}`;
+    const where = run.origin === 'file' ? ` — opened from ${run.fileName}` : ` — ${statusWord(run)}`;
+    ui.plotTitle.textContent = `${run.title || 'Untitled experiment'}${where}`;
   } else {
     const cfg = state.config || {};
     const labels = state.check.ok ? state.check.info.labels : (cfg.variants || []).map((v, i) => String(v.label ?? `variant ${i + 1}`));
@@ -432,15 +614,18 @@ function draw() {
     note = state.wasm ? 'Press Train to see learning curves.' : 'Training needs the WebAssembly module.';
     ui.plotTitle.textContent = state.config ? `${cfg.title || 'Untitled experiment'} — not trained yet` : 'No run yet';
   }
-  const layout = drawCurves(ctx, { variants, xMax, note }, {
+  const layout = drawCurves(ctx, { variants, xMax, note, threshold }, {
     width,
     height,
     dpr,
+    stat,
+    seedLines: state.view.seedLines,
     colours: { background: cssVar('--chart-bg'), ink: cssVar('--chart-ink'), muted: cssVar('--chart-muted'), grid: cssVar('--chart-grid') },
     palette: readPalette(),
     font: getComputedStyle(document.body).fontFamily,
   });
-  ui.canvas.setAttribute('aria-label', `Learning curves of ${variants.map((v) => v.label).join(', ') || 'no variants'}: return against environment steps`);
+  const statWord = { mean: 'mean with 95% band', iqm: 'interquartile mean', median: 'median' }[stat];
+  ui.canvas.setAttribute('aria-label', `Learning curves (${statWord} over seeds) of ${variants.map((v) => v.label).join(', ') || 'no variants'}: return against environment steps`);
   debug.draws += 1;
   debug.lastDraw = { ...layout, dpr, width, height };
 }
@@ -457,8 +642,38 @@ function statusWord(run) {
     case 'running': return 'training';
     case 'paused': return 'paused';
     case 'cancelled': return 'cancelled';
+    case 'interrupted': return 'interrupted';
+    case 'opened': return 'opened';
     default: return 'finished';
   }
+}
+
+// ---------------------------------------------------------------- tabs
+
+function selectTab(tab, focus = false) {
+  for (const t of ui.tabs) {
+    const on = t === tab;
+    t.setAttribute('aria-selected', String(on));
+    t.tabIndex = on ? 0 : -1;
+    $(t.getAttribute('aria-controls')).hidden = !on;
+  }
+  state.view.tab = tab.id.replace(/^tab-/, '');
+  if (focus) tab.focus();
+  scheduleDraw();
+}
+
+function bindTabs() {
+  ui.tabs.forEach((t, i) => {
+    t.addEventListener('click', () => selectTab(t));
+    t.addEventListener('keydown', (e) => {
+      let k = -1;
+      if (e.key === 'ArrowRight') k = (i + 1) % ui.tabs.length;
+      else if (e.key === 'ArrowLeft') k = (i - 1 + ui.tabs.length) % ui.tabs.length;
+      else if (e.key === 'Home') k = 0;
+      else if (e.key === 'End') k = ui.tabs.length - 1;
+      if (k >= 0) { e.preventDefault(); selectTab(ui.tabs[k], true); }
+    });
+  });
 }
 
 // ---------------------------------------------------------------- events
@@ -494,16 +709,30 @@ function bind() {
   ui.train.addEventListener('click', startRun);
   ui.pause.addEventListener('click', togglePause);
   ui.cancel.addEventListener('click', cancelRun);
+  for (const r of document.querySelectorAll('input[name="curve-stat"]')) {
+    r.addEventListener('change', () => { if (r.checked) { state.view.stat = r.value; scheduleDraw(); } });
+  }
+  ui.seedLines.addEventListener('change', () => { state.view.seedLines = ui.seedLines.checked; scheduleDraw(); });
+  ui.pngCurves.addEventListener('click', () => savePng(ui.canvas, 'curves'));
+  ui.saveResults.addEventListener('click', saveResultsFile);
+  ui.exportCsv.addEventListener('click', exportCsv);
+  ui.openFile.addEventListener('change', () => {
+    const f = ui.openFile.files && ui.openFile.files[0];
+    ui.openFile.value = '';
+    if (f) openResultsFile(f);
+  });
+  bindTabs();
   new ResizeObserver(scheduleDraw).observe(ui.canvasBox);
   window.matchMedia('(prefers-color-scheme: dark)').addEventListener('change', () => {
     scheduleDraw();
-    if (state.summary) renderSummary();
+    if (state.summary) renderResults();
   });
 }
 
 async function main() {
   bind();
   renderButtons();
+  renderResults();
   scheduleDraw();
 
   const wasmLoad = loadWasm().then((w) => { state.wasm = w; }, (err) => {

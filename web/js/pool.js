@@ -1,15 +1,17 @@
 // Worker pool: spreads the jobs of one run over module workers and relays
 // what they report. One Pool serves one run; make a new Pool per run.
 //
-// Workers: min(navigator.hardwareConcurrency || 2, jobs). Jobs are dealt
-// round-robin: job j goes to worker j % workers. Job ids follow the contract:
+// Workers: min(navigator.hardwareConcurrency || 2, jobs). The job ids of a
+// run (all of them, or the unfinished ones when a run is resumed) are dealt
+// round-robin over the workers. Job ids follow the contract:
 // job = variant_index * seeds + seed_index.
 //
 // Message protocol (every message is a plain object with a `type` and the
 // `runId` it belongs to; a message whose runId is not the pool's is ignored):
 //
 //   page → worker
-//     {type:'start',  runId, config: string /* config JSON */, jobIds: number[], chunk: number /* steps per job per chunk */}
+//     {type:'start',  runId, config: string /* config JSON */, jobIds: number[], chunk: number /* steps per job per chunk */,
+//        wasm: ArrayBuffer | null /* the module's bytes in the single-file build (see platform.js) */}
 //     {type:'pause',  runId}   stop after the chunk in progress
 //     {type:'resume', runId}   go on from where it paused
 //     {type:'cancel', runId}   stop and free the Run; answered by 'cancelled'
@@ -28,7 +30,7 @@
 //   A worker that dies without a message (uncaught error, bad message data) is
 //   reported through the same onError path by the pool itself.
 
-const WORKER_URL = new URL('./worker.js', import.meta.url);
+import { makeWorker, wasmForWorker } from './platform.js';
 
 let nextRunId = 1;
 
@@ -37,11 +39,10 @@ export class Pool {
    * @param {object} handlers
    *   onProgress({progress, episodes, failures}), onError(message, jobIds),
    *   onPaused(), onDone()  — onDone fires once, when every worker is done or dead.
-   * @param {object} [opts] {workerUrl, concurrency}
+   * @param {object} [opts] {concurrency}
    */
   constructor(handlers, opts = {}) {
     this.handlers = handlers;
-    this.workerUrl = opts.workerUrl || WORKER_URL;
     this.concurrency = opts.concurrency || navigator.hardwareConcurrency || 2;
     this.runId = nextRunId++;
     this.slots = [];      // {worker, jobIds, state: 'running'|'paused'|'done'}
@@ -53,20 +54,21 @@ export class Pool {
     return Math.max(1, Math.min(concurrency, jobs));
   }
 
-  /** Deal job ids 0..jobs-1 round-robin over `workers` lists. */
-  static deal(jobs, workers) {
+  /** Deal the job ids round-robin over `workers` lists. */
+  static deal(ids, workers) {
     const lists = Array.from({ length: workers }, () => []);
-    for (let j = 0; j < jobs; j++) lists[j % workers].push(j);
+    ids.forEach((j, k) => lists[k % workers].push(j));
     return lists;
   }
 
-  /** Start the run: config JSON text, number of jobs, steps per job per chunk. */
-  start(configJson, jobs, chunk = 2000) {
-    const n = Pool.workerCount(jobs, this.concurrency);
-    for (const jobIds of Pool.deal(jobs, n)) {
+  /** Start the run: config JSON text, the job ids to run, steps per job per chunk. */
+  start(configJson, jobIds, chunk = 2000) {
+    const ids = Array.from(jobIds);
+    const n = Pool.workerCount(ids.length, this.concurrency);
+    for (const jobIds of Pool.deal(ids, n)) {
       let worker;
       try {
-        worker = new Worker(this.workerUrl, { type: 'module', name: `critbox-trainer-${this.slots.length}` });
+        worker = makeWorker(`critbox-trainer-${this.slots.length}`);
       } catch (err) {
         const slot = { worker: null, jobIds, state: 'done' };
         this.slots.push(slot);
@@ -82,7 +84,8 @@ export class Pool {
         this.#fail(slot, `worker error: ${e.message || 'the worker script could not run'}${where}`);
       };
       worker.onmessageerror = () => this.#fail(slot, 'worker sent a message that could not be read');
-      worker.postMessage({ type: 'start', runId: this.runId, config: configJson, jobIds, chunk });
+      const wasm = wasmForWorker();
+      worker.postMessage({ type: 'start', runId: this.runId, config: configJson, jobIds, chunk, wasm }, wasm ? [wasm] : []);
     }
     this.#checkDone();
   }

@@ -1,20 +1,40 @@
-// Loader of the critbox WebAssembly package (web/pkg, built by wasm-bindgen
-// with --target web). Used by the page and by every worker; each caller gets
-// one initialised module namespace, loaded once per realm.
+// Loader of the critbox WebAssembly package. Served: web/pkg, built by
+// wasm-bindgen with --target web, imported as an ES module. Single file: the
+// no-modules glue is already in the page (or the worker) as the global
+// `wasm_bindgen`, and the bytes come from the bundle (page) or from the
+// start message (worker, see provideWasmBytes). Each realm loads it once.
 
-const GLUE_URL = new URL('../pkg/critbox_wasm.js', import.meta.url);
-const WASM_URL = new URL('../pkg/critbox_wasm_bg.wasm', import.meta.url);
+import { bundle } from './platform.js';
+
+const GLUE_URL = bundle ? null : new URL('../pkg/critbox_wasm.js', import.meta.url);
+const WASM_URL = bundle ? null : new URL('../pkg/critbox_wasm_bg.wasm', import.meta.url);
 
 let loading = null;
+let bytesGiven = null;
+
+/** Single-file workers: the wasm bytes handed over by the page. */
+export function provideWasmBytes(buffer) {
+  if (buffer && !bytesGiven) bytesGiven = buffer;
+}
+
+async function loadBundled() {
+  const glue = globalThis.wasm_bindgen;
+  if (typeof glue !== 'function') throw new Error('the single-file build lacks its WebAssembly glue');
+  const bytes = bytesGiven || (bundle && bundle.wasmBytes && bundle.wasmBytes());
+  if (!bytes) throw new Error('no WebAssembly bytes were handed to this worker');
+  await glue({ module_or_path: bytes });
+  return glue;
+}
 
 /**
  * Load and initialise the wasm package once.
- * @returns {Promise<object>} the module namespace: validateConfig, Run, Results, TaskSim, Agent.
+ * @returns {Promise<object>} the module namespace: validateConfig, Run, Results, TaskSim, Agent, ...
  * Rejects with an Error that says which file failed to load.
  */
 export function loadWasm() {
   if (!loading) {
     loading = (async () => {
+      if (!GLUE_URL || globalThis.wasm_bindgen) return loadBundled();
       let glue;
       try {
         glue = await import(GLUE_URL.href);

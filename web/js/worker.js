@@ -2,7 +2,7 @@
 // given and advances it in chunks, posting progress and episode records after
 // every chunk. The message protocol is documented in pool.js.
 
-import { loadWasm, messageOf } from './wasm.js';
+import { loadWasm, messageOf, provideWasmBytes } from './wasm.js';
 
 /** The current run in this worker, or null. */
 let current = null;
@@ -36,6 +36,7 @@ self.onmessage = (event) => {
 
 async function start(msg) {
   if (current) finish();
+  if (msg.wasm) provideWasmBytes(msg.wasm);
   const job = {
     runId: msg.runId,
     run: null,

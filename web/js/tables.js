@@ -1,0 +1,211 @@
+// The results tables: scores per variant, pairwise comparisons with their
+// verdicts, and the seeds advisor. Each render function takes a container
+// element and the parsed summary JSON (the same object `critbox run` prints)
+// and rebuilds the container's rows. Every piece of text from the summary
+// (labels, verdicts, failure reasons) is set with textContent.
+
+/** A number for a table cell: 3 significant digits, − for missing. */
+export function fmt(x) {
+  if (typeof x !== 'number' || !Number.isFinite(x)) return '–';
+  const a = Math.abs(x);
+  if (a !== 0 && (a >= 1e6 || a < 1e-3)) return x.toExponential(2).replace('-', '−');
+  const s = a >= 100 ? x.toFixed(0) : a >= 10 ? x.toFixed(1) : a >= 1 ? x.toFixed(2) : x.toFixed(3);
+  return s.replace('-', '−');
+}
+
+/** "lo to hi" of a two-number interval, or –. */
+export function fmtInterval(ci) {
+  return Array.isArray(ci) && ci.length === 2 && ci.every((v) => typeof v === 'number')
+    ? `${fmt(ci[0])} to ${fmt(ci[1])}`
+    : '–';
+}
+
+/** A p-value: 3 significant digits, "< 0.001" below that. */
+export function fmtP(p) {
+  if (typeof p !== 'number' || !Number.isFinite(p)) return '–';
+  if (p < 0.001) return '< 0.001';
+  return p.toPrecision(2);
+}
+
+/** Environment steps: 3750, 12.5k, 1.2M. */
+export function fmtSteps(v) {
+  if (typeof v !== 'number' || !Number.isFinite(v)) return '–';
+  const a = Math.abs(v);
+  if (a >= 1e6) return `${Number((v / 1e6).toFixed(2))}M`;
+  if (a >= 1e4) return `${Number((v / 1e3).toFixed(1))}k`;
+  return String(Math.round(v));
+}
+
+function el(tag, text, className) {
+  const e = document.createElement(tag);
+  if (text !== undefined && text !== null) e.textContent = String(text);
+  if (className) e.className = className;
+  return e;
+}
+
+function num(text, title) {
+  const td = el('td', text, 'num');
+  if (title) td.title = title;
+  return td;
+}
+
+/** A number cell with a second, smaller line (its interval). */
+function num2(main, sub, title) {
+  const td = el('td', null, 'num');
+  td.append(el('span', main, 'main'), el('span', sub, 'sub'));
+  if (title) td.title = title;
+  return td;
+}
+
+/** A probability and its interval with 2 decimals. */
+function fmtProb(x) {
+  return typeof x === 'number' && Number.isFinite(x) ? x.toFixed(2) : '–';
+}
+
+function emptyRow(cols, text) {
+  const tr = el('tr', null, 'empty');
+  const td = el('td', text);
+  td.colSpan = cols;
+  tr.append(td);
+  return tr;
+}
+
+/** Column headers of the score table (the tests read them). */
+export const SCORE_COLUMNS = [
+  'Variant', 'Final return, mean (95% interval)', 'IQM (95% interval)', 'Median', 'SD',
+  'Area under curve', 'Steps to threshold', 'Seeds',
+];
+
+/**
+ * Fill the score table body: one row per variant.
+ * @param {HTMLElement} tbody
+ * @param {object|null} summary
+ * @param {object} opts {swatch(i) -> Element, emptyText, threshold}
+ */
+export function renderScores(tbody, summary, opts = {}) {
+  if (!summary || !Array.isArray(summary.variants) || summary.variants.length === 0) {
+    tbody.replaceChildren(emptyRow(SCORE_COLUMNS.length, opts.emptyText || 'Filled in when a run finishes.'));
+    return;
+  }
+  const rows = summary.variants.flatMap((v, i) => {
+    const tr = el('tr');
+    const name = el('th');
+    name.scope = 'row';
+    if (opts.swatch) name.append(opts.swatch(i));
+    name.append(el('span', v.label ?? `variant ${i + 1}`));
+    const fr = v.final_return || {};
+    const auc = v.auc || {};
+    const reach = v.steps_to_threshold;
+    let reachText = ['–', 'no threshold set'];
+    let reachTitle = 'Set a threshold under Scoring to count the steps each seed needs to reach it.';
+    if (reach && typeof reach === 'object') {
+      const total = (reach.reached ?? 0) + (reach.never ?? 0);
+      reachText = reach.reached
+        ? [`median ${fmtSteps(reach.median_steps)}`, `${reach.reached} of ${total} seeds`]
+        : ['never', `0 of ${total} seeds`];
+      reachTitle = `Steps until a seed's binned return first reaches ${fmt(reach.threshold)}; ${reach.never ?? 0} seed(s) never reach it.`;
+    }
+    const failed = Array.isArray(v.failed) ? v.failed : [];
+    tr.append(
+      name,
+      num2(fmt(fr.mean), fmtInterval(fr.ci95),
+        `Mean over seeds of each seed's mean base return in the final part of the budget; Student-t 95% interval (bootstrap: ${fmtInterval(fr.bootstrap_ci95)})`),
+      num2(fmt(fr.iqm), fmtInterval(fr.iqm_ci95), 'Interquartile mean over seeds with its bootstrap 95% interval'),
+      num(fmt(fr.median)),
+      num(fmt(fr.sd), 'Standard deviation of the final return over seeds'),
+      num2(fmt(auc.mean), fmtInterval(auc.ci95), 'Mean height of each seed\'s curve over the budget (normalised area), with its Student-t 95% interval'),
+      num2(reachText[0], reachText[1], reachTitle),
+      num2(`${fr.n ?? 0} of ${summary.seeds ?? '?'}`, failed.length ? `${failed.length} failed` : `${v.episodes ?? 0} episodes`,
+        'Seeds with a final return, of all seeds; episodes finished over all seeds'),
+    );
+    if (!failed.length) return [tr];
+    tr.className = 'pair-row';
+    const more = el('tr', null, 'fail-row');
+    const td = el('td', `Failed: ${failed.map((f) => `seed ${f.seed}: ${f.reason}`).join('; ')}`, 'fail');
+    td.colSpan = SCORE_COLUMNS.length;
+    more.append(td);
+    return [tr, more];
+  });
+  tbody.replaceChildren(...rows);
+}
+
+/** Column headers of the comparison table. */
+export const COMPARISON_COLUMNS = ['B against A', 'B − A (95% interval)', 'P(B > A) (95% interval)', 'Welch t', 'df', 'p'];
+
+/**
+ * Fill the pairwise comparison table body: one row per pair of variants.
+ */
+export function renderComparisons(tbody, summary, opts = {}) {
+  const list = summary && Array.isArray(summary.comparisons) ? summary.comparisons : [];
+  if (!summary) {
+    tbody.replaceChildren(emptyRow(COMPARISON_COLUMNS.length, opts.emptyText || 'Filled in when a run finishes.'));
+    return;
+  }
+  if (list.length === 0) {
+    tbody.replaceChildren(emptyRow(COMPARISON_COLUMNS.length, 'Add a second variant to compare.'));
+    return;
+  }
+  const rows = list.flatMap((c) => {
+    const tr = el('tr', null, 'pair-row');
+    const pair = el('th');
+    pair.scope = 'row';
+    pair.append(el('span', c.b, 'pair-b'), el('span', ' against ', 'pair-vs'), el('span', c.a, 'pair-a'));
+    const pi = c.prob_improvement || {};
+    const ci = Array.isArray(pi.ci95) ? `${fmtProb(pi.ci95[0])} to ${fmtProb(pi.ci95[1])}` : '–';
+    const w = c.welch;
+    const wTitle = 'Welch\'s unequal-variance t-test on the final returns';
+    tr.append(
+      pair,
+      num2(fmt(c.diff), fmtInterval(c.diff_ci95), 'Difference of mean final returns, percentile bootstrap interval'),
+      num2(fmtProb(pi.value), ci, 'Chance that a random seed of B ends above a random seed of A (ties count one half)'),
+      num(w ? fmt(w.t) : 'needs 2 seeds each', wTitle),
+      num(w ? fmt(w.df) : '', wTitle),
+      num(w ? fmtP(w.p) : '', wTitle),
+    );
+    const verdict = el('tr', null, 'verdict-row');
+    const td = el('td', c.verdict ?? '', 'verdict');
+    td.colSpan = COMPARISON_COLUMNS.length;
+    verdict.append(td);
+    return [tr, verdict];
+  });
+  tbody.replaceChildren(...rows);
+}
+
+/** Column headers of the seeds advisor table. */
+export const ADVISOR_COLUMNS = ['Pair', 'Difference to detect', 'Seeds per variant', 'Normal approximation'];
+
+/**
+ * Fill the seeds advisor: per pair, the seeds per variant needed to detect a
+ * difference at α = 0.05 with power 0.8, from the observed spread.
+ */
+export function renderAdvisor(tbody, summary, opts = {}) {
+  if (!summary) {
+    tbody.replaceChildren(emptyRow(ADVISOR_COLUMNS.length, opts.emptyText || 'Filled in when a run finishes.'));
+    return;
+  }
+  const list = Array.isArray(summary.comparisons) ? summary.comparisons : [];
+  if (list.length === 0) {
+    tbody.replaceChildren(emptyRow(ADVISOR_COLUMNS.length, 'Needs two variants.'));
+    return;
+  }
+  const have = summary.seeds ?? 0;
+  const rows = list.map((c) => {
+    const tr = el('tr');
+    const pair = el('th', `${c.b} against ${c.a}`);
+    pair.scope = 'row';
+    const s = c.seeds_advice;
+    if (!s) {
+      const td = el('td', 'needs at least 2 finished seeds per variant and some spread');
+      td.colSpan = 3;
+      tr.append(pair, td);
+      return tr;
+    }
+    const need = s.seeds_per_variant;
+    const enough = typeof need === 'number' && need <= have;
+    const cell = num(typeof need === 'number' ? `${need}${enough ? ' (you have enough)' : ` (you ran ${have})`}` : '–');
+    if (typeof need === 'number' && !enough) cell.classList.add('short');
+    tr.append(pair, num(fmt(s.difference)), cell, num(typeof s.normal_approximation === 'number' ? String(s.normal_approximation) : '–'));
+    return tr;
+  });
+  tbody.replaceChildren(...rows);
+}
