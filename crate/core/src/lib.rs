@@ -14,7 +14,6 @@ pub mod learn;
 pub mod optim;
 pub mod policy;
 pub mod reward;
-pub mod reward;
 pub mod rng;
 pub mod stats;
 pub mod task;

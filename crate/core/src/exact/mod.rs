@@ -6,6 +6,16 @@
 //! [`q_values`] gives action values from state values. Terminal states have
 //! value 0. With γ = 1 the model must be proper (every policy considered
 //! reaches a terminal state) or the solve reports it as singular.
+//! [`gradient`] adds the exact objective and policy gradient of softmax
+//! policies (policy gradient theorem), the discounted state visitation, and
+//! the stationary distribution and average reward on continuing models.
+
+pub mod gradient;
+
+pub use gradient::{
+    average_reward, linear_softmax_policy, objective, policy_gradient_linear, policy_gradient_tabular,
+    softmax_policy, stationary, visitation,
+};
 
 use crate::task::FiniteModel;
 

@@ -14,6 +14,9 @@ use serde_json::{Map, Value};
 use crate::learn::LearnerSetup;
 use crate::reward::RewardConfig;
 use crate::task::cartpole::{CartPole, CartPoleConfig};
+use crate::task::corridor::{CorridorConfig, ShortCorridor};
+use crate::task::finite::{build_random_mdp, RandomMdpConfig};
+use crate::task::lqr::{Lqr, LqrConfig};
 use crate::task::grid::{GridConfig, GridWorld};
 use crate::task::mountain_car::{MountainCar, MountainCarConfig};
 use crate::task::pendulum::{Pendulum, PendulumConfig};
@@ -47,6 +50,12 @@ pub enum TaskConfig {
     Pendulum(PendulumConfig),
     /// The job server (continuing; our own).
     Server(ServerConfig),
+    /// The short corridor with switched actions (Sutton & Barto 2018, Example 13.1).
+    Corridor(CorridorConfig),
+    /// A scalar linear-quadratic regulator with a continuous action.
+    Lqr(LqrConfig),
+    /// A small random finite model drawn from a seed (episodic or continuing).
+    RandomMdp(RandomMdpConfig),
 }
 
 impl TaskConfig {
@@ -58,6 +67,9 @@ impl TaskConfig {
             TaskConfig::MountainCar(c) => Box::new(MountainCar::new(c.clone())?),
             TaskConfig::Pendulum(c) => Box::new(Pendulum::new(c.clone())?),
             TaskConfig::Server(c) => Box::new(Server::new(c.clone())?),
+            TaskConfig::Corridor(c) => Box::new(ShortCorridor::new(c.clone())?),
+            TaskConfig::Lqr(c) => Box::new(Lqr::new(c.clone())?),
+            TaskConfig::RandomMdp(c) => Box::new(build_random_mdp(c)?),
         })
     }
 }

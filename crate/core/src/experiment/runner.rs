@@ -14,7 +14,7 @@
 
 use crate::approx::Obs;
 use crate::experiment::config::Plan;
-use crate::learn::{build_learner, ActionBuf, Learner, StepDiag, Transition};
+use crate::learn::{build_learner_with, ActionBuf, Learner, StepDiag, Transition};
 use crate::reward::{Shaper, StepInput};
 use crate::rng::{Purpose, Stream};
 use crate::task::Task;
@@ -60,6 +60,16 @@ pub struct DiagSums {
     pub actor_norm: f64,
     /// Sum of critic update norms.
     pub critic_norm: f64,
+    /// Steps that carried an importance weight (off-policy learners).
+    pub weights: u64,
+    /// Sum of the importance weights ρ.
+    pub weight_sum: f64,
+    /// Sum of their squares.
+    pub weight_sq: f64,
+    /// Largest weight.
+    pub weight_max: f64,
+    /// Steps whose weight was cut at the cap.
+    pub weight_cut: u64,
 }
 
 impl DiagSums {
@@ -70,6 +80,22 @@ impl DiagSums {
         self.entropy += d.entropy;
         self.actor_norm += d.actor_grad_norm;
         self.critic_norm += d.critic_grad_norm;
+        if let Some(w) = d.weight {
+            self.weights += 1;
+            self.weight_sum += w;
+            self.weight_sq += w * w;
+            self.weight_max = self.weight_max.max(w);
+            self.weight_cut += u64::from(d.weight_truncated);
+        }
+    }
+
+    /// The effective sample size of the bin's importance weights,
+    /// `(Σρ)² / Σρ²` (Kong 1992; Kish's formula), as a fraction of the
+    /// weighted steps: 1 when every weight is equal, near 0 when one weight
+    /// dominates. `None` without weights.
+    pub fn ess_fraction(&self) -> Option<f64> {
+        (self.weights > 0 && self.weight_sq > 0.0)
+            .then(|| self.weight_sum * self.weight_sum / self.weight_sq / self.weights as f64)
     }
 }
 
@@ -83,6 +109,7 @@ pub struct Job {
     agent_rng: Stream,
     budget: u64,
     max_len: u32,
+    continuing: bool,
     steps_done: u64,
     obs: Vec<f64>,
     next_obs: Vec<f64>,
@@ -120,8 +147,9 @@ impl Job {
         let cfg = &plan.config;
         let task = plan.make_task();
         let spec = task.spec().clone();
-        let learner =
-            build_learner(&plan.variants[variant].setup, &spec).expect("a validated plan's learner builds");
+        let mut agent_rng = Stream::derive(cfg.master_seed, Purpose::Agent, variant as u64, seed as u64);
+        let learner = build_learner_with(&plan.variants[variant].setup, &spec, &mut agent_rng)
+            .expect("a validated plan's learner builds");
         let gamma = plan.variants[variant].setup.discount.unwrap_or(spec.default_discount);
         let shaper = Shaper::new(&plan.variants[variant].reward, &spec, gamma)
             .expect("a validated plan's reward compiles");
@@ -133,9 +161,10 @@ impl Job {
             learner,
             shaper,
             task_rng: Stream::derive(cfg.master_seed, Purpose::Task, u64::MAX, seed as u64),
-            agent_rng: Stream::derive(cfg.master_seed, Purpose::Agent, variant as u64, seed as u64),
+            agent_rng,
             budget: cfg.steps,
             max_len: spec.max_steps,
+            continuing: spec.continuing,
             steps_done: 0,
             obs: vec![0.0; n_obs],
             next_obs: vec![0.0; n_obs],
@@ -242,7 +271,9 @@ impl Job {
         }
         self.ep_base += outcome.reward;
         self.ep_shaped += reward;
-        let truncated = !outcome.terminated && self.ep_len >= self.max_len;
+        // A continuing task is never truncated: it reports a window instead.
+        let window_end = self.ep_len >= self.max_len;
+        let truncated = !self.continuing && !outcome.terminated && window_end;
         let next = Obs { values: &self.next_obs, id: next_id };
         if !outcome.terminated {
             self.learner.act(next, &mut self.agent_rng, &mut self.next_action);
@@ -258,7 +289,23 @@ impl Job {
         };
         let d = self.learner.learn(&tr, &mut self.agent_rng).map_err(|e| e.to_string())?;
         self.diag[bin_of(&self.bin_edges, self.steps_done)].add(&d);
-        if outcome.terminated || truncated {
+        if self.continuing && window_end && !outcome.terminated {
+            // Mean reward per step over the window (see `TaskSpec::continuing`).
+            let n = f64::from(self.ep_len);
+            self.episodes.push(EpisodeRecord {
+                end_step: self.steps_done,
+                base_return: self.ep_base / n,
+                shaped_return: self.ep_shaped / n,
+                length: self.ep_len,
+                truncated: false,
+            });
+            self.ep_len = 0;
+            self.ep_base = 0.0;
+            self.ep_shaped = 0.0;
+            std::mem::swap(&mut self.obs, &mut self.next_obs);
+            std::mem::swap(&mut self.action, &mut self.next_action);
+            self.obs_id = next_id;
+        } else if outcome.terminated || truncated {
             self.episodes.push(EpisodeRecord {
                 end_step: self.steps_done,
                 base_return: self.ep_base,

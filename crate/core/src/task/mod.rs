@@ -8,8 +8,11 @@
 //! termination. Finite tasks also expose their exact model ([`FiniteModel`]).
 
 pub mod cartpole;
+pub mod corridor;
+pub mod finite;
 pub mod grid;
 pub mod layouts;
+pub mod lqr;
 pub mod mountain_car;
 pub mod pendulum;
 pub mod server;
