@@ -29,9 +29,11 @@ export async function setUp() {
  * Open the page at 1280×720 and wait until it has loaded its preset and the
  * wasm module. Returns {page, context, problems, requests}: problems collects
  * console errors and uncaught page errors, requests every URL asked for.
+ * Options: colorScheme, before(page, context) (called before loading),
+ * path (appended to the server's address, e.g. a fragment), permissions.
  */
-export async function openPage(env, { colorScheme = 'light', before } = {}) {
-  const context = await env.browser.newContext({ viewport: { width: 1280, height: 720 }, colorScheme });
+export async function openPage(env, { colorScheme = 'light', before, path: at = '', permissions = [] } = {}) {
+  const context = await env.browser.newContext({ viewport: { width: 1280, height: 720 }, colorScheme, permissions });
   const page = await context.newPage();
   const problems = [];
   const requests = [];
@@ -40,7 +42,7 @@ export async function openPage(env, { colorScheme = 'light', before } = {}) {
   page.on('worker', (w) => w.on('console', (m) => { if (m.type() === 'error') problems.push(`worker console: ${m.text()}`); }));
   context.on('request', (r) => requests.push(r.url()));
   if (before) await before(page, context);
-  await page.goto(env.server.url);
+  await page.goto(env.server.url + at);
   await page.waitForFunction(() => window.__critbox && window.__critbox.ready, null, { timeout: 30000 });
   return { page, context, problems, requests };
 }

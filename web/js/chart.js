@@ -269,8 +269,9 @@ export function drawCurves(ctx, data, options) {
     ctx.setLineDash([]);
     ctx.fillStyle = colours.muted;
     ctx.textAlign = 'right';
-    ctx.textBaseline = 'bottom';
-    ctx.fillText(`threshold ${formatValue(data.threshold, yTicks.step / 10)}`, plot.x + plot.w - 4, ty - 2);
+    const below = ty - 16 < plot.y;
+    ctx.textBaseline = below ? 'top' : 'bottom';
+    ctx.fillText(`threshold ${formatValue(data.threshold, yTicks.step / 10)}`, plot.x + plot.w - 4, below ? ty + 3 : ty - 2);
   }
   ctx.restore();
 

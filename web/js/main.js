@@ -8,6 +8,7 @@ import { loadWasm, messageOf } from './wasm.js';
 import { Pool } from './pool.js';
 import {
   createState, newRun, runFraction, variantFractions, secondsLeft, formatLeft, addMessage, dismissMessage,
+  keepEpisodes, jobEpisodes, stepsCounted,
 } from './state.js';
 import { drawCurves, drawSample, sizeCanvas, seriesStyle } from './chart.js';
 import {
@@ -19,6 +20,10 @@ import {
 } from './tables.js';
 import { download, canvasPng, fileStem, readFileText } from './export.js';
 import { fetchPresetIndex, fetchPresetText } from './platform.js';
+import { encodeConfig, decodeFragment, linkFor } from './share.js';
+import {
+  saveExperiment, loadExperiment, saveResults, loadResults, f64ToBase64, base64ToF64,
+} from './storage.js';
 
 /** Steps each job advances per chunk in a worker. */
 const CHUNK_STEPS = 2000;
@@ -66,6 +71,10 @@ const ui = {
   saveResults: $('save-results'),
   exportCsv: $('export-csv'),
   openFile: $('open-file'),
+  copyLink: $('copy-link'),
+  shareOut: $('share-out'),
+  shareUrl: $('share-url'),
+  resume: $('resume'),
   tabs: [...document.querySelectorAll('[role="tab"]')],
 };
 let pool = null;
@@ -73,7 +82,7 @@ let drawPending = false;
 let progressTimer = 0;
 
 // For tests and for curious people in the console: read-only by convention.
-const debug = { state, ready: false, draws: 0, lastDraw: null };
+const debug = { state, ready: false, draws: 0, lastDraw: null, checkpoints: [] };
 window.__critbox = debug;
 
 // ---------------------------------------------------------------- messages
@@ -126,8 +135,20 @@ function revalidate() {
   checkConfig(error);
 }
 
+let saveTimer = 0;
+let storageWarned = false;
+/** Keep the experiment in local storage shortly after the last edit. */
+function scheduleSaveExperiment() {
+  clearTimeout(saveTimer);
+  saveTimer = setTimeout(() => {
+    const problem = state.config ? saveExperiment(state.config, state.presetFile) : '';
+    if (problem && !storageWarned) { storageWarned = true; showError(problem); }
+  }, 300);
+}
+
 function checkConfig(formError = null) {
   const config = state.config;
+  scheduleSaveExperiment();
   if (formError) {
     state.check = { ok: false, message: formError.message, path: formError.path };
   } else if (!state.wasm) {
@@ -172,6 +193,13 @@ function renderButtons() {
   ui.cancel.disabled = !active;
   ui.pause.textContent = state.run && state.run.status === 'paused' ? 'Resume' : 'Pause';
   els.preset.disabled = active;
+  const interrupted = !!state.run && state.run.status === 'interrupted';
+  ui.resume.hidden = !interrupted;
+  if (interrupted) {
+    const left = state.run.jobStatus.reduce((n, st) => n + (st === 0 ? 1 : 0), 0);
+    ui.resume.textContent = `Finish the interrupted run (${left} job${left === 1 ? '' : 's'} left)`;
+    ui.resume.disabled = !state.wasm;
+  }
   const haveResults = !!state.results && !!state.run;
   ui.saveResults.disabled = !haveResults || active;
   ui.exportCsv.disabled = !haveResults || active;
@@ -254,6 +282,21 @@ function startRun() {
   state.summary = null;
   renderResults();
   launch(Array.from({ length: info.jobs }, (_, j) => j));
+  persistRun(false);
+}
+
+/** Interrupted run (restored after a reload): train the jobs that had not finished. */
+function resumeRun() {
+  const run = state.run;
+  if (!run || run.status !== 'interrupted' || !state.results || isActive()) return;
+  const left = [];
+  for (let j = 0; j < run.jobs; j++) if (run.jobStatus[j] === 0) left.push(j);
+  if (!left.length) { run.status = 'done'; finishSummary(); return; }
+  run.stepsAtStart = stepsCounted(run);
+  run.activeMs = 0;
+  state.summary = null;
+  renderResults();
+  launch(left);
 }
 
 /** Start workers on the given job ids of state.run. */
@@ -263,7 +306,7 @@ function launch(jobIds) {
   run.resumedAt = performance.now();
   pool = new Pool({ onProgress, onError: onWorkerError, onPaused, onDone });
   run.workers = Pool.workerCount(jobIds.length);
-  pool.start(run.configJson, jobIds, CHUNK_STEPS);
+  pool.start(run.configJson, jobIds, CHUNK_STEPS, { variants: run.labels.length, seeds: run.seeds });
   clearInterval(progressTimer);
   progressTimer = setInterval(renderProgress, 1000);
   renderProgress();
@@ -277,25 +320,30 @@ function onProgress({ progress, episodes, failures }) {
   try {
     if (episodes.length) {
       state.results.addEpisodes(episodes);
+      keepEpisodes(run, episodes);
       run.episodes += episodes.length / 5;
       run.version += 1;
     }
     for (let k = 0; k + 3 <= progress.length; k += 3) {
       const job = progress[k];
+      if (run.jobStatus[job] === 0 && progress[k + 2] !== 0) run.newlyFinished = true;
       run.stepsDone[job] = progress[k + 1];
       run.jobStatus[job] = progress[k + 2];
       state.results.setSteps(job, progress[k + 1]);
     }
     for (const f of failures) {
       run.jobStatus[f.job] = 2;
+      run.failures = { ...(run.failures || {}), [f.job]: String(f.reason) };
       state.results.markFailed(f.job, String(f.reason));
       run.version += 1;
+      run.newlyFinished = true;
     }
   } catch (err) {
     showError(`recording results: ${messageOf(err)}`);
   }
   renderProgress();
   scheduleDraw();
+  if (run.newlyFinished) scheduleCheckpoint();
 }
 
 function onWorkerError(message, jobIds) {
@@ -305,6 +353,7 @@ function onWorkerError(message, jobIds) {
   for (const j of jobIds) {
     if (run.jobStatus[j] === 0) {
       run.jobStatus[j] = 2;
+      run.failures = { ...(run.failures || {}), [j]: message };
       try { state.results.markFailed(j, message); } catch (err) { showError(`recording a failure: ${messageOf(err)}`); }
     }
   }
@@ -367,6 +416,116 @@ function finishSummary() {
   renderProgress();
   renderCheck();
   scheduleDraw();
+  persistRun(true);
+}
+
+// ---------------------------------------------------------------- keeping results
+
+let checkpointTimer = 0;
+function scheduleCheckpoint() {
+  if (checkpointTimer) return;
+  checkpointTimer = setTimeout(() => { checkpointTimer = 0; if (isActive()) persistRun(false); }, 1500);
+}
+
+/** The storage record of a job, from the episodes kept on this thread. */
+function jobRecord(run, j) {
+  const finished = run.jobStatus[j] !== 0;
+  let episodes = finished ? run.packed[j] : null;
+  if (episodes === null) {
+    episodes = f64ToBase64(jobEpisodes(run, j));
+    if (finished) run.packed[j] = episodes;
+  }
+  return {
+    id: j,
+    steps: run.stepsDone[j],
+    status: run.jobStatus[j],
+    failed: run.failures?.[j] ?? null,
+    episodes,
+  };
+}
+
+/**
+ * Write the run to local storage. `final`: the run is over (done or
+ * cancelled) and every job is written; otherwise only finished jobs, so a
+ * reload restores them and offers to train the rest.
+ */
+async function persistRun(final) {
+  const run = state.run;
+  if (!run || run.origin === 'file') return;
+  run.newlyFinished = false;
+  const jobs = [];
+  for (let j = 0; j < run.jobs; j++) {
+    if (final || run.jobStatus[j] !== 0) jobs.push(jobRecord(run, j));
+  }
+  const status = final ? run.status : 'running';
+  const problem = await saveResults({ kind: 'jobs', status, configJson: run.configJson, jobs });
+  if (problem) showError(problem);
+  debug.checkpoints.push({ status, jobs: jobs.length });
+}
+
+/** Rebuild a run from what storage kept. Returns true when it worked. */
+async function restoreResults() {
+  let rec;
+  try {
+    rec = await loadResults();
+  } catch (err) {
+    showError(`Results kept from the last visit could not be read: ${messageOf(err)}`);
+    return false;
+  }
+  if (!rec) return false;
+  if (rec.kind === 'file') return showResultsText(rec.text, rec.fileName || 'a results file', 'storage');
+  let info;
+  let results;
+  try {
+    info = JSON.parse(state.wasm.validateConfig(rec.configJson));
+    results = new state.wasm.Results(rec.configJson);
+  } catch (err) {
+    showError(`Results kept from the last visit could not be restored: ${messageOf(err)}`);
+    return false;
+  }
+  const run = newRun(rec.configJson, info, 'storage');
+  try {
+    for (const j of rec.jobs) {
+      const id = Number(j.id);
+      if (!Number.isInteger(id) || id < 0 || id >= run.jobs) throw new Error(`job ${JSON.stringify(j.id)} is not in the experiment`);
+      const eps = base64ToF64(String(j.episodes ?? ''));
+      results.addEpisodes(eps);
+      run.records[id] = { data: eps.slice(), n: eps.length };
+      run.episodes += eps.length / 5;
+      const steps = Number(j.steps) || 0;
+      results.setSteps(id, steps);
+      run.stepsDone[id] = steps;
+      run.jobStatus[id] = j.status === 2 ? 2 : j.status === 1 ? 1 : 0;
+      if (j.failed !== null && j.failed !== undefined) {
+        results.markFailed(id, String(j.failed));
+        run.failures = { ...(run.failures || {}), [id]: String(j.failed) };
+      }
+    }
+  } catch (err) {
+    try { results.free(); } catch { /* nothing to free */ }
+    showError(`Results kept from the last visit could not be restored: ${messageOf(err)}`);
+    return false;
+  }
+  freeResults();
+  state.results = results;
+  run.status = ['done', 'cancelled'].includes(rec.status) ? rec.status : 'interrupted';
+  const config = JSON.parse(rec.configJson);
+  run.threshold = typeof config.threshold === 'number' ? config.threshold : null;
+  state.run = run;
+  try {
+    state.summary = JSON.parse(results.summaryJson());
+  } catch (err) {
+    state.summary = null;
+  }
+  renderResults();
+  renderProgress();
+  renderButtons();
+  scheduleDraw();
+  if (run.status === 'interrupted') {
+    const done = run.jobStatus.reduce((n, st) => n + (st !== 0 ? 1 : 0), 0);
+    showNote(`The last run was interrupted; its ${done} finished job${done === 1 ? ' is' : 's are'} shown. Finish it to train the other ${run.jobs - done}.`, 15000);
+  }
+  return true;
 }
 
 function renderProgress() {
@@ -514,7 +673,7 @@ function showResultsText(text, fileName, origin) {
   freeResults();
   state.results = results;
   const config = JSON.parse(configJson);
-  const run = newRun(configJson, info, origin);
+  const run = newRun(configJson, info, origin === 'storage' ? 'file' : origin);
   run.status = 'opened';
   run.fileName = fileName;
   run.threshold = typeof config.threshold === 'number' ? config.threshold : null;
@@ -534,7 +693,10 @@ function showResultsText(text, fileName, origin) {
   renderResults();
   renderProgress();
   scheduleDraw();
-  if (origin === 'file') showNote(`Opened ${fileName}: ${info.labels.length} variants × ${info.seeds} seeds, not re-run.`);
+  if (origin === 'file') {
+    showNote(`Opened ${fileName}: ${info.labels.length} variants × ${info.seeds} seeds, not re-run.`);
+    saveResults({ kind: 'file', status: 'opened', configJson, fileName, text }).then((problem) => { if (problem) showError(problem); });
+  }
   return true;
 }
 
@@ -648,6 +810,78 @@ function statusWord(run) {
   }
 }
 
+// ---------------------------------------------------------------- share links
+
+async function copyLink() {
+  if (!state.config) return;
+  revalidate();
+  let link;
+  try {
+    link = linkFor(await encodeConfig(state.config));
+  } catch (err) {
+    showError(`could not make a link: ${messageOf(err)}`);
+    return;
+  }
+  ui.shareUrl.value = link;
+  ui.shareOut.hidden = false;
+  let copied = false;
+  try {
+    await navigator.clipboard.writeText(link);
+    copied = true;
+  } catch {
+    ui.shareUrl.focus();
+    ui.shareUrl.select();
+    try { copied = document.execCommand('copy'); } catch { copied = false; }
+  }
+  const kb = (link.length / 1024).toFixed(1);
+  let text = copied ? `Link copied (${kb} KB). It holds the whole experiment; opening it reproduces the same numbers.`
+    : 'The browser did not allow copying: select the link in the field and copy it.';
+  if (!state.check.ok) text += ` Note: this experiment has a problem (${state.check.message}).`;
+  showNote(text, 10000);
+}
+
+/**
+ * Open the experiment in the address's fragment, if any. Returns 'none' (no
+ * link), 'opened', or 'refused' (a message says why; the caller shows a safe
+ * default). The fragment is removed from the address either way, so a reload
+ * shows the kept experiment (with any edits) instead of the link again.
+ */
+async function openLinkFromAddress() {
+  const hash = location.hash;
+  if (!hash || hash === '#') return 'none';
+  const got = await decodeFragment(hash);
+  history.replaceState(null, '', location.href.replace(/#.*$/s, ''));
+  if (!got) return 'none';
+  let problem = got.ok ? '' : got.message;
+  if (!problem && state.wasm) {
+    try {
+      state.wasm.validateConfig(got.text);
+    } catch (err) {
+      problem = `its experiment does not pass the checks: ${messageOf(err)}`;
+    }
+  } else if (!problem) {
+    problem = 'the WebAssembly module is not loaded, so the experiment cannot be checked';
+  }
+  if (problem) {
+    showError(`This link could not be opened: ${problem}. The page shows a default experiment instead.`);
+    return 'refused';
+  }
+  state.presetFile = '';
+  renderPresetPicker();
+  applyConfig(got.config);
+  showNote('Opened the experiment from the link. Press Train to reproduce its numbers.', 10000);
+  return 'opened';
+}
+
+async function onHashChange() {
+  if (!location.hash || location.hash === '#') return;
+  if (isActive()) {
+    showError('A link was opened while a run is in progress; cancel the run, then open the link again.');
+    return;
+  }
+  if (await openLinkFromAddress() === 'refused') await applyDefault();
+}
+
 // ---------------------------------------------------------------- tabs
 
 function selectTab(tab, focus = false) {
@@ -716,6 +950,10 @@ function bind() {
   ui.pngCurves.addEventListener('click', () => savePng(ui.canvas, 'curves'));
   ui.saveResults.addEventListener('click', saveResultsFile);
   ui.exportCsv.addEventListener('click', exportCsv);
+  ui.copyLink.addEventListener('click', copyLink);
+  ui.shareUrl.addEventListener('focus', () => ui.shareUrl.select());
+  ui.resume.addEventListener('click', resumeRun);
+  window.addEventListener('hashchange', onHashChange);
   ui.openFile.addEventListener('change', () => {
     const f = ui.openFile.files && ui.openFile.files[0];
     ui.openFile.value = '';
@@ -729,6 +967,24 @@ function bind() {
   });
 }
 
+/** The first preset (the rover's when there is one), or the built-in fallback. */
+async function applyDefault() {
+  let first = null;
+  const rover = state.presets.find((p) => /rover/i.test(p.file));
+  const pick = rover || state.presets[0];
+  if (pick) {
+    try {
+      first = await loadPreset(pick.file);
+      state.presetFile = pick.file;
+    } catch (err) {
+      showError(`The preset ${pick.file} could not be read (${messageOf(err)}); starting from a built-in example.`);
+    }
+  }
+  if (!first) state.presetFile = '';
+  renderPresetPicker();
+  applyConfig(first || JSON.parse(JSON.stringify(FALLBACK_CONFIG)));
+}
+
 async function main() {
   bind();
   renderButtons();
@@ -738,22 +994,33 @@ async function main() {
   const wasmLoad = loadWasm().then((w) => { state.wasm = w; }, (err) => {
     showError(`The WebAssembly module did not load: ${messageOf(err)}`);
   });
-
-  let first = null;
   try {
     state.presets = await loadPresetIndex();
-    const rover = state.presets.find((p) => /rover/i.test(p.file));
-    const pick = rover || state.presets[0];
-    if (pick) {
-      first = await loadPreset(pick.file);
-      state.presetFile = pick.file;
-    }
   } catch (err) {
     showError(`Presets could not be read (${messageOf(err)}); starting from a built-in example.`);
   }
   renderPresetPicker();
   await wasmLoad;
-  applyConfig(first || JSON.parse(JSON.stringify(FALLBACK_CONFIG)));
+
+  // What to show first: a link in the address, else the experiment kept
+  // from the last visit, else the default preset.
+  const link = await openLinkFromAddress();
+  let kept = null;
+  if (link === 'none') {
+    try {
+      kept = loadExperiment();
+    } catch (err) {
+      showError(`The experiment kept from the last visit could not be read (${messageOf(err)}); starting from a preset.`);
+    }
+  }
+  if (kept) {
+    state.presetFile = state.presets.some((p) => p.file === kept.presetFile) ? kept.presetFile : '';
+    renderPresetPicker();
+    applyConfig(kept.config);
+  } else if (link !== 'opened') {
+    await applyDefault();
+  }
+  if (state.wasm && link === 'none') await restoreResults();
   debug.ready = true;
 }
 

@@ -2,8 +2,11 @@
 // what they report. One Pool serves one run; make a new Pool per run.
 //
 // Workers: min(navigator.hardwareConcurrency || 2, jobs). The job ids of a
-// run (all of them, or the unfinished ones when a run is resumed) are dealt
-// round-robin over the workers. Job ids follow the contract:
+// run (all of them, or the unfinished ones when a run is resumed) are put in
+// seed-major order (seed 0 of every variant, then seed 1, ...) and dealt
+// round-robin over the workers; each worker trains its list in batches of
+// ceil(variants / workers) jobs, so every variant's curve grows from the start
+// and jobs finish batch by batch. Job ids follow the contract:
 // job = variant_index * seeds + seed_index.
 //
 // Message protocol (every message is a plain object with a `type` and the
@@ -11,6 +14,7 @@
 //
 //   page → worker
 //     {type:'start',  runId, config: string /* config JSON */, jobIds: number[], chunk: number /* steps per job per chunk */,
+//        batch: number /* jobs trained at once */,
 //        wasm: ArrayBuffer | null /* the module's bytes in the single-file build (see platform.js) */}
 //     {type:'pause',  runId}   stop after the chunk in progress
 //     {type:'resume', runId}   go on from where it paused
@@ -61,10 +65,19 @@ export class Pool {
     return lists;
   }
 
-  /** Start the run: config JSON text, the job ids to run, steps per job per chunk. */
-  start(configJson, jobIds, chunk = 2000) {
-    const ids = Array.from(jobIds);
+  /** Job ids in seed-major order (ids are variant * seeds + seed). */
+  static seedMajor(ids, seeds) {
+    return Array.from(ids).sort((a, b) => (a % seeds) - (b % seeds) || a - b);
+  }
+
+  /**
+   * Start the run: config JSON text, the job ids to run, steps per job per
+   * chunk, and the plan's shape {variants, seeds}.
+   */
+  start(configJson, jobIds, chunk = 2000, shape = { variants: 1, seeds: 1 }) {
+    const ids = Pool.seedMajor(jobIds, Math.max(1, shape.seeds));
     const n = Pool.workerCount(ids.length, this.concurrency);
+    const batch = Math.max(1, Math.ceil(shape.variants / n));
     for (const jobIds of Pool.deal(ids, n)) {
       let worker;
       try {
@@ -85,7 +98,7 @@ export class Pool {
       };
       worker.onmessageerror = () => this.#fail(slot, 'worker sent a message that could not be read');
       const wasm = wasmForWorker();
-      worker.postMessage({ type: 'start', runId: this.runId, config: configJson, jobIds, chunk, wasm }, wasm ? [wasm] : []);
+      worker.postMessage({ type: 'start', runId: this.runId, config: configJson, jobIds, chunk, batch, wasm }, wasm ? [wasm] : []);
     }
     this.#checkDone();
   }

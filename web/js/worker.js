@@ -1,6 +1,10 @@
-// Training worker (module worker). Owns one `Run` over the job ids it is
-// given and advances it in chunks, posting progress and episode records after
-// every chunk. The message protocol is documented in pool.js.
+// Training worker. Trains the job ids it is given in batches: one `Run`
+// handle over `batch` jobs at a time, advanced in chunks, posting progress and
+// episode records after every chunk; when a batch is finished its Run is freed
+// and the next batch starts. So jobs finish one batch after another (and a
+// page reload mid-run keeps every finished job), while each batch still holds
+// one seed of several variants, so all curves grow together. The message
+// protocol is documented in pool.js.
 
 import { loadWasm, messageOf, provideWasmBytes } from './wasm.js';
 
@@ -37,9 +41,17 @@ self.onmessage = (event) => {
 async function start(msg) {
   if (current) finish();
   if (msg.wasm) provideWasmBytes(msg.wasm);
+  const ids = Array.isArray(msg.jobIds) ? msg.jobIds.slice() : [];
+  const size = Math.max(1, Math.floor(msg.batch || ids.length || 1));
+  const batches = [];
+  for (let k = 0; k < ids.length; k += size) batches.push(ids.slice(k, k + size));
   const job = {
     runId: msg.runId,
+    config: msg.config,
+    batches,
+    wasm: null,
     run: null,
+    runIds: [],
     chunk: Math.max(1, Math.floor(msg.chunk || 2000)),
     paused: false,
     busy: false,
@@ -47,23 +59,40 @@ async function start(msg) {
     failuresSeen: 0,
   };
   current = job;
-  let wasm;
   try {
-    wasm = await loadWasm();
+    job.wasm = await loadWasm();
   } catch (err) {
     if (current === job) current = null;
     post({ type: 'error', runId: job.runId, message: messageOf(err) });
     return;
   }
   if (current !== job) return; // cancelled or replaced while loading
-  try {
-    job.run = new wasm.Run(msg.config, Uint32Array.from(msg.jobIds));
-  } catch (err) {
+  if (!nextBatch(job)) {
     current = null;
-    post({ type: 'error', runId: job.runId, message: `starting jobs ${msg.jobIds.join(', ')}: ${messageOf(err)}` });
+    post({ type: 'done', runId: job.runId });
     return;
   }
   schedule();
+}
+
+/** Open the next batch's Run; false when none is left or it could not start. */
+function nextBatch(job) {
+  if (job.run) { try { job.run.free(); } catch { /* already freed */ } job.run = null; }
+  const ids = job.batches.shift();
+  if (!ids) return false;
+  try {
+    job.run = new job.wasm.Run(job.config, Uint32Array.from(ids));
+    job.runIds = ids;
+    job.failuresSeen = 0;
+  } catch (err) {
+    // Every job left in this worker fails the same way: report them all.
+    const all = [ids, ...job.batches].flat();
+    job.batches = [];
+    current = null;
+    post({ type: 'error', runId: job.runId, message: `starting jobs ${all.join(', ')}: ${messageOf(err)}` });
+    return false;
+  }
+  return true;
 }
 
 // Yield to the event loop between chunks so pause/cancel messages are seen.
@@ -94,15 +123,22 @@ function step(event) {
       [progress.buffer, episodes.buffer]);
   } catch (err) {
     job.busy = false;
+    const left = [job.runIds, ...job.batches].flat();
     finish();
-    post({ type: 'error', runId: job.runId, message: messageOf(err) });
+    post({ type: 'error', runId: job.runId, message: `jobs ${left.join(', ')}: ${messageOf(err)}` });
     return;
   }
   job.busy = false;
   if (finished) {
-    finish();
-    post({ type: 'done', runId: job.runId });
-  } else if (job.paused) {
+    if (!nextBatch(job)) {
+      if (current === job) {
+        finish();
+        post({ type: 'done', runId: job.runId });
+      }
+      return;
+    }
+  }
+  if (job.paused) {
     post({ type: 'paused', runId: job.runId });
   } else {
     schedule();
