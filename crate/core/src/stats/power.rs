@@ -113,24 +113,9 @@ pub fn seeds_needed_at(
 ) -> Result<SeedsAdvice, SeedsError> {
     check("sd_a", sd_a, sd_a >= 0.0, "must be a finite number >= 0")?;
     check("sd_b", sd_b, sd_b >= 0.0, "must be a finite number >= 0")?;
-    check(
-        "epsilon",
-        epsilon,
-        epsilon > 0.0,
-        "must be a finite number > 0",
-    )?;
-    check(
-        "alpha",
-        alpha,
-        alpha > 0.0 && alpha < 1.0,
-        "must be > 0 and < 1",
-    )?;
-    check(
-        "power",
-        power,
-        power > 0.0 && power < 1.0,
-        "must be > 0 and < 1",
-    )?;
+    check("epsilon", epsilon, epsilon > 0.0, "must be a finite number > 0")?;
+    check("alpha", alpha, alpha > 0.0 && alpha < 1.0, "must be > 0 and < 1")?;
+    check("power", power, power > 0.0 && power < 1.0, "must be > 0 and < 1")?;
     let (va, vb) = (sd_a * sd_a, sd_b * sd_b);
     let vsum = va + vb;
     if vsum == 0.0 {
@@ -140,10 +125,8 @@ pub fn seeds_needed_at(
     let za = normal_quantile(1.0 - 0.5 * alpha);
     let zb = normal_quantile(power);
     let normal_raw = (za + zb) * (za + zb) * scale;
-    if !(normal_raw <= MAX_SEEDS as f64) {
-        return Err(SeedsError::TooMany {
-            estimate: normal_raw,
-        });
+    if !normal_raw.is_finite() || normal_raw > MAX_SEEDS as f64 {
+        return Err(SeedsError::TooMany { estimate: normal_raw });
     }
     let normal = (normal_raw.ceil() as usize).max(2);
     // Welch df of two groups of n: (n − 1)·dfac.
@@ -161,9 +144,7 @@ pub fn seeds_needed_at(
         lo = hi;
         hi = hi.saturating_mul(2);
         if hi > MAX_SEEDS {
-            return Err(SeedsError::TooMany {
-                estimate: normal_raw,
-            });
+            return Err(SeedsError::TooMany { estimate: normal_raw });
         }
     }
     while hi - lo > 1 {
@@ -174,12 +155,7 @@ pub fn seeds_needed_at(
             lo = mid;
         }
     }
-    Ok(SeedsAdvice {
-        normal_raw,
-        normal,
-        welch: hi,
-        welch_df: (hi as f64 - 1.0) * dfac,
-    })
+    Ok(SeedsAdvice { normal_raw, normal, welch: hi, welch_df: (hi as f64 - 1.0) * dfac })
 }
 
 #[cfg(test)]
@@ -200,22 +176,14 @@ mod tests {
         let e = seeds_needed_at(1.0, 1.0, 0.5, 0.05, 0.0).unwrap_err();
         assert!(e.to_string().starts_with("power:"), "{e}");
         assert_eq!(seeds_needed(0.0, 0.0, 1.0), Err(SeedsError::NoSpread));
-        assert!(matches!(
-            seeds_needed(1.0, 1.0, 1e-12),
-            Err(SeedsError::TooMany { .. })
-        ));
+        assert!(matches!(seeds_needed(1.0, 1.0, 1e-12), Err(SeedsError::TooMany { .. })));
     }
 
     #[test]
     fn answer_is_the_smallest_meeting_the_requirement() {
         // Restates the definition: N meets the t requirement and N − 1 does
         // not (or N = 2).
-        for &(sa, sb, eps) in &[
-            (1.0, 1.0, 0.5),
-            (1.0, 3.0, 1.0),
-            (2.0, 0.0, 1.5),
-            (1.0, 1.0, 5.0),
-        ] {
+        for &(sa, sb, eps) in &[(1.0, 1.0, 0.5), (1.0, 3.0, 1.0), (2.0, 0.0, 1.5), (1.0, 1.0, 5.0)] {
             let adv = seeds_needed(sa, sb, eps).unwrap();
             let req = |n: usize| {
                 let dfac = (sa * sa + sb * sb) * (sa * sa + sb * sb) / (sa.powi(4) + sb.powi(4));
