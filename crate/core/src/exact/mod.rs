@@ -174,7 +174,7 @@ pub fn value_iteration(m: &FiniteModel, gamma: f64, tol: f64) -> Result<Optimal,
             break;
         }
     }
-    if !(residual < tol) {
+    if residual.is_nan() || residual >= tol {
         return Err(ExactError::NoConvergence { residual });
     }
     let q = q_values(m, &v, gamma);
