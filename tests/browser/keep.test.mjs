@@ -30,12 +30,12 @@ test('edits and a finished run survive a reload', async () => {
   await page.fill('#steps', '2000');
   await runToEnd(page);
   const summary = await page.evaluate(() => window.__critbox.state.summary);
-  await page.fill('#slip', '0.1'); // an edit after the run
+  await page.fill('#f-task-slip', '0.1'); // an edit after the run
   await page.waitForTimeout(500); // the experiment is written 300 ms after the last edit
 
   await reload(page);
   assert.equal(await page.inputValue('#title'), 'Kept across reloads');
-  assert.equal(await page.inputValue('#slip'), '0.1');
+  assert.equal(await page.inputValue('#f-task-slip'), '0.1');
   assert.equal(await page.evaluate(() => window.__critbox.state.run.status), 'done');
   assert.deepEqual(await page.evaluate(() => window.__critbox.state.summary), summary);
   assert.equal(await page.locator('#scores-body tr').count(), summary.variants.length);

@@ -39,7 +39,7 @@ test('rover preset: train 3 seeds × 3000 steps, curves drawn, summary filled', 
   const { page, context, problems, requests } = await openPage(env);
 
   // The rover preset is the one loaded first; the form shows its settings.
-  assert.equal(await page.inputValue('#preset'), ROVER);
+  assert.equal(await page.getAttribute(`#presets button[data-preset="${ROVER}"]`, 'aria-pressed'), 'true');
   assert.equal(await page.inputValue('#title'), cfg.title);
   assert.equal(await page.locator('#variants > li').count(), cfg.variants.length);
 
@@ -110,12 +110,12 @@ test('invalid input: the message names the field and the run button is disabled 
   assert.deepEqual(unlabelled, []);
 
   // A negative actor step size.
-  await page.fill('#actor-step', '-1');
+  await page.fill('#f-base-actor_step', '-1');
   await page.waitForFunction(() => document.getElementById('train').disabled);
   const reason = (await page.textContent('#run-reason')).trim();
   assert.match(reason, /actor_step/, reason);
   assert.match(reason, /-1/, reason);
-  assert.equal(await page.getAttribute('#actor-step', 'aria-invalid'), 'true');
+  assert.equal(await page.getAttribute('#f-base-actor_step', 'aria-invalid'), 'true');
   const ax = await trainButtonAx(page);
   assert.ok(ax, 'Train button in the accessibility tree');
   assert.equal(ax.disabled, true);
@@ -123,23 +123,28 @@ test('invalid input: the message names the field and the run button is disabled 
   await shoot(page, 'invalid-actor-step.png');
 
   // Fixed again: the button comes back.
-  await page.fill('#actor-step', '0.1');
+  await page.fill('#f-base-actor_step', '0.1');
   await page.waitForFunction(() => !document.getElementById('train').disabled);
-  assert.equal(await page.getAttribute('#actor-step', 'aria-invalid'), null);
+  assert.equal(await page.getAttribute('#f-base-actor_step', 'aria-invalid'), null);
 
   // A map with no dock.
-  await page.fill('#map', '#####\n#S..#\n#####');
+  await page.fill('#f-task-map', '#####\n#S..#\n#####');
   await page.waitForFunction(() => document.getElementById('train').disabled);
   const mapReason = (await page.textContent('#run-reason')).trim();
   assert.match(mapReason, /task\.map/, mapReason);
-  assert.equal(await page.getAttribute('#map', 'aria-invalid'), 'true');
+  assert.equal(await page.getAttribute('#f-task-map', 'aria-invalid'), 'true');
   assert.equal((await trainButtonAx(page)).description.trim(), mapReason);
   await shoot(page, 'invalid-map.png');
 
-  // A blank required field is caught by the form itself.
-  await page.fill('#map', '#####\n#S.D#\n#####');
-  await page.fill('#seeds', '');
-  await page.waitForFunction(() => /seeds/.test(document.getElementById('run-reason').textContent));
+  // A blank required field and a word in a number field are caught by the form itself.
+  await page.fill('#f-task-map', '#####\n#S.D#\n#####');
+  await page.fill('#steps', '');
+  await page.waitForFunction(() => /^steps: enter a number/.test(document.getElementById('run-reason').textContent));
+  assert.equal(await page.isDisabled('#train'), true);
+  await page.fill('#steps', '3000');
+  await page.fill('#f-base-critic_step', 'fast');
+  await page.waitForFunction(() => /^base\.critic_step: not a number/.test(document.getElementById('run-reason').textContent));
+  assert.equal(await page.getAttribute('#f-base-critic_step', 'aria-invalid'), 'true');
   assert.equal(await page.isDisabled('#train'), true);
 
   assert.deepEqual(problems, []);
@@ -206,7 +211,7 @@ test('pause holds the run still, resume goes on, cancel ends it with a partial s
   await context.close();
 });
 
-test('variants list: add one, override its learner, remove it', async () => {
+test('variants list: add one, override its learner, duplicate it, remove them', async () => {
   const cfg = await preset(ROVER);
   const n = cfg.variants.length;
   const { page, context, problems } = await openPage(env);
@@ -214,11 +219,15 @@ test('variants list: add one, override its learner, remove it', async () => {
 
   await page.click('#add-variant');
   assert.equal(await page.locator('#variants > li').count(), n + 1);
-  await page.fill(`#v${n}-label`, 'QAC, small actor step');
-  await page.selectOption(`#v${n}-algo`, 'qac');
-  await page.fill(`#v${n}-actor`, '0.05');
-  // A blank field inherits: its placeholder shows the shared value.
-  assert.equal(await page.getAttribute(`#v${n}-critic`, 'placeholder'), String(cfg.base.critic_step));
+  // Focus moves to the new variant's label.
+  assert.equal(await page.evaluate(() => document.activeElement.id), `f-variants-${n}-label`);
+  await page.fill(`#f-variants-${n}-label`, 'QAC, small actor step');
+  await page.selectOption(`#f-variants-${n}-add`, 'algo');
+  await page.selectOption(`#f-variants-${n}-learner-algo`, 'qac');
+  await page.selectOption(`#f-variants-${n}-add`, 'actor_step');
+  // The override starts from the shared value.
+  assert.equal(await page.inputValue(`#f-variants-${n}-learner-actor_step`), String(cfg.base.actor_step));
+  await page.fill(`#f-variants-${n}-learner-actor_step`, '0.05');
   await page.waitForFunction((k) => /Ready: (\d+) variants/.exec(document.getElementById('run-reason').textContent)?.[1] === String(k), n + 1);
   const added = await page.evaluate((k) => window.__critbox.state.config.variants[k], n);
   assert.deepEqual(added, { label: 'QAC, small actor step', learner: { algo: 'qac', actor_step: 0.05 } });
@@ -230,6 +239,16 @@ test('variants list: add one, override its learner, remove it', async () => {
   assert.deepEqual(legend, [...cfg.variants.map((v) => v.label), 'QAC, small actor step']);
   await shoot(page, 'variant-added.png');
 
+  // Duplicate: a copy right after it, with a label of its own.
+  await page.click(`#variants > li:nth-child(${n + 1}) button[data-duplicate]`);
+  const copyOf = await page.evaluate((k) => window.__critbox.state.config.variants[k + 1], n);
+  assert.deepEqual(copyOf, { label: 'QAC, small actor step (copy)', learner: { algo: 'qac', actor_step: 0.05 } });
+  // Dropping an override goes back to the shared value.
+  await page.click(`#variants > li:nth-child(${n + 2}) button[data-drop="variants[${n + 1}].learner.actor_step"]`);
+  assert.deepEqual(await page.evaluate((k) => window.__critbox.state.config.variants[k + 1], n),
+    { label: 'QAC, small actor step (copy)', learner: { algo: 'qac' } });
+
+  await page.click(`#variants > li:nth-child(${n + 2}) button.remove`);
   await page.click(`#variants > li:nth-child(${n + 1}) button.remove`);
   assert.equal(await page.locator('#variants > li').count(), n);
   const after = await page.evaluate(() => window.__critbox.state.config.variants);

@@ -43,7 +43,7 @@ test('share link round trip: copy, open in a new browser context, run, identical
   await page.fill('#seeds', '3');
   await page.fill('#steps', '3000');
   await page.fill('#master-seed', '12345');
-  await page.fill('#v1-actor', '0.02');
+  await page.fill('#f-variants-1-learner-actor_step', '0.02');
   await page.click('#copy-link');
   await page.waitForFunction(() => /Link copied/.test(document.getElementById('notes').textContent));
   const link = await page.inputValue('#share-url');
@@ -129,7 +129,7 @@ test('a link with markup in its labels shows it as text and runs nothing', async
   };
   const { page, context, problems, dialogs } = await openAt(fragmentOf(JSON.stringify(cfg)));
   assert.equal(await page.inputValue('#title'), HOSTILE_TITLE);
-  assert.equal(await page.inputValue('#v0-label'), HOSTILE_LABEL);
+  assert.equal(await page.inputValue('#f-variants-0-label'), HOSTILE_LABEL);
   await runToEnd(page);
   // The label appears as literal text in the tables, and no element came from it.
   assert.equal((await page.locator('#scores-body tr').first().locator('th').textContent()).trim(), HOSTILE_LABEL);

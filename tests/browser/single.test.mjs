@@ -48,10 +48,10 @@ test('dist/critbox.html from file:// runs a preset with zero network requests', 
   await page.goto(url);
   await page.waitForFunction(() => window.__critbox && window.__critbox.ready, null, { timeout: 30000 });
 
-  // The presets are in the file; pick the cart-pole one in one click, then the rover again.
-  const presets = await page.locator('#preset option').evaluateAll((os) => os.map((o) => o.value).filter(Boolean));
-  assert.ok(presets.length >= 2, `presets inside the file: ${presets}`);
-  assert.equal(await page.inputValue('#preset'), 'rover-a2c-vs-qac.json');
+  // The presets are in the file, each one click away.
+  const presets = await page.locator('#presets button[data-preset]').evaluateAll((bs) => bs.map((b) => b.dataset.preset));
+  assert.ok(presets.length >= 5, `presets inside the file: ${presets}`);
+  assert.equal(await page.getAttribute('#presets button[data-preset="rover-a2c-vs-qac.json"]', 'aria-pressed'), 'true');
   await page.fill('#seeds', '2');
   await page.fill('#steps', '3000');
   await runToEnd(page, 60000);

@@ -1,16 +1,14 @@
-// The experiment form ↔ config object. writeForm fills the form from a config;
-// readForm builds a config from the form, starting from the previous config so
-// settings the form does not show (curve_points, final_fraction, keys a preset
-// adds) are kept. Field names in messages are config paths, as in the wasm
-// validator's messages. Text from configs is only ever set as .value or
-// .textContent.
+// The experiment form. The config object is the one source of truth: the
+// form is drawn from it (renderSheet) using the setting tables of
+// settings.js, and every edit writes straight into it at the control's
+// config path (applyInput). Structural edits (a learner, a task kind, a
+// reward mode, adding an override) redraw the parts that depend on them.
+// Field names in messages are config paths, as in the core's messages. Text
+// from configs is only ever set as .value or .textContent.
 
-const ALGOS = [['a2c', 'A2C'], ['qac', 'QAC']];
-const FEATURES = [['tabular', 'Tabular'], ['tiles', 'Tiles']];
-const DEFAULT_TILES = { kind: 'tiles', tilings: 8, intervals: 8, hash: 4096 };
+import { TASKS, LEARNER_FIELDS, REWARD_MODES, explain, overridable, taskFacts } from './settings.js';
 
-/** A small rover map of our own, used when the form switches to the grid
- * task from a config that has none. */
+/** A small rover map of our own, used when a config gives none. */
 export const DEFAULT_GRID_TASK = {
   kind: 'grid',
   map: ['#########', '#S..#...#', '#.#.~.#.#', '#...#..D#', '#########'],
@@ -20,224 +18,117 @@ export const DEFAULT_GRID_TASK = {
   goal_reward: 0,
   max_steps: 200,
 };
-export const DEFAULT_CARTPOLE_TASK = { kind: 'cartpole', max_steps: 500 };
 
-/** The form's elements by role. */
+/** The form's fixed elements. */
 export function findControls(doc) {
   const $ = (id) => doc.getElementById(id);
   return {
+    doc,
     form: $('experiment'),
-    preset: $('preset'),
+    presets: $('presets'),
     title: $('title'),
-    kindGrid: $('task-grid'),
-    kindCartpole: $('task-cartpole'),
-    gridFields: $('grid-fields'),
-    cartpoleFields: $('cartpole-fields'),
-    map: $('map'),
-    slip: $('slip'),
-    stepReward: $('step-reward'),
-    hazardReward: $('hazard-reward'),
-    goalReward: $('goal-reward'),
-    maxSteps: $('max-steps'),
-    poleMaxSteps: $('pole-max-steps'),
-    algo: $('algo'),
-    discount: $('discount'),
-    actorStep: $('actor-step'),
-    criticStep: $('critic-step'),
-    features: $('features'),
-    tileFields: $('tile-fields'),
-    tilings: $('tilings'),
-    intervals: $('intervals'),
-    hash: $('hash'),
+    showHelp: $('show-help'),
+    taskKind: $('task-kind'),
+    taskBlurb: $('task-blurb'),
+    taskFields: $('task-fields'),
+    reward: $('reward-editor'),
+    baseFields: $('base-fields'),
     variants: $('variants'),
     addVariant: $('add-variant'),
     seeds: $('seeds'),
     steps: $('steps'),
     masterSeed: $('master-seed'),
-    finalFraction: $('final-fraction'),
-    curvePoints: $('curve-points'),
-    threshold: $('threshold'),
-    detectDifference: $('detect-difference'),
   };
 }
 
-function setNum(input, v) {
-  input.value = typeof v === 'number' && Number.isFinite(v) ? String(v) : '';
-}
+// ---------------------------------------------------------------- paths
 
-/** Fill the whole form from a config object. */
-export function writeForm(els, config) {
-  els.title.value = typeof config.title === 'string' ? config.title : '';
-  const task = config.task || {};
-  const isPole = task.kind === 'cartpole';
-  els.kindGrid.checked = !isPole;
-  els.kindCartpole.checked = isPole;
-  const grid = isPole ? DEFAULT_GRID_TASK : { ...DEFAULT_GRID_TASK, ...task };
-  els.map.value = Array.isArray(grid.map) ? grid.map.join('\n') : String(grid.map ?? '');
-  const rows = els.map.value.split('\n').length;
-  els.map.rows = Math.min(12, Math.max(3, rows));
-  setNum(els.slip, grid.slip);
-  setNum(els.stepReward, grid.step_reward);
-  setNum(els.hazardReward, grid.hazard_reward);
-  setNum(els.goalReward, grid.goal_reward);
-  setNum(els.maxSteps, grid.max_steps);
-  setNum(els.poleMaxSteps, (isPole ? { ...DEFAULT_CARTPOLE_TASK, ...task } : DEFAULT_CARTPOLE_TASK).max_steps);
-
-  const base = config.base || {};
-  els.algo.value = base.algo === 'qac' ? 'qac' : 'a2c';
-  setNum(els.discount, base.discount);
-  setNum(els.actorStep, base.actor_step);
-  setNum(els.criticStep, base.critic_step);
-  const feat = base.features || { kind: 'tabular' };
-  els.features.value = feat.kind === 'tiles' ? 'tiles' : 'tabular';
-  const tiles = feat.kind === 'tiles' ? { ...DEFAULT_TILES, ...feat } : DEFAULT_TILES;
-  setNum(els.tilings, tiles.tilings);
-  setNum(els.intervals, tiles.intervals);
-  setNum(els.hash, tiles.hash);
-
-  setNum(els.seeds, config.seeds);
-  setNum(els.steps, config.steps);
-  setNum(els.masterSeed, config.master_seed);
-  setNum(els.finalFraction, config.final_fraction ?? 0.1);
-  setNum(els.curvePoints, config.curve_points ?? 40);
-  setNum(els.threshold, config.threshold);
-  setNum(els.detectDifference, config.detect_difference);
-
-  renderVariants(els, config);
-  refreshForm(els);
-}
-
-/** Show the fields that apply (grid vs cart-pole, tile settings) and put the
- * shared values into the variant placeholders. Call after every edit. */
-export function refreshForm(els) {
-  const isPole = els.kindCartpole.checked;
-  els.gridFields.hidden = isPole;
-  els.cartpoleFields.hidden = !isPole;
-  els.tileFields.hidden = els.features.value !== 'tiles';
-  const shared = {
-    algo: els.algo.selectedOptions[0]?.textContent || '',
-    features: (FEATURES.find(([v]) => v === els.features.value) || ['', ''])[1],
-    actor: els.actorStep.value,
-    critic: els.criticStep.value,
-    discount: els.discount.value,
-  };
-  for (const card of els.variants.children) {
-    const q = (k) => card.querySelector(`[data-key="${k}"]`);
-    q('algo').options[0].textContent = `shared (${shared.algo})`;
-    q('features').options[0].textContent = `shared (${shared.features})`;
-    q('actor_step').placeholder = shared.actor;
-    q('critic_step').placeholder = shared.critic;
-    q('discount').placeholder = shared.discount;
+/** 'variants[1].learner.actor_step' → ['variants', 1, 'learner', 'actor_step']. */
+export function parsePath(path) {
+  const out = [];
+  for (const part of String(path).split('.')) {
+    const m = /^([^[\]]*)((?:\[\d+\])*)$/.exec(part);
+    if (!m) throw new Error(`bad config path ${path}`);
+    if (m[1]) out.push(m[1]);
+    for (const i of m[2].matchAll(/\[(\d+)\]/g)) out.push(Number(i[1]));
   }
-  const removes = els.variants.querySelectorAll('button.remove');
-  for (const b of removes) b.disabled = removes.length <= 1;
+  return out;
 }
 
-/** Rebuild the variant cards from config.variants. */
-export function renderVariants(els, config) {
-  const list = els.variants;
-  list.replaceChildren();
-  const variants = Array.isArray(config.variants) ? config.variants : [];
-  variants.forEach((v, i) => list.append(variantCard(v, i)));
-}
-
-function variantCard(variant, i) {
-  const learner = (variant && typeof variant.learner === 'object' && variant.learner) || {};
-  const li = document.createElement('li');
-  li.className = 'variant';
-  li.dataset.index = String(i);
-
-  const head = document.createElement('div');
-  head.className = 'head';
-  const label = field(`v${i}-label`, `Variant ${i + 1} label`, textInput(variant?.label ?? ''), `variants[${i}].label`, 'label');
-  head.append(label);
-  const remove = document.createElement('button');
-  remove.type = 'button';
-  remove.className = 'remove quiet';
-  remove.textContent = 'Remove';
-  remove.dataset.remove = String(i);
-  remove.setAttribute('aria-label', `Remove variant ${i + 1}`);
-  head.append(remove);
-  li.append(head);
-
-  const featKind = learner.features && typeof learner.features === 'object' ? learner.features.kind ?? '' : '';
-  const row1 = document.createElement('div');
-  row1.className = 'row';
-  row1.append(
-    field(`v${i}-algo`, 'Algorithm', select([['', 'shared'], ...ALGOS], learner.algo ?? ''), `variants[${i}].learner.algo`, 'algo'),
-    field(`v${i}-features`, 'Features', select([['', 'shared'], ...FEATURES], featKind), `variants[${i}].learner.features`, 'features'),
-  );
-  const row2 = document.createElement('div');
-  row2.className = 'row three';
-  row2.append(
-    field(`v${i}-actor`, 'Actor step', numInput(learner.actor_step), `variants[${i}].learner.actor_step`, 'actor_step'),
-    field(`v${i}-critic`, 'Critic step', numInput(learner.critic_step), `variants[${i}].learner.critic_step`, 'critic_step'),
-    field(`v${i}-discount`, 'Discount', numInput(learner.discount), `variants[${i}].learner.discount`, 'discount'),
-  );
-  li.append(row1, row2);
-  return li;
-}
-
-function field(id, labelText, control, path, key) {
-  const div = document.createElement('div');
-  div.className = 'field';
-  const label = document.createElement('label');
-  label.htmlFor = id;
-  label.textContent = labelText;
-  control.id = id;
-  control.dataset.path = path;
-  control.dataset.key = key;
-  div.append(label, control);
-  return div;
-}
-
-function textInput(value) {
-  const input = document.createElement('input');
-  input.type = 'text';
-  input.autocomplete = 'off';
-  input.spellcheck = false;
-  input.value = String(value);
-  return input;
-}
-
-function numInput(value) {
-  const input = document.createElement('input');
-  input.type = 'number';
-  input.step = 'any';
-  setNum(input, value);
-  return input;
-}
-
-function select(options, value) {
-  const s = document.createElement('select');
-  for (const [v, text] of options) {
-    const o = document.createElement('option');
-    o.value = v;
-    o.textContent = text;
-    s.append(o);
+export function getAt(obj, path) {
+  let o = obj;
+  for (const k of parsePath(path)) {
+    if (o === null || typeof o !== 'object') return undefined;
+    o = o[k];
   }
-  s.value = options.some(([v]) => v === value) ? value : '';
-  return s;
+  return o;
 }
 
-/**
- * Read a number field. Returns {value} (value undefined when blank and
- * optional) or {error: {path, message}}.
- */
-function readNum(input, path, { optional = false, integer = false } = {}) {
-  if (input.validity && input.validity.badInput) {
-    return { error: { path, message: `${path}: not a number` } };
+function setAt(obj, path, value) {
+  const segs = parsePath(path);
+  let o = obj;
+  for (let i = 0; i < segs.length - 1; i++) {
+    const k = segs[i];
+    if (o[k] === null || typeof o[k] !== 'object') o[k] = typeof segs[i + 1] === 'number' ? [] : {};
+    o = o[k];
   }
-  const text = input.value.trim();
-  if (text === '') {
-    return optional ? { value: undefined } : { error: { path, message: `${path}: enter a number` } };
+  o[segs[segs.length - 1]] = value;
+}
+
+/** Delete the key at path; then drop objects left empty on the way (never the root's own keys). */
+function deleteAt(obj, path) {
+  const segs = parsePath(path);
+  const chain = [obj];
+  let o = obj;
+  for (let i = 0; i < segs.length - 1; i++) {
+    o = o?.[segs[i]];
+    if (o === null || typeof o !== 'object') return;
+    chain.push(o);
   }
-  const value = Number(text);
-  if (!Number.isFinite(value)) return { error: { path, message: `${path}: not a number, got ${text}` } };
-  if (integer && !Number.isInteger(value)) {
-    return { error: { path, message: `${path}: must be a whole number, got ${text}` } };
+  delete o[segs[segs.length - 1]];
+  for (let i = segs.length - 2; i >= 1; i--) {
+    const parent = chain[i];
+    const key = segs[i];
+    const child = parent[key];
+    if (child && typeof child === 'object' && !Array.isArray(child) && Object.keys(child).length === 0 && PRUNABLE.has(key)) {
+      delete parent[key];
+    } else break;
   }
-  return { value };
+}
+const PRUNABLE = new Set(['optimizer', 'policy', 'behaviour', 'replay', 'constants', 'learner']);
+
+/** An id for the control of a config path. */
+export function idOf(path) {
+  return `f-${String(path).replace(/[[\].]+/g, '-').replace(/-+$/, '')}`;
+}
+
+/** A deep copy of plain JSON data. */
+export function copy(x) {
+  return x === undefined ? undefined : JSON.parse(JSON.stringify(x));
+}
+
+/** Deep merge as the core does it: objects key by key, anything else replaces. */
+export function merge(base, over) {
+  if (base && over && typeof base === 'object' && typeof over === 'object' && !Array.isArray(base) && !Array.isArray(over)) {
+    const out = { ...base };
+    for (const [k, v] of Object.entries(over)) out[k] = k in out ? merge(out[k], v) : v;
+    return out;
+  }
+  return over === undefined ? base : over;
+}
+
+// ---------------------------------------------------------------- reading input
+
+const NUMBER = /^[+-]?(\d+\.?\d*|\.\d+)([eE][+-]?\d+)?$/;
+
+/** Text → number, or an error message. */
+export function readNumber(text, { integer = false } = {}) {
+  const t = String(text).trim().replace(/\u2212/g, '-');
+  if (!NUMBER.test(t)) return { error: `not a number, got ${JSON.stringify(String(text).slice(0, 40))}` };
+  const v = Number(t);
+  if (!Number.isFinite(v)) return { error: `not a finite number, got ${t}` };
+  if (integer && !Number.isInteger(v)) return { error: `must be a whole number, got ${t}` };
+  return { value: v };
 }
 
 /** The map textarea as rows: line ends normalised, blank lines at the ends dropped. */
@@ -248,104 +139,465 @@ export function mapRows(text) {
   return rows;
 }
 
-/** A deep copy of plain JSON data. */
-function copy(x) {
-  return x === undefined ? undefined : JSON.parse(JSON.stringify(x));
+/** "name = value" lines → {constants} or {error}. */
+export function readConstants(text) {
+  const out = {};
+  const lines = text.replace(/\r\n?/g, '\n').split('\n');
+  for (let i = 0; i < lines.length; i++) {
+    const line = lines[i].trim();
+    if (!line || line.startsWith('#')) continue;
+    const m = /^([^=]+)=(.*)$/.exec(line);
+    if (!m) return { error: `line ${i + 1}: write name = value` };
+    const name = m[1].trim();
+    const v = readNumber(m[2]);
+    if (v.error) return { error: `line ${i + 1} (${name}): ${v.error}` };
+    out[name] = v.value;
+  }
+  return { constants: out };
+}
+
+export function constantsText(c) {
+  return c && typeof c === 'object' ? Object.entries(c).map(([k, v]) => `${k} = ${v}`).join('\n') : '';
 }
 
 /**
- * Build a config from the form over `prev`.
- * @returns {{config: object, error: null | {path: string, message: string}}}
- *   error is the first problem the form itself can see (a blank or non-number
- *   field); range checks are left to validateConfig.
+ * Write a control's value into the config.
+ * @returns {{structural: boolean, error: null | {path, message}}}
+ *   structural: the form must be redrawn (a choice changed what is shown).
  */
-export function readForm(els, prev) {
-  const cfg = copy(prev) || {};
-  let error = null;
-  const num = (input, path, opts) => {
-    const r = readNum(input, path, opts);
-    if (r.error) { error = error || r.error; return undefined; }
-    return r.value;
-  };
-
-  cfg.schema = cfg.schema ?? 1;
-  cfg.title = els.title.value;
-
-  const prevTask = (prev && prev.task) || {};
-  if (els.kindCartpole.checked) {
-    cfg.task = {
-      ...(prevTask.kind === 'cartpole' ? prevTask : DEFAULT_CARTPOLE_TASK),
-      kind: 'cartpole',
-      max_steps: num(els.poleMaxSteps, 'task.max_steps', { integer: true }),
-    };
-  } else {
-    cfg.task = {
-      ...(prevTask.kind === 'grid' ? prevTask : DEFAULT_GRID_TASK),
-      kind: 'grid',
-      map: mapRows(els.map.value),
-      slip: num(els.slip, 'task.slip'),
-      step_reward: num(els.stepReward, 'task.step_reward'),
-      hazard_reward: num(els.hazardReward, 'task.hazard_reward'),
-      goal_reward: num(els.goalReward, 'task.goal_reward'),
-      max_steps: num(els.maxSteps, 'task.max_steps', { integer: true }),
-    };
-  }
-
-  const prevBase = (prev && prev.base) || {};
-  const featKind = els.features.value;
-  let features;
-  if (featKind === 'tiles') {
-    features = {
-      ...(prevBase.features && prevBase.features.kind === 'tiles' ? prevBase.features : {}),
-      kind: 'tiles',
-      tilings: num(els.tilings, 'base.features.tilings', { integer: true }),
-      intervals: num(els.intervals, 'base.features.intervals', { integer: true }),
-      hash: num(els.hash, 'base.features.hash', { integer: true }),
-    };
-  } else {
-    features = { ...(prevBase.features && prevBase.features.kind === 'tabular' ? prevBase.features : {}), kind: 'tabular' };
-  }
-  cfg.base = {
-    ...prevBase,
-    algo: els.algo.value,
-    discount: num(els.discount, 'base.discount'),
-    actor_step: num(els.actorStep, 'base.actor_step'),
-    critic_step: num(els.criticStep, 'base.critic_step'),
-    features,
-  };
-
-  const prevVariants = (prev && Array.isArray(prev.variants)) ? prev.variants : [];
-  cfg.variants = [...els.variants.children].map((card, i) => {
-    const q = (k) => card.querySelector(`[data-key="${k}"]`);
-    const old = prevVariants[i] || {};
-    const v = { ...copy(old), label: q('label').value };
-    const learner = copy(old.learner) || {};
-    const setOrDrop = (key, value) => { if (value === undefined || value === '') delete learner[key]; else learner[key] = value; };
-    setOrDrop('algo', q('algo').value);
-    for (const key of ['actor_step', 'critic_step', 'discount']) {
-      setOrDrop(key, num(q(key), `variants[${i}].learner.${key}`, { optional: true }));
+export function applyInput(config, el) {
+  const path = el.dataset.path;
+  const type = el.dataset.type;
+  if (!path || !type) return { structural: false, error: null };
+  const optional = el.dataset.optional === 'true';
+  const fail = (message) => ({ structural: false, error: { path, message: `${path}: ${message}` } });
+  switch (type) {
+    case 'number':
+    case 'int': {
+      if (el.value.trim() === '') {
+        if (!optional) return fail('enter a number');
+        deleteAt(config, path);
+        return { structural: false, error: null };
+      }
+      const r = readNumber(el.value, { integer: type === 'int' });
+      if (r.error) return fail(r.error);
+      setAt(config, path, r.value);
+      return { structural: false, error: null };
     }
-    const fk = q('features').value;
-    if (fk === '') delete learner.features;
-    else if (old.learner && old.learner.features && old.learner.features.kind === fk) learner.features = copy(old.learner.features);
-    else if (fk === 'tiles') learner.features = features.kind === 'tiles' ? { ...features } : { ...DEFAULT_TILES };
-    else learner.features = { kind: fk };
-    if (Object.keys(learner).length) v.learner = learner; else delete v.learner;
-    return v;
-  });
+    case 'numbers': {
+      const parts = el.value.split(/[,;\s]+/).filter(Boolean);
+      if (!parts.length) {
+        if (optional) { deleteAt(config, path); return { structural: false, error: null }; }
+        return fail('enter one or more numbers, separated by commas');
+      }
+      const values = [];
+      for (const p of parts) {
+        const r = readNumber(p);
+        if (r.error) return fail(r.error);
+        values.push(r.value);
+      }
+      setAt(config, path, values);
+      return { structural: false, error: null };
+    }
+    case 'text':
+      if (optional && el.value === '') deleteAt(config, path); else setAt(config, path, el.value);
+      return { structural: false, error: null };
+    case 'lines':
+      setAt(config, path, mapRows(el.value));
+      return { structural: false, error: null };
+    case 'constants': {
+      const r = readConstants(el.value);
+      if (r.error) return fail(r.error);
+      if (Object.keys(r.constants).length) setAt(config, path, r.constants); else deleteAt(config, path);
+      return { structural: true, error: null };
+    }
+    case 'bool':
+      setAt(config, path, el.checked);
+      return { structural: true, error: null };
+    case 'choice':
+      if (el.value === '' && optional) deleteAt(config, path); else setAt(config, path, el.value);
+      return { structural: true, error: null };
+    case 'tag': {
+      // A tagged object's kind: keep the object only if the kind is the same.
+      const objPath = path.slice(0, path.lastIndexOf('.'));
+      const tagKey = path.slice(path.lastIndexOf('.') + 1);
+      const old = getAt(config, objPath);
+      if (el.value === '') deleteAt(config, objPath);
+      else if (!old || old[tagKey] !== el.value) setAt(config, objPath, { [tagKey]: el.value });
+      return { structural: true, error: null };
+    }
+    case 'task-kind':
+      return { structural: true, error: null }; // handled by switchTask
+    default:
+      return { structural: false, error: null };
+  }
+}
 
-  cfg.seeds = num(els.seeds, 'seeds', { integer: true });
-  cfg.steps = num(els.steps, 'steps', { integer: true });
-  cfg.master_seed = num(els.masterSeed, 'master_seed', { integer: true });
-  const optional = (key, input, opts) => {
-    const v = num(input, key, { optional: true, ...opts });
-    if (v === undefined) delete cfg[key]; else cfg[key] = v;
-  };
-  optional('final_fraction', els.finalFraction);
-  optional('curve_points', els.curvePoints, { integer: true });
-  optional('threshold', els.threshold);
-  optional('detect_difference', els.detectDifference);
-  return { config: cfg, error };
+// ---------------------------------------------------------------- drawing fields
+
+function el(doc, tag, props = {}, ...children) {
+  const e = doc.createElement(tag);
+  for (const [k, v] of Object.entries(props)) {
+    if (v === undefined || v === null) continue;
+    if (k === 'text') e.textContent = v;
+    else if (k === 'className') e.className = v;
+    else if (k === 'dataset') Object.assign(e.dataset, v);
+    else if (k.startsWith('aria-') || k === 'role' || k === 'for') e.setAttribute(k, v);
+    else e[k] = v;
+  }
+  for (const c of children) if (c) e.append(c);
+  return e;
+}
+
+function fmtValue(v) {
+  return typeof v === 'number' && Number.isFinite(v) ? String(v) : '';
+}
+
+/**
+ * The control(s) of one field at `path` (its full config path), showing
+ * `value` (undefined: not set). Returns a .field element.
+ */
+function fieldControl(doc, f, path, value, env, opts = {}) {
+  const id = idOf(path);
+  const helpId = `${id}-help`;
+  const wrap = el(doc, 'div', { className: `field${f.wide || f.type === 'lines' || f.type === 'object' || f.type === 'tagged' ? ' wide' : ''}` });
+  const help = el(doc, 'p', { className: 'help', id: helpId, text: explain(f) });
+  const label = (text = f.label) => el(doc, 'label', { for: id, text: opts.labelPrefix ? `${opts.labelPrefix}${text}` : text });
+  const common = { id, dataset: { path, type: f.type === 'tagged' ? 'tag' : f.type, optional: String(!!f.optional) }, 'aria-describedby': helpId };
+  switch (f.type) {
+    case 'number':
+    case 'int': {
+      const input = el(doc, 'input', { ...common, type: 'text', inputMode: 'decimal', autocomplete: 'off', spellcheck: false, value: fmtValue(value), placeholder: f.optional || value === undefined ? f.def : '' });
+      wrap.append(label(), input, help);
+      break;
+    }
+    case 'numbers': {
+      const input = el(doc, 'input', { ...common, type: 'text', autocomplete: 'off', spellcheck: false, value: Array.isArray(value) ? value.join(', ') : '', placeholder: f.def });
+      wrap.append(label(), input, help);
+      break;
+    }
+    case 'lines': {
+      const rows = Array.isArray(value) ? value : [];
+      const ta = el(doc, 'textarea', { ...common, rows: Math.min(12, Math.max(3, rows.length)), cols: 20, spellcheck: false, autocomplete: 'off', value: rows.join('\n') });
+      wrap.append(label(), ta, help);
+      break;
+    }
+    case 'bool': {
+      const input = el(doc, 'input', { ...common, type: 'checkbox', checked: value === undefined ? !!f.value : !!value });
+      const lab = el(doc, 'label', { for: id, className: 'check' });
+      lab.append(input, doc.createTextNode(` ${opts.labelPrefix || ''}${f.label}`));
+      wrap.classList.add('bool');
+      wrap.append(lab, help);
+      break;
+    }
+    case 'choice': {
+      const s = el(doc, 'select', common);
+      if (f.optional) s.append(el(doc, 'option', { value: '', text: `${f.def} (default)` }));
+      for (const [v, text] of f.choices) s.append(el(doc, 'option', { value: v, text }));
+      const cur = value === undefined ? (f.optional ? '' : f.value) : value;
+      s.value = [...s.options].some((o) => o.value === cur) ? cur : (f.optional ? '' : f.choices[0][0]);
+      const chosen = f.choices.find(([v]) => v === s.value);
+      if (chosen && chosen[2]) help.textContent = `${explain(f)} ${chosen[2]}`;
+      wrap.append(label(), s, help);
+      break;
+    }
+    case 'tagged': {
+      const tag = f.tag || 'kind';
+      const obj = value && typeof value === 'object' ? value : null;
+      const tagPath = `${path}.${tag}`;
+      const s = el(doc, 'select', { ...common, id: idOf(tagPath), dataset: { path: tagPath, type: 'tag', optional: String(!!f.optional) } });
+      if (f.optional) s.append(el(doc, 'option', { value: '', text: `${f.def} (default)` }));
+      for (const [v, text] of f.choices) s.append(el(doc, 'option', { value: v, text }));
+      s.value = obj && [...s.options].some((o) => o.value === obj[tag]) ? obj[tag] : (f.optional ? '' : f.choices[0][0]);
+      const lab = el(doc, 'label', { for: idOf(tagPath), text: `${opts.labelPrefix || ''}${f.label}` });
+      const box = el(doc, 'div', { className: 'sub' });
+      box.append(lab, s, help);
+      const sub = obj ? f.fields[obj[tag]] || [] : [];
+      if (sub.length) {
+        const grid = el(doc, 'div', { className: 'grid-fields' });
+        for (const g of sub) {
+          if (g.when && !g.when(env)) continue;
+          grid.append(fieldControl(doc, g, `${path}.${g.key}`, obj[g.key], env, { labelPrefix: '' }));
+        }
+        box.append(grid);
+      }
+      wrap.append(box);
+      break;
+    }
+    case 'object': {
+      const obj = value && typeof value === 'object' ? value : {};
+      const fs = el(doc, 'fieldset', { className: 'subgroup' });
+      fs.append(el(doc, 'legend', { text: `${opts.labelPrefix || ''}${f.label}` }));
+      const grid = el(doc, 'div', { className: 'grid-fields' });
+      for (const g of f.fields) {
+        if (g.when && !g.when(env)) continue;
+        grid.append(fieldControl(doc, g, `${path}.${g.key}`, obj[g.key], env));
+      }
+      fs.append(grid);
+      wrap.append(fs);
+      break;
+    }
+    default:
+      throw new Error(`settings: unknown field type ${f.type}`);
+  }
+  return wrap;
+}
+
+/** Draw fields into a container: their values from `obj`, paths under `prefix`. */
+function drawFields(doc, container, fields, obj, prefix, env) {
+  const grid = el(doc, 'div', { className: 'grid-fields' });
+  for (const f of fields) {
+    if (f.when && !f.when(env)) continue;
+    grid.append(fieldControl(doc, f, prefix ? `${prefix}.${f.key}` : f.key, obj ? obj[f.key] : undefined, env));
+  }
+  container.replaceChildren(grid);
+}
+
+// ---------------------------------------------------------------- reward editor
+
+/** Formula and constants kept while a reward is switched to the task's own. */
+const rewardStash = new Map();
+
+/**
+ * A reward editor for the reward object at `path` ('reward' or
+ * 'variants[i].reward'). `reward` may be undefined (the task's own).
+ */
+function rewardEditor(doc, path, reward, { caption = 'Reward the learners train on' } = {}) {
+  const r = reward && typeof reward === 'object' ? reward : { mode: 'base' };
+  const mode = REWARD_MODES.some(([m]) => m === r.mode) ? r.mode : 'base';
+  const box = el(doc, 'div', { className: 'reward', dataset: { rewardPath: path } });
+  const group = el(doc, 'div', { className: 'segmented wrap', role: 'radiogroup', 'aria-label': caption });
+  for (const [m, text, help] of REWARD_MODES) {
+    const id = `${idOf(path)}-mode-${m}`;
+    const input = el(doc, 'input', { type: 'radio', name: `${idOf(path)}-mode`, id, value: m, checked: m === mode, dataset: { rewardMode: path } });
+    group.append(input, el(doc, 'label', { for: id, text, title: help }));
+  }
+  const modeHelp = el(doc, 'p', { className: 'help', text: (REWARD_MODES.find(([m]) => m === mode) || [])[2] || '' });
+  box.append(group, modeHelp);
+  if (mode !== 'base') {
+    const fid = idOf(`${path}.formula`);
+    const ta = el(doc, 'textarea', {
+      id: fid, className: 'formula', rows: 3, spellcheck: false, autocomplete: 'off', value: typeof r.formula === 'string' ? r.formula : '',
+      dataset: { path: `${path}.formula`, type: 'text', formula: path }, 'aria-describedby': `${fid}-status ${fid}-help`,
+    });
+    const status = el(doc, 'div', { className: 'formula-status', id: `${fid}-status`, 'aria-live': 'polite' });
+    const help = el(doc, 'p', { className: 'help', id: `${fid}-help`, text: mode === 'potential'
+      ? 'Φ(s) of the current state only (no primes, no action). Operators + − * / ^, comparisons, and, or, not, if … then … else, functions such as abs, min, max, exp, sqrt. Default: none; at most 4096 characters.'
+      : 'Use state variables (row, row′ written row\' for the next state), action, base, terminal, t, gamma and your constants; operators + − * / ^, comparisons, and, or, not, if … then … else, functions such as abs, min, max. At most 4096 characters.' });
+    const names = el(doc, 'details', { className: 'names' });
+    names.append(el(doc, 'summary', { text: 'Names you can use' }), el(doc, 'ul', { className: 'name-list', dataset: { namesFor: path } }));
+    const cid = idOf(`${path}.constants`);
+    const consts = el(doc, 'textarea', {
+      id: cid, rows: Math.min(6, Math.max(2, Object.keys(r.constants || {}).length + 1)), spellcheck: false, autocomplete: 'off', value: constantsText(r.constants), placeholder: 'dock_row = 5',
+      dataset: { path: `${path}.constants`, type: 'constants' }, 'aria-describedby': `${cid}-help`,
+    });
+    box.append(
+      el(doc, 'label', { for: fid, text: mode === 'potential' ? 'Potential Φ(s)' : mode === 'bonus' ? 'Bonus formula' : 'Reward formula' }),
+      ta, status, help, names,
+      el(doc, 'label', { for: cid, text: 'Constants' }), consts,
+      el(doc, 'p', { className: 'help', id: `${cid}-help`, text: 'One per line: name = value. Default none; at most 32, finite values.' }),
+    );
+  }
+  return box;
+}
+
+/** Switch a reward's mode (from a radio button). Returns nothing; the caller redraws. */
+export function setRewardMode(config, path, mode) {
+  const cur = getAt(config, path);
+  const isVariant = path !== 'reward';
+  if (mode === 'base') {
+    if (cur && (cur.formula || cur.constants)) rewardStash.set(path, { formula: cur.formula, constants: cur.constants });
+    if (isVariant) setAt(config, path, { mode: 'base' }); else deleteAt(config, path);
+    return;
+  }
+  const kept = rewardStash.get(path) || {};
+  const next = { mode, formula: cur?.formula ?? kept.formula ?? '', ...(cur?.constants || kept.constants ? { constants: cur?.constants ?? kept.constants } : {}) };
+  setAt(config, path, next);
+}
+
+/**
+ * Show a formula check (checkFormula's JSON) under its textarea: the error
+ * with its place marked, or the formula as the core reads it.
+ */
+export function showFormulaCheck(doc, textarea, report) {
+  const status = doc.getElementById(`${textarea.id}-status`);
+  if (!status) return;
+  const text = textarea.value;
+  status.replaceChildren();
+  status.classList.remove('bad', 'ok');
+  if (!report) return;
+  if (report.ok) {
+    status.classList.add('ok');
+    status.append(el(doc, 'span', { text: 'Reads as ' }), el(doc, 'code', { text: report.pretty || text }));
+    textarea.removeAttribute('aria-invalid');
+  } else {
+    status.classList.add('bad');
+    textarea.setAttribute('aria-invalid', 'true');
+    const e = (report.errors || [])[0] || {};
+    const start = Math.max(0, Math.min(text.length, e.start ?? 0));
+    const end = Math.max(start, Math.min(text.length, e.end ?? start));
+    const mirror = el(doc, 'div', { className: 'formula-mirror', 'aria-hidden': 'true' });
+    mirror.append(doc.createTextNode(text.slice(0, start)), el(doc, 'mark', { text: text.slice(start, end) || ' ' }), doc.createTextNode(text.slice(end)));
+    const msg = `column ${e.column ?? start + 1}: ${e.message || 'not a valid formula'}${e.hint ? ` (${e.hint})` : ''}`;
+    status.append(mirror, el(doc, 'p', { className: 'formula-error', text: msg }));
+  }
+  const list = doc.querySelector(`[data-names-for="${CSS.escape(textarea.dataset.formula)}"]`);
+  if (list && Array.isArray(report.names)) {
+    list.replaceChildren(...report.names.map((n) => {
+      const b = el(doc, 'button', { type: 'button', className: 'name', text: n.name, title: n.doc, dataset: { insert: n.name, into: textarea.id } });
+      return el(doc, 'li', {}, b, el(doc, 'span', { className: 'help', text: ` ${n.doc}` }));
+    }));
+  }
+}
+
+// ---------------------------------------------------------------- the sheet
+
+/** The environment `when` conditions see for a learner setup. */
+export function envFor(config, setup) {
+  const task = (config && config.task) || {};
+  return { setup: setup || {}, task, ...taskFacts(task) };
+}
+
+/** Fill the task kind list once. */
+function ensureTaskKinds(els) {
+  if (els.taskKind.options.length) return;
+  for (const [kind, t] of Object.entries(TASKS)) {
+    els.taskKind.append(el(els.doc, 'option', { value: kind, text: t.label }));
+  }
+}
+
+/** Draw the whole form from a config. */
+export function renderSheet(els, config) {
+  const doc = els.doc;
+  ensureTaskKinds(els);
+  els.title.value = typeof config.title === 'string' ? config.title : '';
+  const task = config.task && typeof config.task === 'object' ? config.task : {};
+  const kind = TASKS[task.kind] ? task.kind : '';
+  if (!kind) {
+    if (!els.taskKind.querySelector('option[value=""]')) els.taskKind.prepend(el(doc, 'option', { value: '', text: '(unknown task)' }));
+  } else {
+    els.taskKind.querySelector('option[value=""]')?.remove();
+  }
+  els.taskKind.value = kind;
+  els.taskBlurb.textContent = kind ? TASKS[kind].blurb : `This page does not know the task kind ${JSON.stringify(task.kind)}.`;
+  const baseEnv = envFor(config, config.base);
+  drawFields(doc, els.taskFields, kind ? TASKS[kind].fields : [], task, 'task', baseEnv);
+  els.reward.replaceChildren(rewardEditor(doc, 'reward', config.reward));
+  drawFields(doc, els.baseFields, LEARNER_FIELDS, config.base || {}, 'base', baseEnv);
+  renderVariants(els, config);
+  for (const input of els.form.querySelectorAll('[data-static]')) {
+    input.value = fmtValue(config[input.dataset.path]);
+  }
+}
+
+function fieldByKey(key) {
+  return LEARNER_FIELDS.find((f) => f.key === key);
+}
+
+/** Rebuild the variant cards from config.variants. */
+export function renderVariants(els, config) {
+  const doc = els.doc;
+  const variants = Array.isArray(config.variants) ? config.variants : [];
+  els.variants.replaceChildren(...variants.map((v, i) => variantCard(doc, config, v, i, variants.length)));
+}
+
+function variantCard(doc, config, variant, i, count) {
+  const v = variant && typeof variant === 'object' ? variant : {};
+  const learner = v.learner && typeof v.learner === 'object' ? v.learner : {};
+  const setup = merge(config.base || {}, learner);
+  const env = envFor(config, setup);
+  const li = el(doc, 'li', { className: 'variant', dataset: { index: String(i) } });
+  const labelPath = `variants[${i}].label`;
+  const labelId = idOf(labelPath);
+  const head = el(doc, 'div', { className: 'head' });
+  const labelBox = el(doc, 'div', { className: 'field' },
+    el(doc, 'label', { for: labelId, text: `Variant ${i + 1} label` }),
+    el(doc, 'input', { id: labelId, type: 'text', autocomplete: 'off', spellcheck: false, value: String(v.label ?? ''), dataset: { path: labelPath, type: 'text' }, 'aria-describedby': `${labelId}-help` }));
+  const tools = el(doc, 'div', { className: 'tools' },
+    el(doc, 'button', { type: 'button', className: 'quiet small', text: 'Duplicate', dataset: { duplicate: String(i) }, 'aria-label': `Duplicate variant ${i + 1}`, disabled: count >= 8 }),
+    el(doc, 'button', { type: 'button', className: 'quiet small remove', text: 'Remove', dataset: { remove: String(i) }, 'aria-label': `Remove variant ${i + 1}`, disabled: count <= 1 }));
+  head.append(labelBox, tools);
+  li.append(head, el(doc, 'p', { className: 'help', id: `${labelId}-help`, text: 'Shown in the plots and tables; 1 to 60 characters, unique.' }));
+
+  const list = el(doc, 'ul', { className: 'overrides', 'aria-label': `Settings variant ${i + 1} changes` });
+  const known = LEARNER_FIELDS.map((f) => f.key);
+  const keys = [...known.filter((k) => k in learner), ...Object.keys(learner).filter((k) => !known.includes(k))];
+  for (const key of keys) {
+    const f = fieldByKey(key);
+    const row = el(doc, 'li', { className: 'override' });
+    const path = `variants[${i}].learner.${key}`;
+    if (f) {
+      row.append(fieldControl(doc, f, path, learner[key], env));
+    } else {
+      row.append(el(doc, 'p', { className: 'help', text: `${key} = ${JSON.stringify(learner[key])} (not a setting this page knows; kept as it is)` }));
+    }
+    row.append(el(doc, 'button', { type: 'button', className: 'quiet small drop', text: '×', dataset: { drop: path }, 'aria-label': `Use the shared ${f ? f.label : key} in variant ${i + 1}` }));
+    list.append(row);
+  }
+  if (v.reward !== undefined) {
+    const row = el(doc, 'li', { className: 'override' });
+    const fs = el(doc, 'fieldset', { className: 'subgroup' });
+    fs.append(el(doc, 'legend', { text: 'Own reward' }), rewardEditor(doc, `variants[${i}].reward`, v.reward, { caption: `Reward of variant ${i + 1}` }));
+    row.append(fs, el(doc, 'button', { type: 'button', className: 'quiet small drop', text: '×', dataset: { drop: `variants[${i}].reward` }, 'aria-label': `Use the shared reward in variant ${i + 1}` }));
+    list.append(row);
+  }
+  if (!keys.length && v.reward === undefined) {
+    list.append(el(doc, 'li', { className: 'same help', text: 'Same as the shared learner and reward.' }));
+  }
+  li.append(list);
+
+  const addId = `${idOf(`variants[${i}]`)}-add`;
+  const add = el(doc, 'select', { id: addId, dataset: { addOverride: String(i) } });
+  add.append(el(doc, 'option', { value: '', text: 'Change a setting for this variant…' }));
+  for (const f of overridable(env)) {
+    if (!(f.key in learner)) add.append(el(doc, 'option', { value: f.key, text: f.label }));
+  }
+  if (v.reward === undefined) add.append(el(doc, 'option', { value: '#reward', text: 'Its own reward' }));
+  li.append(el(doc, 'div', { className: 'field add' }, el(doc, 'label', { for: addId, className: 'visually-hidden', text: `Change a setting for variant ${i + 1}` }), add));
+  return li;
+}
+
+/** Start overriding `key` in variant i: the shared value (or the default) first. */
+export function addOverride(config, i, key) {
+  const v = config.variants[i];
+  if (key === '#reward') {
+    v.reward = copy(config.reward) || { mode: 'base' };
+    return `variants[${i}].reward`;
+  }
+  const f = fieldByKey(key);
+  if (!f) return '';
+  const shared = config.base ? config.base[key] : undefined;
+  let start = copy(shared);
+  if (start === undefined) {
+    if (f.type === 'object') start = {};
+    else if (f.type === 'tagged') start = { [f.tag || 'kind']: f.choices[0][0] };
+    else start = f.value;
+  }
+  v.learner = { ...(v.learner && typeof v.learner === 'object' ? v.learner : {}), [key]: start ?? null };
+  if (v.learner[key] === null) delete v.learner[key];
+  return `variants[${i}].learner.${key}`;
+}
+
+/** Stop overriding (path 'variants[i].learner.key' or 'variants[i].reward'). */
+export function dropOverride(config, path) {
+  deleteAt(config, path);
+  const m = /^variants\[(\d+)\]/.exec(path);
+  if (m) {
+    const v = config.variants[Number(m[1])];
+    if (v && v.learner && Object.keys(v.learner).length === 0) delete v.learner;
+  }
+}
+
+/** Switch the task kind, keeping each kind's last settings for a switch back. */
+const taskMemo = new Map();
+export function switchTask(config, kind) {
+  const old = config.task;
+  if (old && old.kind) taskMemo.set(old.kind, copy(old));
+  config.task = taskMemo.get(kind) || (kind === 'grid' ? { kind: 'grid', layout: 'rover' } : { kind });
+  // Tabular features need a finite task: fall back to the default features.
+  if (!taskFacts(config.task).finite && config.base && config.base.features && config.base.features.kind === 'tabular') {
+    delete config.base.features;
+  }
 }
 
 /** A new variant for the list: a label not yet used, every learner field shared. */
@@ -354,6 +606,16 @@ export function newVariant(config) {
   let n = (config.variants || []).length + 1;
   while (used.has(`Variant ${n}`)) n++;
   return { label: `Variant ${n}` };
+}
+
+/** A copy of variant i with a label not yet used. */
+export function duplicateVariant(config, i) {
+  const v = copy(config.variants[i]);
+  const used = new Set((config.variants || []).map((x) => x.label));
+  let label = `${v.label} (copy)`;
+  for (let n = 2; used.has(label); n++) label = `${v.label} (copy ${n})`;
+  v.label = label.slice(0, 60);
+  return v;
 }
 
 /**
@@ -369,7 +631,7 @@ export function pathOfMessage(message) {
 export function controlForPath(els, path) {
   let p = path;
   while (p) {
-    const hits = [...els.form.querySelectorAll('[data-path]')].filter((el) => el.dataset.path === p && !el.closest('[hidden]'));
+    const hits = [...els.form.querySelectorAll('[data-path]')].filter((e) => e.dataset.path === p && !e.closest('[hidden]'));
     if (hits.length) return hits[0];
     const cut = Math.max(p.lastIndexOf('.'), p.lastIndexOf('['));
     p = cut > 0 ? p.slice(0, cut) : '';

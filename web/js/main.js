@@ -11,10 +11,8 @@ import {
   keepEpisodes, jobEpisodes, stepsCounted,
 } from './state.js';
 import { drawCurves, drawSample, sizeCanvas, seriesStyle } from './chart.js';
-import {
-  findControls, writeForm, readForm, refreshForm, renderVariants, newVariant,
-  pathOfMessage, controlForPath, DEFAULT_GRID_TASK,
-} from './controls.js';
+import { findControls, pathOfMessage, controlForPath, DEFAULT_GRID_TASK } from './controls.js';
+import { bindForm } from './form.js';
 import {
   renderScores, renderComparisons, renderAdvisor, SCORE_COLUMNS, COMPARISON_COLUMNS, ADVISOR_COLUMNS,
 } from './tables.js';
@@ -79,6 +77,8 @@ const ui = {
 };
 let pool = null;
 let drawPending = false;
+let lastBusy = null;
+const form = bindForm(state, els, { onEdit, onPreset: (file) => choosePreset(file), isBusy: () => isActive() });
 let progressTimer = 0;
 
 // For tests and for curious people in the console: read-only by convention.
@@ -126,13 +126,10 @@ function isActive() {
   return !!state.run && (state.run.status === 'running' || state.run.status === 'paused');
 }
 
-/** Read the form into state.config and check it. */
-function revalidate() {
+/** After every edit of the config (form.js calls it). */
+function onEdit() {
   if (!state.config) return;
-  refreshForm(els);
-  const { config, error } = readForm(els, state.config);
-  state.config = config;
-  checkConfig(error);
+  checkConfig();
 }
 
 let saveTimer = 0;
@@ -146,8 +143,9 @@ function scheduleSaveExperiment() {
   }, 300);
 }
 
-function checkConfig(formError = null) {
+function checkConfig() {
   const config = state.config;
+  const formError = state.formErrors.size ? { path: state.formErrors.keys().next().value, message: state.formErrors.values().next().value.message } : null;
   scheduleSaveExperiment();
   if (formError) {
     state.check = { ok: false, message: formError.message, path: formError.path };
@@ -192,7 +190,7 @@ function renderButtons() {
   ui.pause.disabled = !active;
   ui.cancel.disabled = !active;
   ui.pause.textContent = state.run && state.run.status === 'paused' ? 'Resume' : 'Pause';
-  els.preset.disabled = active;
+  if (active !== lastBusy) { lastBusy = active; form.renderPresets(); }
   const interrupted = !!state.run && state.run.status === 'interrupted';
   ui.resume.hidden = !interrupted;
   if (interrupted) {
@@ -223,37 +221,26 @@ async function loadPreset(file) {
 }
 
 function renderPresetPicker() {
-  const opts = state.presets.map((p) => {
-    const o = document.createElement('option');
-    o.value = p.file;
-    o.textContent = typeof p.title === 'string' && p.title ? p.title : p.file;
-    return o;
-  });
-  if (!state.presetFile || !state.presets.some((p) => p.file === state.presetFile)) {
-    const o = document.createElement('option');
-    o.value = '';
-    o.textContent = state.presets.length ? '(your own experiment)' : '(no presets found)';
-    opts.unshift(o);
-  }
-  els.preset.replaceChildren(...opts);
-  els.preset.value = state.presetFile;
+  form.renderPresets();
 }
 
 function applyConfig(config) {
-  state.config = config;
-  writeForm(els, config);
-  revalidate();
+  state.config = config && typeof config === 'object' ? config : {};
+  state.formErrors.clear();
+  form.redraw();
+  checkConfig();
 }
 
 async function choosePreset(file) {
+  if (isActive()) return;
   try {
     const config = await loadPreset(file);
     state.presetFile = file;
     applyConfig(config);
     renderPresetPicker();
+    showNote(`Loaded the preset "${state.presets.find((p) => p.file === file)?.title || file}". Press Train to run it.`);
   } catch (err) {
     showError(messageOf(err));
-    els.preset.value = state.presetFile;
   }
 }
 
@@ -814,7 +801,6 @@ function statusWord(run) {
 
 async function copyLink() {
   if (!state.config) return;
-  revalidate();
   let link;
   try {
     link = linkFor(await encodeConfig(state.config));
@@ -913,33 +899,6 @@ function bindTabs() {
 // ---------------------------------------------------------------- events
 
 function bind() {
-  els.form.addEventListener('input', (e) => {
-    if (e.target === els.preset) return;
-    revalidate();
-  });
-  els.form.addEventListener('change', (e) => {
-    if (e.target === els.preset) return;
-    revalidate();
-  });
-  els.form.addEventListener('submit', (e) => e.preventDefault());
-  els.preset.addEventListener('change', () => { if (els.preset.value) choosePreset(els.preset.value); });
-  els.addVariant.addEventListener('click', () => {
-    if (!state.config) return;
-    revalidate();
-    state.config.variants = [...(state.config.variants || []), newVariant(state.config)];
-    renderVariants(els, state.config);
-    revalidate();
-    els.variants.lastElementChild?.querySelector('input')?.focus();
-  });
-  els.variants.addEventListener('click', (e) => {
-    const b = e.target.closest('button[data-remove]');
-    if (!b || !state.config) return;
-    revalidate();
-    const i = Number(b.dataset.remove);
-    state.config.variants = state.config.variants.filter((_, k) => k !== i);
-    renderVariants(els, state.config);
-    revalidate();
-  });
   ui.train.addEventListener('click', startRun);
   ui.pause.addEventListener('click', togglePause);
   ui.cancel.addEventListener('click', cancelRun);

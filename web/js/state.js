@@ -26,6 +26,7 @@ export function createState() {
     summary: null,
     view: { stat: 'mean', seedLines: false, tab: 'results' },
     messages: [],
+    formErrors: new Map(), // config path → {path, message} for text the form cannot read
   };
 }
 

@@ -1,0 +1,195 @@
+// The experiment sheet's behaviour: every edit goes into the config at the
+// control's path (controls.applyInput), structural edits redraw the sheet,
+// formulas are checked live by the core as they are typed, and the preset
+// list starts an experiment in one click. main.js owns the state and gets
+// told through hooks.onEdit() after every change to the config.
+
+import {
+  renderSheet, applyInput, setRewardMode, showFormulaCheck, addOverride, dropOverride, switchTask,
+  newVariant, duplicateVariant, getAt, idOf,
+} from './controls.js';
+import { messageOf } from './wasm.js';
+
+/**
+ * Wire the sheet.
+ * @param {object} state  app state (config, wasm, presets, presetFile, formErrors)
+ * @param {object} els    findControls(document)
+ * @param {object} hooks  {onEdit(), onPreset(file), isBusy()}
+ * @returns {{redraw(focusId?), renderPresets(), checkFormulas()}}
+ */
+export function bindForm(state, els, hooks) {
+  const doc = els.doc;
+
+  function redraw(focusId) {
+    const active = focusId || (doc.activeElement && els.form.contains(doc.activeElement) ? doc.activeElement.id : '');
+    const scroll = els.form.scrollTop;
+    renderSheet(els, state.config);
+    state.formErrors.clear();
+    els.form.scrollTop = scroll;
+    if (active) {
+      const again = doc.getElementById(active);
+      if (again) again.focus({ preventScroll: !focusId });
+    }
+    checkFormulas();
+  }
+
+  /** Check every formula on the sheet with the core (checkFormula). */
+  function checkFormulas() {
+    for (const ta of els.form.querySelectorAll('textarea[data-formula]')) checkFormula(ta);
+  }
+
+  function checkFormula(ta) {
+    const wasm = state.wasm;
+    if (!wasm || typeof wasm.checkFormula !== 'function' || !state.config) return;
+    const rewardPath = ta.dataset.formula;
+    const reward = getAt(state.config, rewardPath) || {};
+    let report;
+    try {
+      report = JSON.parse(wasm.checkFormula(ta.value, JSON.stringify({
+        task: state.config.task,
+        reward: { mode: reward.mode || 'base', ...(reward.constants ? { constants: reward.constants } : {}) },
+      })));
+    } catch (err) {
+      report = { ok: false, errors: [{ start: 0, end: 0, column: 1, message: messageOf(err), hint: '' }] };
+    }
+    showFormulaCheck(doc, ta, report);
+  }
+
+  function afterEdit(el, structural) {
+    if (structural) redraw(el && el.id);
+    else if (el && el.closest('.reward')) {
+      const ta = el.closest('.reward').querySelector('textarea[data-formula]');
+      if (ta) checkFormula(ta);
+    }
+    hooks.onEdit();
+  }
+
+  function onValue(e) {
+    const el = e.target;
+    if (!state.config || !(el instanceof HTMLElement)) return;
+    if (el.dataset.type === 'task-kind') {
+      if (e.type !== 'change') return;
+      switchTask(state.config, el.value);
+      afterEdit(el, true);
+      return;
+    }
+    if (el.dataset.rewardMode) {
+      if (e.type !== 'change' || !el.checked) return;
+      setRewardMode(state.config, el.dataset.rewardMode, el.value);
+      afterEdit(el, true);
+      return;
+    }
+    if (el.dataset.addOverride !== undefined) {
+      if (e.type !== 'change' || !el.value) return;
+      const i = Number(el.dataset.addOverride);
+      const path = addOverride(state.config, i, el.value);
+      redraw();
+      focusPath(path);
+      hooks.onEdit();
+      return;
+    }
+    if (!el.dataset.path) return;
+    // Text fields act on every keystroke, choices when they change.
+    const texty = el.tagName === 'TEXTAREA' || (el.tagName === 'INPUT' && el.type === 'text');
+    if (texty !== (e.type === 'input')) return;
+    const r = applyInput(state.config, el);
+    if (r.error) state.formErrors.set(el.dataset.path, r.error); else state.formErrors.delete(el.dataset.path);
+    afterEdit(el, r.structural && !texty);
+    if (r.structural && texty && el.dataset.type === 'constants') {
+      const ta = el.closest('.reward')?.querySelector('textarea[data-formula]');
+      if (ta) checkFormula(ta);
+    }
+  }
+
+  function focusPath(path) {
+    const target = doc.getElementById(idOf(path)) || doc.getElementById(idOf(`${path}.kind`))
+      || doc.querySelector(`[data-path^="${CSS.escape(path)}"]`)
+      || doc.querySelector(`[data-reward-path="${CSS.escape(path)}"] input`);
+    if (target) target.focus();
+  }
+
+  function onClick(e) {
+    const b = e.target.closest('button');
+    if (!b || !state.config || !els.form.contains(b)) return;
+    if (b.dataset.insert) {
+      const ta = doc.getElementById(b.dataset.into);
+      if (!ta) return;
+      const at = ta.selectionStart ?? ta.value.length;
+      const end = ta.selectionEnd ?? at;
+      ta.setRangeText(b.dataset.insert, at, end, 'end');
+      ta.focus();
+      ta.dispatchEvent(new Event('input', { bubbles: true }));
+      return;
+    }
+    const variants = state.config.variants || [];
+    if (b.dataset.drop) {
+      dropOverride(state.config, b.dataset.drop);
+      const m = /^variants\[(\d+)\]/.exec(b.dataset.drop);
+      redraw();
+      if (m) doc.getElementById(`${idOf(`variants[${m[1]}]`)}-add`)?.focus();
+      hooks.onEdit();
+    } else if (b.dataset.remove !== undefined) {
+      const i = Number(b.dataset.remove);
+      state.config.variants = variants.filter((_, k) => k !== i);
+      redraw();
+      const next = Math.min(i, state.config.variants.length - 1);
+      doc.getElementById(idOf(`variants[${next}].label`))?.focus();
+      hooks.onEdit();
+    } else if (b.dataset.duplicate !== undefined) {
+      const i = Number(b.dataset.duplicate);
+      state.config.variants = [...variants.slice(0, i + 1), duplicateVariant(state.config, i), ...variants.slice(i + 1)];
+      redraw();
+      doc.getElementById(idOf(`variants[${i + 1}].label`))?.focus();
+      hooks.onEdit();
+    } else if (b === els.addVariant) {
+      state.config.variants = [...variants, newVariant(state.config)];
+      redraw();
+      doc.getElementById(idOf(`variants[${state.config.variants.length - 1}].label`))?.focus();
+      hooks.onEdit();
+    }
+  }
+
+  function renderPresets() {
+    const list = els.presets;
+    if (!state.presets.length) {
+      const li = doc.createElement('li');
+      li.className = 'help';
+      li.textContent = 'No presets found.';
+      list.replaceChildren(li);
+      return;
+    }
+    list.replaceChildren(...state.presets.map((p) => {
+      const li = doc.createElement('li');
+      const b = doc.createElement('button');
+      b.type = 'button';
+      b.className = 'preset';
+      b.dataset.preset = p.file;
+      b.setAttribute('aria-pressed', String(p.file === state.presetFile));
+      const title = doc.createElement('span');
+      title.className = 'preset-title';
+      title.textContent = typeof p.title === 'string' && p.title ? p.title : p.file;
+      b.append(title);
+      if (typeof p.question === 'string' && p.question) {
+        const q = doc.createElement('span');
+        q.className = 'preset-question';
+        q.textContent = p.question;
+        b.append(q);
+      }
+      b.disabled = hooks.isBusy();
+      li.append(b);
+      return li;
+    }));
+  }
+
+  els.form.addEventListener('input', onValue);
+  els.form.addEventListener('change', onValue);
+  els.form.addEventListener('click', onClick);
+  els.form.addEventListener('submit', (e) => e.preventDefault());
+  els.presets.addEventListener('click', (e) => {
+    const b = e.target.closest('button[data-preset]');
+    if (b && !b.disabled) hooks.onPreset(b.dataset.preset);
+  });
+  els.showHelp.addEventListener('change', () => els.form.classList.toggle('no-help', !els.showHelp.checked));
+
+  return { redraw, renderPresets, checkFormulas };
+}
