@@ -2,7 +2,8 @@
 //!
 //! `critbox run CONFIG.json` runs an experiment config with the same core
 //! the page uses and prints one JSON summary on stdout; `critbox validate`
-//! only checks a config; `critbox serve` serves the page on 127.0.0.1.
+//! only checks a config; `critbox audit` prints the shaping audit of a
+//! config's rewards; `critbox serve` serves the page on 127.0.0.1.
 //! Exit codes: 0 success, 2 bad input (config or usage), 1 other failures.
 
 mod serve;
@@ -18,6 +19,9 @@ usage:
                                    --save a results file that `critbox open` and the page reopen
   critbox open RESULTS.json        print the summary of a saved results file without re-running
   critbox validate CONFIG.json     check a config; print its plan or the problems
+  critbox audit CONFIG.json        shaping audit of the config's rewards as JSON: on a finite task,
+                                   whether each reward changes the optimal policy (potential_based,
+                                   policy_changed, differing_states, base_value_loss)
   critbox serve [--root DIR] [--port N]
                                    serve the page on 127.0.0.1 (default root web, port 8000)
   critbox help                     this text
@@ -113,6 +117,10 @@ fn run(args: &[String]) -> Result<(), Failure> {
             let (_, results) = critbox_core::experiment::export::load(&text)
                 .map_err(|e| Failure::BadInput(format!("{path}: {e}")))?;
             print_json(&results.summary())
+        }
+        "audit" => {
+            let plan = plan_of(&one_arg(rest, "audit")?)?;
+            print_json(&critbox_core::reward::audit::audit_plan(&plan))
         }
         "validate" => {
             let plan = plan_of(&one_arg(rest, "validate")?)?;

@@ -43,6 +43,37 @@ pub fn validate_config(json: &str) -> Result<String, JsError> {
     Ok(v.to_string())
 }
 
+/// Checks a reward formula as the user types. `text` is the formula;
+/// `config_json` holds at least `task` and may hold `reward` (its `mode` and
+/// `constants` are used, its `formula` ignored), e.g. a whole config, or
+/// `{"task": ..., "reward": variant.reward}` to check a variant's formula.
+/// Returns JSON `{ok, errors: [{start, end, column, message, hint}], pretty,
+/// uses, names: [{name, kind, doc}]}`; `start`/`end` are JavaScript string
+/// positions (UTF-16 code units) for marking the text. Throws only when the
+/// task or the reward's mode/constants cannot be read.
+#[wasm_bindgen(js_name = checkFormula)]
+pub fn check_formula(text: &str, config_json: &str) -> Result<String, JsError> {
+    let v: serde_json::Value = serde_json::from_str(config_json).map_err(|e| {
+        JsError::new(&format!("not valid JSON at line {} column {}: {e}", e.line(), e.column()))
+    })?;
+    let task = task_of(&v.get("task").cloned().unwrap_or(serde_json::Value::Null).to_string())?;
+    let reward: critbox_core::reward::RewardConfig = match v.get("reward") {
+        None => Default::default(),
+        Some(r) => serde_json::from_value(r.clone()).map_err(|e| JsError::new(&format!("reward: {e}")))?,
+    };
+    Ok(critbox_core::reward::check_report(text, task.spec(), &reward).to_string())
+}
+
+/// The shaping audit of a config, the same JSON as `critbox audit` prints:
+/// `potential_based`, `policy_changed`, `differing_states` (each with
+/// `row`/`col` on a grid), `base_value_loss`, … for the config's `reward`,
+/// and the same per variant under `variants`. Throws on a bad config.
+#[wasm_bindgen]
+pub fn audit(config_json: &str) -> Result<String, JsError> {
+    let plan = plan_of(config_json)?;
+    Ok(critbox_core::reward::audit::audit_plan(&plan).to_string())
+}
+
 /// The jobs of a plan owned by one worker.
 #[wasm_bindgen]
 pub struct Run {
@@ -243,6 +274,23 @@ impl Results {
         }
         let mut out = Vec::new();
         for p in self.inner.curve(variant as usize) {
+            out.extend_from_slice(&[p.step as f64, p.mean, p.lo, p.hi, p.n as f64]);
+        }
+        Ok(out)
+    }
+
+    /// A variant's curve of the shaped return (what the learner was trained
+    /// on), stride 5 per bin as [`Results::curve`] (Student-t bounds).
+    #[wasm_bindgen(js_name = curveShaped)]
+    pub fn curve_shaped(&self, variant: u32) -> Result<Vec<f64>, JsError> {
+        if variant as usize >= self.variants {
+            return Err(JsError::new(&format!(
+                "variant {variant} is out of range ({} variants)",
+                self.variants
+            )));
+        }
+        let mut out = Vec::new();
+        for p in self.inner.shaped_curve(variant as usize) {
             out.extend_from_slice(&[p.step as f64, p.mean, p.lo, p.hi, p.n as f64]);
         }
         Ok(out)

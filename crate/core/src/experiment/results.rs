@@ -252,8 +252,9 @@ impl Results {
 
     /// The reward-hacking signal of a variant (see
     /// [`crate::reward::audit::trend`]): per seed, whether the shaped return
-    /// rose while the base return fell between the start and the end of the
-    /// run; `flag` when more than half of the seeds say so.
+    /// rose while the base return fell (or rose by less than half as much)
+    /// between the start and the end of the run; `flag` when more than half
+    /// of the seeds say so.
     pub fn hacking(&self, variant: usize) -> Value {
         let trends: Vec<_> = (0..self.seeds)
             .map(|s| {

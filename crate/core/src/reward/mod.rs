@@ -248,6 +248,55 @@ impl RewardConfig {
     }
 }
 
+/// The live check of a formula for an editor: `text` is checked as the
+/// formula of `reward` (whose own `formula` is ignored) on a task. Returns
+/// JSON `{ok, errors: [{start, end, column, message, hint}], pretty, uses,
+/// names: [{name, kind, doc}]}` where `start`/`end` count UTF-16 code units
+/// (JavaScript string positions), `pretty` is the canonical text (null
+/// unless ok) and `uses` says which inputs the formula reads. Problems with
+/// the constants are errors at position 0 whose message starts with
+/// `constants.NAME:`.
+pub fn check_report(text: &str, spec: &TaskSpec, reward: &RewardConfig) -> serde_json::Value {
+    use serde_json::json;
+    let cfg = RewardConfig { formula: text.to_string(), ..reward.clone() };
+    let mut errors = Vec::new();
+    for p in cfg.constant_problems(spec) {
+        errors.push(json!({"start": 0, "end": 0, "column": 1, "message": p.to_string(), "hint": ""}));
+    }
+    let mut pretty = serde_json::Value::Null;
+    let mut uses = serde_json::Value::Null;
+    if errors.is_empty() {
+        match cfg.compile(spec, spec.default_discount) {
+            Ok(program) => {
+                if cfg.mode != Mode::Base {
+                    pretty = json!(cfg.pretty());
+                }
+                let u = program.as_ref().map(Program::uses).unwrap_or_default();
+                uses = json!({
+                    "state": u.state, "next": u.next, "action": u.action,
+                    "base": u.base, "terminal": u.terminal, "t": u.step,
+                });
+            }
+            Err(errs) => {
+                for e in errs {
+                    let (start, end) = e.utf16_span(text);
+                    errors.push(json!({
+                        "start": start, "end": end, "column": e.column, "message": e.message, "hint": e.hint,
+                    }));
+                }
+            }
+        }
+    }
+    let names: Vec<serde_json::Value> = cfg
+        .scope(spec, spec.default_discount)
+        .names()
+        .iter()
+        .filter(|n| cfg.mode != Mode::Potential || !matches!(n.binding, compile::Binding::Input(_)))
+        .map(|n| json!({"name": n.name, "kind": n.kind, "doc": n.doc}))
+        .collect();
+    json!({"ok": errors.is_empty(), "errors": errors, "pretty": pretty, "uses": uses, "names": names})
+}
+
 /// What a shaper needs to know about one step.
 #[derive(Clone, Copy, Debug)]
 pub struct StepInput<'a> {
