@@ -113,3 +113,34 @@ fn csv_and_saved_results_round_trip() {
     assert_eq!(bad.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&bad.stderr).contains("version 9"));
 }
+
+#[test]
+fn audit_prints_the_shaping_audit_and_refuses_bad_configs() {
+    // The loop bonus changes the optimal policy next to the dock (see
+    // crate/core/tests/reward.rs for the derived values); its potential twin
+    // does not (Ng, Harada & Russell 1999, Theorem 1).
+    let out = critbox().arg("audit").arg(preset("rover-loop-bonus.json")).output().unwrap();
+    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!(v["potential_based"], false);
+    assert_eq!(v["policy_changed"], true);
+    assert!(!v["differing_states"].as_array().unwrap().is_empty());
+    assert!(v["base_value_loss"].as_f64().unwrap() > 80.0);
+    let out = critbox().arg("audit").arg(preset("rover-potential-twin.json")).output().unwrap();
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    assert_eq!((v["potential_based"].as_bool(), v["policy_changed"].as_bool()), (Some(true), Some(false)));
+    assert_eq!(v["base_value_loss"], 0.0);
+    let dir = std::env::temp_dir().join(format!("critbox-cli-audit-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let p = dir.join("bad.json");
+    std::fs::write(
+        &p,
+        r#"{"schema": 1, "task": {"kind": "grid", "layout": "ledge"}, "steps": 100,
+            "reward": {"mode": "bonus", "formula": "rwo'"}, "variants": [{"label": "a"}]}"#,
+    )
+    .unwrap();
+    let out = critbox().arg("audit").arg(&p).output().unwrap();
+    assert_eq!(out.status.code(), Some(2));
+    let err = String::from_utf8_lossy(&out.stderr);
+    assert!(err.contains("reward.formula: column 1: unknown state variable `rwo`"), "{err}");
+}
