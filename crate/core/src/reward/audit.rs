@@ -346,8 +346,14 @@ pub fn shaped_model(task: &dyn Task, m: &FiniteModel, shaper: &mut Shaper) -> Re
     }
     let mut out = m.clone();
     for s in 0..m.n_states {
+        if m.terminal[s] {
+            continue;
+        }
         for a in 0..m.n_actions {
-            for o in out.outcomes[s][a].iter_mut() {
+            let Some(list) = out.outcomes.get_mut(s).and_then(|l| l.get_mut(a)) else {
+                return Err(format!("the task's model has no outcomes for state {s}, action {a}"));
+            };
+            for o in list.iter_mut() {
                 let r = shaper.reward(&StepInput {
                     obs: &obs[s * n_obs..(s + 1) * n_obs],
                     action: Action::Index(a),
@@ -514,7 +520,7 @@ pub fn audit_plan(plan: &Plan) -> Value {
         .collect();
     let o = top.as_object_mut().expect("an object");
     o.insert("task".into(), json!(spec.kind));
-    o.insert("finite".into(), json!(spec.n_states.is_some()));
+    o.insert("finite".into(), json!(task.model().is_some()));
     o.insert("variants".into(), Value::Array(variants));
     top
 }
