@@ -383,3 +383,20 @@ fn reward_problems_name_their_field() {
     let e = err(r#"{"mode": "shaped"}"#, r#"{"mode": "base"}"#);
     assert!(e.contains("unknown variant `shaped`"), "{e}");
 }
+
+#[test]
+fn step_index_counts_from_the_run_start_on_a_continuing_task() {
+    // The job server never ends; the runner reports windows of max_steps
+    // steps as mean reward per step. With the reward `t`, window k (of 10
+    // steps) averages t over 10k … 10k + 9, i.e. 10k + 4.5 (arithmetic).
+    let plan = experiment::parse(
+        r#"{"schema": 1, "task": {"kind": "server", "max_steps": 10},
+            "reward": {"mode": "replace", "formula": "t"},
+            "variants": [{"label": "a"}], "seeds": 1, "steps": 30}"#,
+    )
+    .unwrap();
+    let mut job = Job::new(&plan, 0);
+    job.advance(u64::MAX);
+    let shaped: Vec<f64> = job.episodes().iter().map(|e| e.shaped_return).collect();
+    assert_eq!(shaped, vec![4.5, 14.5, 24.5]);
+}

@@ -261,7 +261,8 @@ impl Job {
             next: &self.next_obs,
             base: outcome.reward,
             terminal: outcome.terminated,
-            t: u64::from(self.ep_len - 1),
+            // A continuing task's windows are no episodes: t counts from the run's start.
+            t: if self.continuing { self.steps_done - 1 } else { u64::from(self.ep_len - 1) },
         });
         if !reward.is_finite() {
             return Err(format!(

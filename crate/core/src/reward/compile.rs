@@ -229,7 +229,7 @@ impl Scope {
             "t",
             Binding::Input(2 * n + k + 2),
             "step",
-            "index of this step in the episode, from 0".into(),
+            "index of this step in the episode (in a continuing task, since the run's start), from 0".into(),
         );
         add(
             &mut names,

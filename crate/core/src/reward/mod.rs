@@ -310,7 +310,8 @@ pub struct StepInput<'a> {
     pub base: f64,
     /// Whether the next state is terminal.
     pub terminal: bool,
-    /// Index of the step in the episode, from 0.
+    /// Index of the step in the episode (in a continuing task, since the
+    /// start of the run), from 0.
     pub t: u64,
 }
 
