@@ -344,14 +344,17 @@ pub fn edit_distance(a: &str, b: &str) -> usize {
     d[n][m]
 }
 
-/// Up to three candidates closest to `name` (by edit distance, then case-insensitive prefix).
+/// Up to three candidates closest to `name`: within an edit distance of
+/// about a third of its length (at least 1), ignoring case, or one a prefix
+/// of the other (two letters at least); nearest first.
 pub fn closest<'a>(name: &str, candidates: impl Iterator<Item = &'a str>) -> Vec<&'a str> {
     let lower = name.to_ascii_lowercase();
-    let limit = (name.chars().count() / 3).max(1);
+    let limit = name.chars().count().div_ceil(3).max(1);
     let mut scored: Vec<(usize, &str)> = candidates
         .filter_map(|c| {
-            let d = edit_distance(&lower, &c.to_ascii_lowercase());
-            let prefix = lower.len() >= 2 && c.to_ascii_lowercase().starts_with(&lower);
+            let cl = c.to_ascii_lowercase();
+            let d = edit_distance(&lower, &cl);
+            let prefix = lower.len().min(cl.len()) >= 2 && (cl.starts_with(&lower) || lower.starts_with(&cl));
             (d <= limit || prefix).then_some((if prefix { d.min(1) } else { d }, c))
         })
         .collect();
@@ -805,6 +808,10 @@ mod tests {
         assert_eq!(msgs[5], "`min` given 1 argument | write min(a, b, ...), two or more arguments");
         assert_eq!(msgs[6], "`abs` is a function | call it with parentheses, as in abs(x)");
         assert_eq!((errs[0].start, errs[0].end), (0, 3));
+        assert_eq!(closest("colum", ["row", "col", "action"].into_iter()), vec!["col"]);
+        assert_eq!(closest("Row", ["row", "col"].into_iter()), vec!["row"]);
+        assert_eq!(closest("est", ["east", "west", "north"].into_iter()), vec!["east", "west"]);
+        assert!(closest("zzz", ["row", "col"].into_iter()).is_empty());
         let scope = scope.state_only("a potential depends on the state only");
         let errs = compile("row'", &parse("row'").unwrap(), &scope).unwrap_err();
         assert!(errs[0].message.contains("cannot be used here"));

@@ -532,6 +532,7 @@ impl<'a> Parser<'a> {
                     | Tok::Or => "an operator needs a value on each side",
                     Tok::RParen => "the parentheses hold nothing, or a value is missing before `)`",
                     Tok::Comma => "an argument is missing",
+                    Tok::Then | Tok::Else => "the conditional is written `if c then a else b`",
                     _ => "",
                 },
             )),
