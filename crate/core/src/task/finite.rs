@@ -123,6 +123,14 @@ impl Task for FiniteTask {
     fn model(&self) -> Option<FiniteModel> {
         Some(self.model.clone())
     }
+
+    fn state_obs(&self, s: usize, obs: &mut [f64]) -> bool {
+        if s >= self.model.n_states || obs.is_empty() {
+            return false;
+        }
+        obs[0] = s as f64;
+        true
+    }
 }
 
 /// Settings of a random finite task (the `task` object of a config with
