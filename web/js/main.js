@@ -13,6 +13,7 @@ import {
 import { drawCurves, drawSample, sizeCanvas, seriesStyle } from './chart.js';
 import { findControls, pathOfMessage, controlForPath, DEFAULT_GRID_TASK } from './controls.js';
 import { bindForm } from './form.js';
+import { createInspectView } from './inspectview.js';
 import {
   renderScores, renderComparisons, renderAdvisor, SCORE_COLUMNS, COMPARISON_COLUMNS, ADVISOR_COLUMNS,
 } from './tables.js';
@@ -79,10 +80,18 @@ let pool = null;
 let drawPending = false;
 let lastBusy = null;
 const form = bindForm(state, els, { onEdit, onPreset: (file) => choosePreset(file), isBusy: () => isActive() });
+const inspector = createInspectView({
+  state,
+  showError: (t) => showError(t),
+  colours: () => chartColours(),
+  palette: () => readPalette(),
+  font: () => getComputedStyle(document.body).fontFamily,
+  accent: () => cssVar('--accent'),
+});
 let progressTimer = 0;
 
 // For tests and for curious people in the console: read-only by convention.
-const debug = { state, ready: false, draws: 0, lastDraw: null, checkpoints: [] };
+const debug = { state, ready: false, draws: 0, lastDraw: null, checkpoints: [], inspected: () => inspector.debug() };
 window.__critbox = debug;
 
 // ---------------------------------------------------------------- messages
@@ -597,6 +606,7 @@ function renderResults() {
   }
   ui.scoresNote.textContent = note;
   renderButtons();
+  inspector.refresh();
 }
 
 function exportBase() {
@@ -693,6 +703,10 @@ function cssVar(name) {
   return getComputedStyle(document.documentElement).getPropertyValue(name).trim();
 }
 
+function chartColours() {
+  return { background: cssVar('--chart-bg'), ink: cssVar('--chart-ink'), muted: cssVar('--chart-muted'), grid: cssVar('--chart-grid') };
+}
+
 function readPalette() {
   const out = [];
   for (let i = 1; i <= 6; i++) { const c = cssVar(`--series-${i}`); if (c) out.push(c); }
@@ -769,7 +783,7 @@ function draw() {
     dpr,
     stat,
     seedLines: state.view.seedLines,
-    colours: { background: cssVar('--chart-bg'), ink: cssVar('--chart-ink'), muted: cssVar('--chart-muted'), grid: cssVar('--chart-grid') },
+    colours: chartColours(),
     palette: readPalette(),
     font: getComputedStyle(document.body).fontFamily,
   });
@@ -880,6 +894,7 @@ function selectTab(tab, focus = false) {
   state.view.tab = tab.id.replace(/^tab-/, '');
   if (focus) tab.focus();
   scheduleDraw();
+  if (state.view.tab === 'inspect') { inspector.refresh(); requestAnimationFrame(() => inspector.draw()); }
 }
 
 function bindTabs() {
@@ -922,6 +937,7 @@ function bind() {
   new ResizeObserver(scheduleDraw).observe(ui.canvasBox);
   window.matchMedia('(prefers-color-scheme: dark)').addEventListener('change', () => {
     scheduleDraw();
+    inspector.draw();
     if (state.summary) renderResults();
   });
 }

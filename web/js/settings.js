@@ -41,7 +41,7 @@ export const TASKS = {
       },
       {
         key: 'map', label: 'Map', type: 'lines', wide: true, def: 'the rover floor', range: 'rows of # . S D ~',
-        help: '# wall, . floor, S start, D dock, ~ spill. One row per line.',
+        help: '# wall, . floor, S start, D dock, ~ spill, > < ^ v one-way conveyors. One row per line.',
         when: (env) => !env.task.layout,
       },
       num('slip', 'Slip probability', 0, '[0, 0.5]', 'Chance that a move goes sideways instead.'),

@@ -5,6 +5,20 @@
 // page reload mid-run keeps every finished job), while each batch still holds
 // one seed of several variants, so all curves grow together. The message
 // protocol is documented in pool.js.
+//
+// The same script also serves the inspection views (inspect.js) in a worker
+// of their own: it re-trains one job to a chosen step (jobs are
+// deterministic, so the learner is the one the run had there) and answers
+// questions about it. Protocol (page → worker, then worker → page):
+//   {type:'probe-train', runId, config, jobId, steps, chunk, wasm}
+//     → {type:'probe-progress', runId, done, steps} after each chunk
+//     → {type:'probe-ready', runId, done, status: 0|1|2, failure, policyWidth,
+//        states: Float64Array (stateObservations), values: Float64Array (policyValues)}
+//   {type:'probe-query', runId, qid, kind: 'inspect', obs: Float64Array}
+//     → {type:'probe-answer', runId, qid, data: Float64Array}
+//   {type:'probe-query', runId, qid, kind: 'rollout', maxSteps, seed, greedy}
+//     → {type:'probe-answer', runId, qid, data: Float64Array}
+//   Any failure: {type:'probe-error', runId, qid?, message}.
 
 import { loadWasm, messageOf, provideWasmBytes } from './wasm.js';
 
@@ -33,6 +47,8 @@ self.onmessage = (event) => {
       }
       post({ type: 'cancelled', runId: msg.runId });
       break;
+    case 'probe-train': probeTrain(msg); break;
+    case 'probe-query': probeQuery(msg); break;
     default:
       post({ type: 'error', runId: msg.runId ?? null, message: `worker: unknown message type ${JSON.stringify(msg.type)}` });
   }
@@ -163,6 +179,73 @@ function owned(arr) {
     return arr;
   }
   return arr.slice();
+}
+
+// ---------------------------------------------------------------- inspection
+
+/** The probed job: {runId, run} or null. */
+let probe = null;
+
+function freeProbe() {
+  if (probe && probe.run) { try { probe.run.free(); } catch { /* already freed */ } }
+  probe = null;
+}
+
+async function probeTrain(msg) {
+  freeProbe();
+  const me = { runId: msg.runId, run: null };
+  probe = me;
+  const fail = (message) => { if (probe === me) freeProbe(); post({ type: 'probe-error', runId: me.runId, message }); };
+  if (msg.wasm) provideWasmBytes(msg.wasm);
+  let wasm;
+  try {
+    wasm = await loadWasm();
+    if (probe !== me) return;
+    me.run = new wasm.Run(msg.config, Uint32Array.from([msg.jobId]));
+  } catch (err) {
+    fail(messageOf(err));
+    return;
+  }
+  const target = Math.max(0, Math.floor(msg.steps || 0));
+  const chunk = Math.max(1, Math.floor(msg.chunk || 5000));
+  let done = 0;
+  let status = 0;
+  try {
+    while (done < target && status === 0) {
+      const finished = me.run.advance(Math.min(chunk, target - done));
+      const p = me.run.progress();
+      done = p[1];
+      status = p[2];
+      post({ type: 'probe-progress', runId: me.runId, done, steps: target });
+      await new Promise((r) => setTimeout(r, 0)); // let a newer request in
+      if (probe !== me) return;
+      if (finished) break;
+    }
+    const failure = status === 2 ? (JSON.parse(me.run.failures())[0] || {}).reason || 'failed' : '';
+    const states = owned(me.run.stateObservations());
+    const values = status === 2 ? new Float64Array(0) : owned(me.run.policyValues(0));
+    post({ type: 'probe-ready', runId: me.runId, done, status, failure, policyWidth: me.run.policyWidth(), states, values },
+      [states.buffer, values.buffer]);
+  } catch (err) {
+    fail(messageOf(err));
+  }
+}
+
+function probeQuery(msg) {
+  if (!probe || probe.runId !== msg.runId || !probe.run) {
+    post({ type: 'probe-error', runId: msg.runId, qid: msg.qid, message: 'nothing is being inspected (train a seed first)' });
+    return;
+  }
+  try {
+    let data;
+    if (msg.kind === 'inspect') data = probe.run.inspect(0, msg.obs);
+    else if (msg.kind === 'rollout') data = probe.run.rollout(0, msg.maxSteps, msg.seed, !!msg.greedy);
+    else throw new Error(`unknown question ${JSON.stringify(msg.kind)}`);
+    const out = owned(data);
+    post({ type: 'probe-answer', runId: msg.runId, qid: msg.qid, data: out }, [out.buffer]);
+  } catch (err) {
+    post({ type: 'probe-error', runId: msg.runId, qid: msg.qid, message: messageOf(err) });
+  }
 }
 
 function post(msg, transfer) {
