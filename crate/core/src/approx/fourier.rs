@@ -48,7 +48,12 @@ impl Fourier {
                 rest /= order as usize + 1;
             }
         }
-        Ok(Fourier { low: vars.iter().map(|v| v.low).collect(), high: vars.iter().map(|v| v.high).collect(), coef, n })
+        Ok(Fourier {
+            low: vars.iter().map(|v| v.low).collect(),
+            high: vars.iter().map(|v| v.high).collect(),
+            coef,
+            n,
+        })
     }
 
     #[inline]

@@ -41,7 +41,13 @@ pub struct Mlp {
 impl Mlp {
     /// A network from the state variables `vars` through `hidden` layers to
     /// `outputs` linear outputs, initialised from `rng`.
-    pub fn new(vars: &[StateVar], hidden: &[usize], outputs: usize, act: Activation, rng: &mut Stream) -> Self {
+    pub fn new(
+        vars: &[StateVar],
+        hidden: &[usize],
+        outputs: usize,
+        act: Activation,
+        rng: &mut Stream,
+    ) -> Self {
         let mut sizes = vec![vars.len()];
         sizes.extend_from_slice(hidden);
         sizes.push(outputs);

@@ -429,7 +429,12 @@ impl LinearFn {
     /// Zero weights over `features`, with `outputs` outputs.
     pub fn new(features: Box<dyn Features>, outputs: usize) -> Self {
         let dim = features.dim();
-        LinearFn { cache: FeatureCache::new(features), lin: Linear::zeros(dim, outputs), out: vec![0.0; outputs], comb: Vec::new() }
+        LinearFn {
+            cache: FeatureCache::new(features),
+            lin: Linear::zeros(dim, outputs),
+            out: vec![0.0; outputs],
+            comb: Vec::new(),
+        }
     }
 
     /// The features of a state (cached).
@@ -571,7 +576,10 @@ pub fn build_approx(
                 ));
             }
             if let Some(h) = hidden.iter().find(|&&h| !(1..=512).contains(&h)) {
-                return Err(FeatureError::Invalid("hidden".into(), format!("layer sizes must be in [1, 512], got {h}")));
+                return Err(FeatureError::Invalid(
+                    "hidden".into(),
+                    format!("layer sizes must be in [1, 512], got {h}"),
+                ));
             }
             let sizes: Vec<usize> = hidden.iter().map(|&h| h as usize).collect();
             Ok(Box::new(mlp::Mlp::new(vars, &sizes, outputs, *activation, rng)))

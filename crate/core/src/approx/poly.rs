@@ -79,10 +79,12 @@ impl Poly {
                 break;
             }
         }
-        let n = if d == 0 { 1 } else { exps.len() / d };
+        let n = exps.len().checked_div(d).unwrap_or(1);
         // E‖x‖² for z uniform on [−1, 1]^d: E z^{2e} = 1 / (2e + 1).
         let expected_sq: f64 = (0..n)
-            .map(|i| exps[i * d..(i + 1) * d].iter().map(|&e| 1.0 / (2.0 * f64::from(e) + 1.0)).product::<f64>())
+            .map(|i| {
+                exps[i * d..(i + 1) * d].iter().map(|&e| 1.0 / (2.0 * f64::from(e) + 1.0)).product::<f64>()
+            })
             .sum();
         Ok(Poly {
             low: vars.iter().map(|v| v.low).collect(),

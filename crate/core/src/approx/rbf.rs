@@ -29,7 +29,10 @@ impl Rbf {
     /// setting that is out of range.
     pub fn new(vars: &[StateVar], centers: u32, width: f64) -> Result<Self, FeatureError> {
         if !(2..=32).contains(&centers) {
-            return Err(FeatureError::Invalid("centers".into(), format!("must be in [2, 32], got {centers}")));
+            return Err(FeatureError::Invalid(
+                "centers".into(),
+                format!("must be in [2, 32], got {centers}"),
+            ));
         }
         if !(0.1..=10.0).contains(&width) {
             return Err(FeatureError::Invalid("width".into(), format!("must be in [0.1, 10], got {width}")));

@@ -137,7 +137,9 @@ pub fn stationary(m: &FiniteModel, pi: &[f64]) -> Result<Vec<f64>, ExactError> {
         return Err(ExactError::BadPolicy(format!("needs {} entries, has {}", n * na, pi.len())));
     }
     if m.terminal.iter().any(|&t| t) {
-        return Err(ExactError::BadPolicy("a stationary distribution needs a model without terminal states".into()));
+        return Err(ExactError::BadPolicy(
+            "a stationary distribution needs a model without terminal states".into(),
+        ));
     }
     // Rows 0..n-1: (P_πᵀ − I) d = 0, with the last row replaced by Σ d = 1.
     let mut a = vec![0.0; n * n];

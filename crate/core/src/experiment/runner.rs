@@ -215,6 +215,11 @@ impl Job {
         &self.diag
     }
 
+    /// The job's learner (to inspect what it has learned).
+    pub fn learner_mut(&mut self) -> &mut dyn Learner {
+        self.learner.as_mut()
+    }
+
     /// Advances by up to `n` steps (fewer when the budget runs out or the
     /// learner fails); returns the steps taken.
     pub fn advance(&mut self, n: u64) -> u64 {

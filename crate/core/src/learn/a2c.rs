@@ -95,6 +95,10 @@ impl Learner for A2c {
         self.actor.act(obs, rng, out);
     }
 
+    fn state_value(&mut self, obs: Obs<'_>) -> Option<f64> {
+        Some(self.value(obs))
+    }
+
     fn learn(&mut self, t: &Transition<'_>, _rng: &mut Stream) -> Result<StepDiag, LearnError> {
         let v = self.critic.eval(t.obs)[0];
         let vn = if t.terminated { 0.0 } else { self.critic.eval(t.next)[0] };

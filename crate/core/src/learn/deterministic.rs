@@ -131,8 +131,9 @@ impl Deterministic {
         let critic_net = make_critic(rng);
         let use_targets = setup.target_tau < 1.0;
         let actor_target = use_targets.then(|| {
-            let mut a = build_approx(&actor_cfg, &shared, &spec.state_vars, spec.n_states, spec.kind, dims, rng)
-                .expect("a checked setup's actor builds");
+            let mut a =
+                build_approx(&actor_cfg, &shared, &spec.state_vars, spec.n_states, spec.kind, dims, rng)
+                    .expect("a checked setup's actor builds");
             a.params_mut().copy_from_slice(actor_net.net.params());
             a
         });
@@ -293,5 +294,14 @@ impl Learner for Deterministic {
         if let ActionBuf::Vector(a) = out {
             self.actor.mean_into(obs, a);
         }
+    }
+
+    /// `Q(s, μ(s))` with `μ(s)` clipped to the bounds.
+    fn state_value(&mut self, obs: Obs<'_>) -> Option<f64> {
+        self.actor.mean_into(obs, &mut self.mu);
+        let mu = std::mem::take(&mut self.mu);
+        let q = self.q(obs, &mu);
+        self.mu = mu;
+        Some(q)
     }
 }

@@ -8,7 +8,9 @@
 //! no discount; `V` is the differential value. The runner never truncates a
 //! continuing task, so every transition bootstraps.
 
-use super::{finite, stochastic_actor, value_critic, LearnError, Learner, LearnerSetup, StepDiag, Transition};
+use super::{
+    finite, stochastic_actor, value_critic, LearnError, Learner, LearnerSetup, StepDiag, Transition,
+};
 use crate::approx::Obs;
 use crate::learn::ActionBuf;
 use crate::optim::Trainable;
@@ -63,6 +65,10 @@ impl Learner for Differential {
 
     fn best_action(&mut self, obs: Obs<'_>, out: &mut ActionBuf) {
         self.actor.best_action(obs, out);
+    }
+
+    fn state_value(&mut self, obs: Obs<'_>) -> Option<f64> {
+        Some(self.critic.eval(obs)[0])
     }
 
     fn probabilities(&mut self, obs: Obs<'_>, out: &mut [f64]) -> bool {

@@ -152,6 +152,13 @@ pub trait Learner: Send {
     fn probabilities(&mut self, _obs: Obs<'_>, _out: &mut [f64]) -> bool {
         false
     }
+    /// The critic's estimate of the state value `V(s)` at `obs`, for the
+    /// page's inspection views (the deterministic learner: `Q(s, μ(s))`; QAC:
+    /// `Σ_a π(a|s) Q(s, a)`); `None` when the learner keeps no such estimate
+    /// (REINFORCE without a value baseline).
+    fn state_value(&mut self, _obs: Obs<'_>) -> Option<f64> {
+        None
+    }
 }
 
 /// Builds the learner a setup describes, drawing any random initial weights

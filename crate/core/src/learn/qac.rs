@@ -47,6 +47,13 @@ impl Learner for Qac {
         self.actor.act(obs, rng, out);
     }
 
+    /// `V(s) = Σ_a π(a|s) Q(s, a)` from the critic and the current policy.
+    fn state_value(&mut self, obs: Obs<'_>) -> Option<f64> {
+        let q = self.critic.eval(obs);
+        let p = self.actor.probabilities(obs);
+        Some(p.iter().zip(q).map(|(p, q)| p * q).sum())
+    }
+
     fn learn(&mut self, t: &Transition<'_>, _rng: &mut Stream) -> Result<StepDiag, LearnError> {
         let Action::Index(a) = t.action else {
             panic!("Qac given a continuous action");

@@ -382,7 +382,10 @@ impl LearnerSetup {
             bad(
                 &mut errs,
                 "replay.batch",
-                format!("must be at most replay.capacity ({}), got {}", self.replay.capacity, self.replay.batch),
+                format!(
+                    "must be at most replay.capacity ({}), got {}",
+                    self.replay.capacity, self.replay.batch
+                ),
             );
         }
         in_range(&mut errs, "target_tau", self.target_tau, 0.0, 1.0, true);

@@ -26,7 +26,13 @@ impl DeterministicPolicy {
     /// A policy over `net` (one output per action component) for the bounds.
     pub fn new(net: Trainable, low: &[f64], high: &[f64]) -> Self {
         let d = low.len();
-        DeterministicPolicy { net, low: low.to_vec(), high: high.to_vec(), mu: vec![0.0; d], coef: vec![0.0; d] }
+        DeterministicPolicy {
+            net,
+            low: low.to_vec(),
+            high: high.to_vec(),
+            mu: vec![0.0; d],
+            coef: vec![0.0; d],
+        }
     }
 
     /// Number of action components.

@@ -62,7 +62,11 @@ fn default_learn_std() -> bool {
 
 impl Default for PolicyConfig {
     fn default() -> Self {
-        PolicyConfig { kind: PolicyKind::Gaussian, log_std: default_log_std(), learn_std: default_learn_std() }
+        PolicyConfig {
+            kind: PolicyKind::Gaussian,
+            log_std: default_log_std(),
+            learn_std: default_learn_std(),
+        }
     }
 }
 

@@ -243,7 +243,9 @@ impl StochasticPolicy {
                     a[j] = g.squash.squash(j, out_net[j]);
                 }
             }
-            (Kind::Gaussian(_), ActionBuf::Index(_)) => panic!("a Gaussian policy needs a continuous action buffer"),
+            (Kind::Gaussian(_), ActionBuf::Index(_)) => {
+                panic!("a Gaussian policy needs a continuous action buffer")
+            }
         }
     }
 
@@ -260,7 +262,9 @@ impl StochasticPolicy {
                 g.recover(a);
                 let mu = self.net.net.eval(obs);
                 (0..a.len())
-                    .map(|j| normal_log_density(g.u[j], mu[j], g.log_std[j]) - g.squash.log_jacobian(j, g.u[j]))
+                    .map(|j| {
+                        normal_log_density(g.u[j], mu[j], g.log_std[j]) - g.squash.log_jacobian(j, g.u[j])
+                    })
                     .sum()
             }
         }
@@ -286,7 +290,14 @@ impl StochasticPolicy {
     /// Fills `self.coef` with the coefficients of the approximator's outputs
     /// in `signal · ∇ log π(a|s) + beta · ∇H`, and (Gaussian) the
     /// log-standard-deviation direction through `std_dir(j, value)`.
-    fn coefficients(&mut self, obs: Obs<'_>, action: Action<'_>, signal: f64, beta: f64, mut std_dir: impl FnMut(usize, f64)) {
+    fn coefficients(
+        &mut self,
+        obs: Obs<'_>,
+        action: Action<'_>,
+        signal: f64,
+        beta: f64,
+        mut std_dir: impl FnMut(usize, f64),
+    ) {
         match &mut self.kind {
             Kind::Softmax => {
                 let a = index(action);
@@ -389,7 +400,8 @@ mod tests {
     }
 
     fn poly_net(outputs: usize) -> Trainable {
-        let f = crate::approx::build_features_over(&FeatureConfig::Poly { degree: 2 }, &vars(), None, "t").unwrap();
+        let f = crate::approx::build_features_over(&FeatureConfig::Poly { degree: 2 }, &vars(), None, "t")
+            .unwrap();
         Trainable::new(Box::new(LinearFn::new(f, outputs)), &OptimizerConfig::default(), 1.0)
     }
 
@@ -438,7 +450,14 @@ mod tests {
         // Common practice, no source: the score in u (mean and log-std) equals the
         // central difference of the corrected log-density of the squashed action.
         let cfg = PolicyConfig { log_std: -0.3, ..PolicyConfig::default() };
-        let mut p = StochasticPolicy::gaussian(poly_net(2), &cfg, &[-1.0, 0.0], &[1.0, 4.0], &OptimizerConfig::default(), 0.1);
+        let mut p = StochasticPolicy::gaussian(
+            poly_net(2),
+            &cfg,
+            &[-1.0, 0.0],
+            &[1.0, 4.0],
+            &OptimizerConfig::default(),
+            0.1,
+        );
         randomise(&mut p);
         let obs = Obs { values: &[-0.4], id: None };
         let mut out = ActionBuf::Vector(vec![0.0; 2]);

@@ -235,7 +235,11 @@ mod tests {
         assert!((obs[0] - (x0 + 0.5)).abs() < 1e-15);
         t.x = 2.0;
         let st = t.step(Action::Vector(&[50.0]), &mut rng, &mut obs);
-        assert_eq!((st.reward, obs[0]), (-(4.0 + 9.0), 4.0), "action clipped to 3, state stopped at the wall");
+        assert_eq!(
+            (st.reward, obs[0]),
+            (-(4.0 + 9.0), 4.0),
+            "action clipped to 3, state stopped at the wall"
+        );
         assert_eq!(
             Lqr::new(LqrConfig { b: 0.0, ..LqrConfig::default() }).unwrap_err().to_string(),
             "b: must not be 0: the action would have no effect"
