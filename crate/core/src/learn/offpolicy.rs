@@ -59,6 +59,44 @@ pub struct OffPolicy {
     log_volume: f64,
     probs: Vec<f64>,
     copy: Vec<f64>,
+    sampled: [Sampled; 2],
+    newest: usize,
+}
+
+/// An action the behaviour sampled, with its log-probability at that moment.
+struct Sampled {
+    valid: bool,
+    obs: Vec<f64>,
+    id: Option<usize>,
+    index: usize,
+    vector: Vec<f64>,
+    log_b: f64,
+}
+
+impl Sampled {
+    fn new(n_obs: usize, dims: usize) -> Self {
+        Sampled {
+            valid: false,
+            obs: vec![0.0; n_obs],
+            id: None,
+            index: 0,
+            vector: vec![0.0; dims],
+            log_b: 0.0,
+        }
+    }
+
+    fn matches(&self, obs: Obs<'_>, action: Action<'_>) -> bool {
+        let same = |a: &[f64], b: &[f64]| {
+            a.len() == b.len() && a.iter().zip(b).all(|(x, y)| x.to_bits() == y.to_bits())
+        };
+        self.valid
+            && self.id == obs.id
+            && same(&self.obs, obs.values)
+            && match action {
+                Action::Index(i) => i == self.index,
+                Action::Vector(v) => same(&self.vector, v),
+            }
+    }
 }
 
 impl OffPolicy {
@@ -75,6 +113,7 @@ impl OffPolicy {
             ActionSpace::Continuous { low, high, .. } => (0, low.clone(), high.clone()),
         };
         let log_volume = low.iter().zip(&high).map(|(l, h)| libm::log(h - l)).sum();
+        let dims = low.len();
         let mut me = OffPolicy {
             target,
             snapshot,
@@ -92,6 +131,8 @@ impl OffPolicy {
             high,
             log_volume,
             copy: Vec::new(),
+            sampled: [Sampled::new(spec.state_vars.len(), dims), Sampled::new(spec.state_vars.len(), dims)],
+            newest: 0,
         };
         me.refresh_snapshot();
         me
@@ -121,14 +162,8 @@ impl OffPolicy {
         }
     }
 
-    /// `log π(a|s)` of the target policy.
-    pub fn target_log_prob(&mut self, obs: Obs<'_>, action: Action<'_>) -> f64 {
-        self.target.log_prob(obs, action)
-    }
-}
-
-impl Learner for OffPolicy {
-    fn act(&mut self, obs: Obs<'_>, rng: &mut Stream, out: &mut ActionBuf) {
+    /// Draws an action from the behaviour policy.
+    fn sample(&mut self, obs: Obs<'_>, rng: &mut Stream, out: &mut ActionBuf) {
         match (self.kind, out) {
             (BehaviourKind::Snapshot, out) => {
                 self.snapshot.as_mut().expect("a snapshot behaviour has a snapshot").act(obs, rng, out)
@@ -161,9 +196,13 @@ impl Learner for OffPolicy {
         }
     }
 
-    fn learn(&mut self, t: &Transition<'_>, _rng: &mut Stream) -> Result<StepDiag, LearnError> {
-        let log_pi = self.target.log_prob(t.obs, t.action);
-        let log_b = self.behaviour_log_prob(t.obs, t.action);
+    /// The update of one transition given `log π(a|s)` and `log b(a|s)`.
+    fn learn_weighted(
+        &mut self,
+        t: &Transition<'_>,
+        log_pi: f64,
+        log_b: f64,
+    ) -> Result<StepDiag, LearnError> {
         let (rho, w, cut) = importance_weight(log_pi, log_b, self.cap);
         finite("importance weight", w)?;
         let v = self.critic.eval(t.obs)[0];
@@ -185,6 +224,41 @@ impl Learner for OffPolicy {
             weight: Some(rho),
             weight_truncated: cut,
         })
+    }
+
+    /// `log π(a|s)` of the target policy.
+    pub fn target_log_prob(&mut self, obs: Obs<'_>, action: Action<'_>) -> f64 {
+        self.target.log_prob(obs, action)
+    }
+}
+
+impl Learner for OffPolicy {
+    fn act(&mut self, obs: Obs<'_>, rng: &mut Stream, out: &mut ActionBuf) {
+        self.sample(obs, rng, out);
+        // Remember log b(a|s) now: by the time this action is learned from, the
+        // target (inside an ε-mix) or the snapshot may have changed.
+        let log_b = self.behaviour_log_prob(obs, out.as_action());
+        let slot = 1 - self.newest;
+        let m = &mut self.sampled[slot];
+        m.valid = true;
+        m.obs.copy_from_slice(obs.values);
+        m.id = obs.id;
+        match out {
+            ActionBuf::Index(i) => m.index = *i,
+            ActionBuf::Vector(v) => m.vector.copy_from_slice(v),
+        }
+        m.log_b = log_b;
+        self.newest = slot;
+    }
+
+    fn learn(&mut self, t: &Transition<'_>, _rng: &mut Stream) -> Result<StepDiag, LearnError> {
+        let log_pi = self.target.log_prob(t.obs, t.action);
+        let log_b = match self.sampled.iter().find(|m| m.matches(t.obs, t.action)) {
+            Some(m) => m.log_b,
+            // A transition this learner did not sample (driven from outside).
+            None => self.behaviour_log_prob(t.obs, t.action),
+        };
+        self.learn_weighted(t, log_pi, log_b)
     }
 
     fn best_action(&mut self, obs: Obs<'_>, out: &mut ActionBuf) {
