@@ -520,9 +520,10 @@ fn continuing_tasks_report_windows_of_mean_reward() {
 
 #[test]
 fn off_policy_jobs_record_weights_and_effective_sample_size() {
-    // Kong (1992): ESS = (Σρ)² / Σρ². With ε = 0 the behaviour is the target,
-    // every weight is 1 and the ESS fraction is exactly 1; a uniform behaviour
-    // gives unequal weights and a fraction below 1.
+    // Kong (1992): ESS = (Σρ)² / Σρ². With ε = 0 the behaviour is the target
+    // as it was when the action was drawn, one update earlier, so every weight
+    // is close to 1 and so is the ESS fraction; a uniform behaviour gives
+    // unequal weights and a fraction well below 1.
     let task = json!({"kind": "grid", "layout": "rover"});
     let p = one(
         task.clone(),
@@ -535,11 +536,15 @@ fn off_policy_jobs_record_weights_and_effective_sample_size() {
     j.advance(u64::MAX);
     let d = j.diagnostics();
     assert_eq!(d.iter().map(|b| b.weights).sum::<u64>(), 2_000);
-    assert!(d.iter().all(|b| (b.ess_fraction().unwrap() - 1.0).abs() < 1e-12));
+    assert!(
+        d.iter().all(|b| b.ess_fraction().unwrap() > 0.99),
+        "{:?}",
+        d.iter().map(|b| b.ess_fraction()).collect::<Vec<_>>()
+    );
     let p = one(task, json!({"algo": "off_policy", "rho_cap": 1.5}), 1, 5_000, 5);
     let mut j = Job::new(&p, 0);
     j.advance(u64::MAX);
     let last = j.diagnostics().last().unwrap();
     let ess = last.ess_fraction().unwrap();
-    assert!(ess > 0.0 && ess < 1.0 && last.weight_cut > 0 && last.weight_max > 1.5, "{last:?}");
+    assert!(ess > 0.0 && ess < 0.9 && last.weight_cut > 0 && last.weight_max > 1.5, "{last:?}");
 }
