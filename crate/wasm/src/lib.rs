@@ -11,9 +11,9 @@ use wasm_bindgen::prelude::*;
 use critbox_core::approx::Obs;
 use critbox_core::experiment::config::TaskConfig;
 use critbox_core::experiment::{self, EpisodeRecord, Job, JobStatus, Plan};
-use critbox_core::learn::{build_learner, ActionBuf, Learner, Transition};
+use critbox_core::learn::{build_learner_with, ActionBuf, Learner, Transition};
 use critbox_core::rng::{Purpose, Stream};
-use critbox_core::task::{Action, Task};
+use critbox_core::task::{Action, ActionSpace, Task};
 
 /// Installs the panic hook so a programming error shows its message in the console.
 #[wasm_bindgen(start)]
@@ -153,6 +153,36 @@ impl Run {
             })
             .collect();
         serde_json::Value::Array(list).to_string()
+    }
+
+    /// Diagnostic sums per curve bin of every owned job so far, stride 13:
+    /// job id, bin, steps counted, Σ TD error, Σ |TD error|, Σ entropy,
+    /// Σ actor update norm, Σ critic update norm, steps with an importance
+    /// weight, Σ ρ, Σ ρ², largest ρ, steps whose ρ was capped. Means are sums
+    /// over steps counted; the effective sample size fraction of a bin is
+    /// `(Σρ)² / Σρ² / (steps with a weight)`.
+    pub fn diagnostics(&self) -> Vec<f64> {
+        let mut out = Vec::new();
+        for j in &self.jobs {
+            for (b, d) in j.diagnostics().iter().enumerate() {
+                out.extend_from_slice(&[
+                    j.id() as f64,
+                    b as f64,
+                    d.count as f64,
+                    d.td,
+                    d.abs_td,
+                    d.entropy,
+                    d.actor_norm,
+                    d.critic_norm,
+                    d.weights as f64,
+                    d.weight_sum,
+                    d.weight_sq,
+                    d.weight_max,
+                    d.weight_cut as f64,
+                ]);
+            }
+        }
+        out
     }
 }
 
@@ -347,7 +377,15 @@ impl TaskSim {
                 }
                 self.task.step(Action::Index(a as usize), &mut self.rng, &mut self.obs)
             }
-            None => self.task.step(Action::Vector(action), &mut self.rng, &mut self.obs),
+            None => {
+                let dims = self.task.spec().actions.names().len();
+                if action.len() != dims || action.iter().any(|v| !v.is_finite()) {
+                    return Err(JsError::new(&format!(
+                        "action must hold {dims} finite numbers (one per action component), got {action:?}"
+                    )));
+                }
+                self.task.step(Action::Vector(action), &mut self.rng, &mut self.obs)
+            }
         };
         let mut out = self.obs.clone();
         out.push(st.reward);
@@ -369,6 +407,16 @@ impl TaskSim {
     pub fn action_count(&self) -> u32 {
         self.task.spec().actions.discrete_count().unwrap_or(0) as u32
     }
+
+    /// Bounds of a continuous action: the lower bounds of every component,
+    /// then the upper bounds (empty for a discrete task).
+    #[wasm_bindgen(js_name = actionBounds)]
+    pub fn action_bounds(&self) -> Vec<f64> {
+        match &self.task.spec().actions {
+            ActionSpace::Continuous { low, high, .. } => low.iter().chain(high).copied().collect(),
+            ActionSpace::Discrete(_) => Vec::new(),
+        }
+    }
 }
 
 /// One variant's learner driven one step at a time.
@@ -378,6 +426,7 @@ pub struct Agent {
     task: Box<dyn Task>,
     rng: Stream,
     actions: usize,
+    dims: usize,
     obs_len: usize,
     out: ActionBuf,
 }
@@ -394,12 +443,19 @@ impl Agent {
                 plan.variants.len()
             )));
         };
-        let learner = build_learner(&v.setup, &plan.spec).map_err(|e| JsError::new(&e.to_string()))?;
+        // The same stream as the job's: MLP weights first, then the actions.
+        let mut rng = Stream::derive(plan.config.master_seed, Purpose::Agent, u64::from(variant), u64::from(seed));
+        let learner =
+            build_learner_with(&v.setup, &plan.spec, &mut rng).map_err(|e| JsError::new(&e.to_string()))?;
         Ok(Agent {
             learner,
             task: plan.make_task(),
-            rng: Stream::derive(plan.config.master_seed, Purpose::Agent, u64::from(variant), u64::from(seed)),
+            rng,
             actions: plan.spec.actions.discrete_count().unwrap_or(0),
+            dims: match &plan.spec.actions {
+                ActionSpace::Continuous { low, .. } => low.len(),
+                ActionSpace::Discrete(_) => 0,
+            },
             obs_len: plan.spec.state_vars.len(),
             out: ActionBuf::for_spec(&plan.spec),
         })
@@ -420,6 +476,16 @@ impl Agent {
     }
 
     fn action<'a>(&self, a: &'a [f64], what: &str) -> Result<Action<'a>, JsError> {
+        if self.dims > 0 {
+            return if a.len() == self.dims && a.iter().all(|v| v.is_finite()) {
+                Ok(Action::Vector(a))
+            } else {
+                Err(JsError::new(&format!(
+                    "{what} must hold {} finite numbers (one per action component), got {a:?}",
+                    self.dims
+                )))
+            };
+        }
         let ok = a.len() == 1 && a[0] >= 0.0 && a[0].fract() == 0.0 && (a[0] as usize) < self.actions;
         if ok {
             Ok(Action::Index(a[0] as usize))
@@ -428,11 +494,12 @@ impl Agent {
         }
     }
 
-    /// Samples an action at `obs`; returns `[index]`.
+    /// Samples an action at `obs`; returns `[index]` on a discrete task, the
+    /// action's components on a continuous one.
     pub fn act(&mut self, obs: &[f64]) -> Result<Vec<f64>, JsError> {
         let o = self.obs(obs, "obs")?;
         self.learner.act(o, &mut self.rng, &mut self.out);
-        Ok(vec![self.out.index() as f64])
+        Ok(self.out.to_vec())
     }
 
     /// Learns from one transition; `next_action` is empty after a
