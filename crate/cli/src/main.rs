@@ -17,6 +17,11 @@ usage:
                                    run every (variant, seed) job and print the summary JSON;
                                    --csv writes the tidy CSV (variant,label,seed,step,metric,value),
                                    --save a results file that `critbox open` and the page reopen
+  critbox probe CONFIG.json [--variant I] [--seed S] [--checkpoints A,B,..] [--estimates K] [--episodes M]
+                                   gradient-variance probe of one job: per baseline option, the trace of
+                                   the covariance and the mean norm of K REINFORCE gradient estimates of M
+                                   episodes each (defaults: variant 0, seed 0, checkpoints 0,budget/2,budget,
+                                   K 30, M 5)
   critbox open RESULTS.json        print the summary of a saved results file without re-running
   critbox validate CONFIG.json     check a config; print its plan or the problems
   critbox audit CONFIG.json        shaping audit of the config's rewards as JSON: on a finite task,
@@ -109,6 +114,47 @@ fn run(args: &[String]) -> Result<(), Failure> {
                 write_file(&path, &critbox_core::experiment::export::save(&plan, &results).to_string())?;
             }
             print_json(&results.summary())
+        }
+        "probe" => {
+            let mut config = None;
+            let (mut variant, mut seed, mut estimates, mut episodes) = (0usize, 0usize, 30u32, 5u32);
+            let mut checkpoints: Option<Vec<u64>> = None;
+            let mut it = rest.iter();
+            fn number<T: std::str::FromStr>(flag: &str, v: Option<&String>) -> Result<T, Failure> {
+                let v = v.ok_or_else(|| Failure::Usage(format!("{flag} needs a value")))?;
+                v.parse().map_err(|_| Failure::Usage(format!("{flag}: {v:?} is not a whole number")))
+            }
+            while let Some(a) = it.next() {
+                match a.as_str() {
+                    "--variant" => variant = number(a, it.next())?,
+                    "--seed" => seed = number(a, it.next())?,
+                    "--estimates" => estimates = number(a, it.next())?,
+                    "--episodes" => episodes = number(a, it.next())?,
+                    "--checkpoints" => {
+                        let v = it.next().ok_or_else(|| Failure::Usage("--checkpoints needs a list".into()))?;
+                        let list: Result<Vec<u64>, _> = v.split(',').map(|x| x.trim().parse::<u64>()).collect();
+                        checkpoints = Some(list.map_err(|_| {
+                            Failure::Usage(format!("--checkpoints: {v:?} is not a comma-separated list of steps"))
+                        })?);
+                    }
+                    other if other.starts_with("--") => {
+                        return Err(Failure::Usage(format!("probe: unknown option {other:?}")))
+                    }
+                    other if config.is_none() => config = Some(other.to_string()),
+                    _ => return Err(Failure::Usage("`critbox probe` takes exactly one CONFIG argument".into())),
+                }
+            }
+            let config = config.ok_or_else(|| Failure::Usage("`critbox probe` needs a CONFIG argument".into()))?;
+            let plan = plan_of(&config)?;
+            let steps = plan.config.steps;
+            let settings = critbox_core::experiment::probe::ProbeSettings {
+                checkpoints: checkpoints.unwrap_or_else(|| vec![0, steps / 2, steps]),
+                estimates,
+                episodes,
+            };
+            let v = critbox_core::experiment::probe::probe(&plan, variant, seed, &settings)
+                .map_err(|e| Failure::BadInput(format!("{config}: {e}")))?;
+            print_json(&v)
         }
         "open" => {
             let path = one_arg(rest, "open")?;

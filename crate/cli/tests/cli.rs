@@ -144,3 +144,26 @@ fn audit_prints_the_shaping_audit_and_refuses_bad_configs() {
     let err = String::from_utf8_lossy(&out.stderr);
     assert!(err.contains("reward.formula: column 1: unknown state variable `rwo`"), "{err}");
 }
+
+#[test]
+fn probe_prints_variances_per_baseline_option() {
+    let out = critbox()
+        .arg("probe")
+        .arg(preset("rover-a2c-vs-qac.json"))
+        .args(["--checkpoints", "0,2000", "--estimates", "5", "--episodes", "2"])
+        .output()
+        .unwrap();
+    assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
+    let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
+    let cps = v["checkpoints"].as_array().unwrap();
+    assert_eq!(cps.len(), 2);
+    for cp in cps {
+        for o in cp["options"].as_array().unwrap() {
+            assert!(o["trace_cov"].as_f64().unwrap() >= 0.0);
+        }
+    }
+    let bad =
+        critbox().arg("probe").arg(preset("rover-a2c-vs-qac.json")).args(["--seed", "99"]).output().unwrap();
+    assert_eq!(bad.status.code(), Some(2));
+    assert!(String::from_utf8_lossy(&bad.stderr).contains("seed: 99 is out of range"));
+}

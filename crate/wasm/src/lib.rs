@@ -74,10 +74,50 @@ pub fn audit(config_json: &str) -> Result<String, JsError> {
     Ok(critbox_core::reward::audit::audit_plan(&plan).to_string())
 }
 
+/// The gradient-variance probe of job (`variant`, `seed`): trains it to each
+/// checkpoint, then measures K = `estimates` REINFORCE gradient estimates of
+/// M = `episodes` episodes under each baseline option. Returns JSON
+/// `{variant, seed, estimates, episodes, checkpoints: [{step, options:
+/// [{baseline, trace_cov, mean_norm, constant}]}]}`; throws with the reason
+/// when the variant cannot be probed. Heavy: call it from a worker.
+#[wasm_bindgen]
+pub fn probe(
+    json: &str,
+    variant: u32,
+    seed: u32,
+    checkpoints: &[f64],
+    estimates: u32,
+    episodes: u32,
+) -> Result<String, JsError> {
+    let plan = plan_of(json)?;
+    if checkpoints.iter().any(|c| !(c.is_finite() && *c >= 0.0)) {
+        return Err(JsError::new("checkpoints: step counts must be finite and >= 0"));
+    }
+    let settings = experiment::probe::ProbeSettings {
+        checkpoints: checkpoints.iter().map(|&c| c as u64).collect(),
+        estimates,
+        episodes,
+    };
+    experiment::probe::probe(&plan, variant as usize, seed as usize, &settings)
+        .map(|v| v.to_string())
+        .map_err(|e| JsError::new(&e.to_string()))
+}
+
+/// The built-in grid layouts as JSON: `[{name, title, map, slip,
+/// step_reward, hazard_reward, hazard_restart, goal_reward, max_steps}]`. A
+/// grid config names one with `"layout"`; a config that gives both `layout`
+/// and a `map` is refused unless the map is the layout's own, so drop
+/// `layout` when the map is edited.
+#[wasm_bindgen(js_name = gridLayouts)]
+pub fn grid_layouts() -> String {
+    critbox_core::task::layouts::to_json().to_string()
+}
+
 /// The jobs of a plan owned by one worker.
 #[wasm_bindgen]
 pub struct Run {
     jobs: Vec<Job>,
+    plan: Plan,
 }
 
 #[wasm_bindgen]
@@ -94,7 +134,7 @@ impl Run {
             }
             jobs.push(Job::new(&plan, id as usize));
         }
-        Ok(Run { jobs })
+        Ok(Run { jobs, plan })
     }
 
     /// Advances every owned job by up to `steps_per_job` steps; returns true
@@ -120,6 +160,177 @@ impl Run {
             out.extend_from_slice(&[j.id() as f64, j.steps_done() as f64, status]);
         }
         out
+    }
+
+    fn job_at(&mut self, index: u32) -> Result<&mut Job, JsError> {
+        let n = self.jobs.len();
+        self.jobs.get_mut(index as usize).ok_or_else(|| {
+            JsError::new(&format!("job index {index} is out of range: this Run owns {n} jobs"))
+        })
+    }
+
+    /// Length of the policy part of an [`Run::inspect`] record: the number
+    /// of actions on a discrete task, of action components on a continuous one.
+    #[wasm_bindgen(js_name = policyWidth)]
+    pub fn policy_width(&self) -> u32 {
+        self.plan.spec.actions.names().len() as u32
+    }
+
+    /// The observation of every discrete state, in state order, stride =
+    /// number of state variables; empty for a task without discrete states.
+    #[wasm_bindgen(js_name = stateObservations)]
+    pub fn state_observations(&self) -> Vec<f64> {
+        let Some(n) = self.plan.spec.n_states else { return Vec::new() };
+        let task = self.plan.make_task();
+        let k = self.plan.spec.state_vars.len();
+        let mut out = vec![0.0; n * k];
+        for s in 0..n {
+            if !task.state_obs(s, &mut out[s * k..(s + 1) * k]) {
+                return Vec::new();
+            }
+        }
+        out
+    }
+
+    /// What job `index` (its position in this Run's job ids) has learned, at
+    /// each of the given observations (stride = number of state variables).
+    /// Per observation, stride `1 + policyWidth()`: the critic's value
+    /// estimate (NaN when the learner keeps none), then the policy: on a
+    /// discrete task π(a|s) for each action, on a continuous one the action
+    /// the policy prefers (the mean, without exploration).
+    pub fn inspect(&mut self, index: u32, observations: &[f64]) -> Result<Vec<f64>, JsError> {
+        let k = self.plan.spec.state_vars.len();
+        if k == 0 || !observations.len().is_multiple_of(k) || observations.iter().any(|v| !v.is_finite()) {
+            return Err(JsError::new(&format!(
+                "observations must be finite numbers in groups of {k} (one per state variable), got {}",
+                observations.len()
+            )));
+        }
+        let width = self.policy_width() as usize;
+        let task = self.plan.make_task();
+        let finite = self.plan.spec.n_states.is_some();
+        let discrete = self.plan.spec.actions.discrete_count().is_some();
+        let mut buf = ActionBuf::for_spec(&self.plan.spec);
+        let mut probs = vec![0.0; width];
+        let learner = self.job_at(index)?.learner_mut();
+        let mut out = Vec::with_capacity(observations.len() / k * (1 + width));
+        for values in observations.chunks_exact(k) {
+            let id = task.id_of(values);
+            if finite && id.is_none() {
+                return Err(JsError::new(&format!("observation {values:?} is not a state of this task")));
+            }
+            let obs = Obs { values, id };
+            out.push(learner.state_value(obs).unwrap_or(f64::NAN));
+            if discrete && learner.probabilities(obs, &mut probs) {
+                out.extend_from_slice(&probs);
+            } else {
+                learner.best_action(obs, &mut buf);
+                match &buf {
+                    ActionBuf::Index(a) => {
+                        out.extend((0..width).map(|i| if i == *a { 1.0 } else { 0.0 }));
+                    }
+                    ActionBuf::Vector(v) => out.extend_from_slice(v),
+                }
+            }
+        }
+        Ok(out)
+    }
+
+    /// The exact value of job `index`'s current policy at every discrete
+    /// state (in state order) under the task's own reward and the variant's
+    /// discount: the solution of `(I − γ P_π) V = r_π`. Empty for a task
+    /// without an exact model; NaN everywhere when the system cannot be
+    /// solved (say, γ = 1 and a policy that may never end an episode).
+    #[wasm_bindgen(js_name = policyValues)]
+    pub fn policy_values(&mut self, index: u32) -> Result<Vec<f64>, JsError> {
+        let task = self.plan.make_task();
+        let (Some(m), Some(na)) = (task.model(), self.plan.spec.actions.discrete_count()) else {
+            return Ok(Vec::new());
+        };
+        let k = self.plan.spec.state_vars.len();
+        let job_id = self.job_at(index)?.id();
+        let variant = self.plan.job_coords(job_id).0;
+        let gamma = self.plan.variants[variant].setup.discount.unwrap_or(self.plan.spec.default_discount);
+        let mut values = vec![0.0; k];
+        let mut pi = vec![0.0; m.n_states * na];
+        let learner = self.job_at(index)?.learner_mut();
+        for s in 0..m.n_states {
+            let row = &mut pi[s * na..(s + 1) * na];
+            if m.terminal[s]
+                || !task.state_obs(s, &mut values)
+                || !learner.probabilities(Obs { values: &values, id: Some(s) }, row)
+            {
+                row.fill(0.0);
+                row[0] = 1.0;
+            }
+        }
+        Ok(match critbox_core::exact::evaluate(&m, &pi, gamma) {
+            Ok(v) => v,
+            Err(_) => vec![f64::NAN; m.n_states],
+        })
+    }
+
+    /// Plays one episode of job `index`'s current policy on a fresh copy of
+    /// the task, for at most `max_steps` steps, with task noise from `seed`:
+    /// `greedy` takes the action the policy prefers, otherwise actions are
+    /// sampled as in training (with a stream of their own, so the job is not
+    /// disturbed). Returns frames of stride `k + policyWidth() + 2` (k state
+    /// variables; on a discrete task the action part holds the index and
+    /// then NaNs): the observation, the action taken there, the task's own
+    /// reward for it, and a flag (0 going on, 1 the step ended the episode
+    /// in a terminal state). A last frame holds the final observation with
+    /// NaN action and reward and flag 2 (terminal) or 3 (step limit).
+    pub fn rollout(
+        &mut self,
+        index: u32,
+        max_steps: u32,
+        seed: f64,
+        greedy: bool,
+    ) -> Result<Vec<f64>, JsError> {
+        if !(seed.is_finite() && seed >= 0.0) {
+            return Err(JsError::new(&format!("seed must be a number ≥ 0, got {seed}")));
+        }
+        let spec = self.plan.spec.clone();
+        let mut task = self.plan.make_task();
+        let k = spec.state_vars.len();
+        let width = spec.actions.names().len();
+        let mut task_rng = Stream::from_seed(seed as u64);
+        let mut agent_rng = Stream::derive(seed as u64, Purpose::Agent, u64::MAX, u64::MAX);
+        let mut obs = vec![0.0; k];
+        let mut next = vec![0.0; k];
+        let mut buf = ActionBuf::for_spec(&spec);
+        let learner = self.job_at(index)?.learner_mut();
+        let mut out = Vec::new();
+        task.reset(&mut task_rng, &mut obs);
+        let mut flag = 3.0;
+        for _ in 0..max_steps {
+            let o = Obs { values: &obs, id: task.state_id() };
+            if greedy {
+                learner.best_action(o, &mut buf);
+            } else {
+                learner.act(o, &mut agent_rng, &mut buf);
+            }
+            let step = task.step(buf.as_action(), &mut task_rng, &mut next);
+            out.extend_from_slice(&obs);
+            match &buf {
+                ActionBuf::Index(a) => {
+                    out.push(*a as f64);
+                    out.extend(std::iter::repeat_n(f64::NAN, width.saturating_sub(1)));
+                }
+                ActionBuf::Vector(v) => out.extend_from_slice(v),
+            }
+            out.push(step.reward);
+            out.push(if step.terminated { 1.0 } else { 0.0 });
+            std::mem::swap(&mut obs, &mut next);
+            if step.terminated {
+                flag = 2.0;
+                break;
+            }
+        }
+        out.extend_from_slice(&obs);
+        out.extend(std::iter::repeat_n(f64::NAN, width + 1));
+        out.push(flag);
+        Ok(out)
     }
 
     /// Episodes finished since the last call, stride 5: job id, end step,
@@ -253,7 +464,7 @@ impl Results {
     /// Adds episode records, stride 5 as [`Run::take_episodes`] gives them.
     #[wasm_bindgen(js_name = addEpisodes)]
     pub fn add_episodes(&mut self, records: &[f64]) -> Result<(), JsError> {
-        if records.len() % 5 != 0 {
+        if !records.len().is_multiple_of(5) {
             return Err(JsError::new(&format!(
                 "episode records come in groups of 5; got {} numbers",
                 records.len()
@@ -444,7 +655,8 @@ impl Agent {
             )));
         };
         // The same stream as the job's: MLP weights first, then the actions.
-        let mut rng = Stream::derive(plan.config.master_seed, Purpose::Agent, u64::from(variant), u64::from(seed));
+        let mut rng =
+            Stream::derive(plan.config.master_seed, Purpose::Agent, u64::from(variant), u64::from(seed));
         let learner =
             build_learner_with(&v.setup, &plan.spec, &mut rng).map_err(|e| JsError::new(&e.to_string()))?;
         Ok(Agent {

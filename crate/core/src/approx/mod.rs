@@ -203,6 +203,11 @@ impl Features for Tabular {
 }
 
 impl Tabular {
+    /// One-hot features over `n` states.
+    pub fn new(n: usize) -> Self {
+        Tabular { n }
+    }
+
     /// Writes the one-hot vector of state `s`.
     pub fn one_hot(s: usize, out: &mut Sparse) {
         out.clear();

@@ -11,6 +11,7 @@
 pub mod compare;
 pub mod config;
 pub mod export;
+pub mod probe;
 pub mod results;
 pub mod runner;
 
