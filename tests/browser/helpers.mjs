@@ -86,7 +86,7 @@ export function nextFrame(page) {
 export async function waitForRunEnd(page, timeout = 180000) {
   await page.waitForFunction(() => {
     const r = window.__critbox.state.run;
-    return r && (r.status === 'done' || r.status === 'cancelled');
+    return r && (r.status === 'done' || r.status === 'cancelled') && r.summarised;
   }, null, { timeout, polling: 200 });
 }
 

@@ -30,6 +30,7 @@ test('edits and a finished run survive a reload', async () => {
   await page.fill('#steps', '2000');
   await runToEnd(page);
   const summary = await page.evaluate(() => window.__critbox.state.summary);
+  await page.waitForFunction(() => window.__critbox.checkpoints.some((c) => c.status === 'done'));
   await page.fill('#f-task-slip', '0.1'); // an edit after the run
   await page.waitForTimeout(500); // the experiment is written 300 ms after the last edit
 
@@ -79,7 +80,7 @@ test('a reload during a run keeps the finished jobs; finishing the run gives the
   await shoot(page, 'interrupted-run.png');
 
   await page.click('#resume');
-  await page.waitForFunction(() => window.__critbox.state.run.status === 'done', null, { timeout: 120000, polling: 200 });
+  await page.waitForFunction(() => window.__critbox.state.run.status === 'done' && window.__critbox.state.run.summarised, null, { timeout: 120000, polling: 200 });
   const summary = await page.evaluate(() => window.__critbox.state.summary);
   const dir = await mkdtemp(path.join(os.tmpdir(), 'critbox-'));
   await writeFile(path.join(dir, 'c.json'), before.configJson);
@@ -88,6 +89,7 @@ test('a reload during a run keeps the finished jobs; finishing the run gives the
   assert.equal(await page.isVisible('#resume'), false);
 
   // And that finished run is what the next reload shows.
+  await page.waitForFunction(() => window.__critbox.checkpoints.some((c) => c.status === 'done'));
   await reload(page);
   assert.equal(await page.evaluate(() => window.__critbox.state.run.status), 'done');
   assert.deepEqual(await page.evaluate(() => window.__critbox.state.summary), summary);

@@ -30,7 +30,7 @@ async function shoot(page, name) {
 async function waitForRunEnd(page, timeout = 180000) {
   await page.waitForFunction(() => {
     const r = window.__critbox.state.run;
-    return r && (r.status === 'done' || r.status === 'cancelled');
+    return r && (r.status === 'done' || r.status === 'cancelled') && r.summarised;
   }, null, { timeout, polling: 200 });
 }
 
@@ -155,10 +155,15 @@ test('a worker that fails shows a message and the page keeps working', async () 
   // The worker script is replaced by one that throws on load.
   const { page, context } = await openPage(env, {
     before: async (_page, ctx) => {
-      await ctx.route('**/js/worker.js', (route) => route.fulfill({
-        contentType: 'text/javascript',
-        body: 'throw new Error("worker could not start (test)");',
-      }));
+      // Training workers throw on load; the results and inspection workers
+      // (the same script under other names) still work.
+      await ctx.route('**/js/worker.js', async (route) => {
+        const real = await (await route.fetch()).text();
+        await route.fulfill({
+          contentType: 'text/javascript',
+          body: `if (self.name.startsWith('critbox-trainer')) throw new Error("worker could not start (test)");\n${real}`,
+        });
+      });
     },
   });
   await page.fill('#seeds', '2');

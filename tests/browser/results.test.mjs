@@ -10,7 +10,7 @@ import { execFile } from 'node:child_process';
 import { promisify } from 'node:util';
 import os from 'node:os';
 import path from 'node:path';
-import { setUp, openPage, repoRoot, runToEnd, shoot } from './helpers.mjs';
+import { setUp, openPage, repoRoot, runToEnd, shoot, nextFrame } from './helpers.mjs';
 
 const ROOT = process.env.CRITBOX_ROOT || repoRoot;
 const CLI = process.env.CRITBOX_CLI || path.join(ROOT, 'target', 'release', 'critbox');
@@ -61,21 +61,25 @@ test('results: tables, curve statistics, exports, and a results file opened agai
   const meanDraw = await page.evaluate(() => window.__critbox.lastDraw);
   assert.equal(meanDraw.stat, 'mean');
   for (const stat of ['iqm', 'median']) {
-    const d = await drawAfter(() => page.click(`label[for=stat-${stat}]`));
-    assert.equal(d.stat, stat);
+    await page.click(`label[for=stat-${stat}]`);
+    await page.waitForFunction((s) => window.__critbox.lastDraw.stat === s, stat);
+    const d = await page.evaluate(() => window.__critbox.lastDraw);
     for (const s of d.series) assert.ok(s.points >= 2, `${stat} of ${s.label}: ${s.points} points`);
   }
   const seeded = await drawAfter(() => page.check('#seed-lines'));
   assert.equal(seeded.seedLines, true);
+  await page.waitForFunction(() => window.__critbox.state.curves?.seeds && window.__critbox.lastDraw.seedLines);
   const seedRange = await page.evaluate(() => {
-    const r = window.__critbox.state.results;
-    const run = window.__critbox.state.run;
+    const { seeds } = window.__critbox.state.curves;
     let lo = Infinity; let hi = -Infinity;
-    for (let v = 0; v < run.labels.length; v++) for (let s = 0; s < run.seeds; s++) {
-      for (const y of r.seedCurve(v, s)) if (Number.isFinite(y)) { lo = Math.min(lo, y); hi = Math.max(hi, y); }
+    for (const variant of seeds) for (const curve of variant) {
+      for (const y of curve) if (Number.isFinite(y)) { lo = Math.min(lo, y); hi = Math.max(hi, y); }
     }
     return [lo, hi];
   });
+  assert.equal(await page.evaluate(() => window.__critbox.state.curves.seeds[0].length), 4, 'one curve per seed');
+  await nextFrame(page);
+  seeded.y = (await page.evaluate(() => window.__critbox.lastDraw)).y;
   assert.ok(seeded.y[0] <= seedRange[0] && seeded.y[1] >= seedRange[1], `y axis ${seeded.y} covers the seeds' ${seedRange}`);
   await shoot(page, 'results-median-seed-lines.png');
   await page.click('label[for=stat-mean]');
@@ -115,14 +119,13 @@ test('results: tables, curve statistics, exports, and a results file opened agai
   const second = await openPage(env);
   const savedPath = path.join(await mkdtemp(path.join(os.tmpdir(), 'critbox-')), 'rover-results.json');
   await writeFile(savedPath, saved);
-  const before = second.requests.length;
   await second.page.setInputFiles('#open-file', savedPath);
   await second.page.waitForFunction(() => window.__critbox.state.run?.status === 'opened');
   assert.deepEqual(await second.page.evaluate(() => window.__critbox.state.summary), summary);
   assert.equal(await second.page.locator('#scores-body tr').count(), n);
   assert.match(await second.page.textContent('#plot-title'), /opened from rover-results\.json/);
   assert.equal(await second.page.inputValue('#title'), file.config.title);
-  assert.deepEqual(second.requests.slice(before).filter((u) => /worker/.test(u)), [], 'no worker started');
+  assert.equal(await second.page.evaluate(() => window.__critbox.state.run.workers), 0, 'nothing was trained');
   await shoot(second.page, 'results-opened.png');
 
   // A broken results file: a message naming the problem; the results stay.

@@ -8,7 +8,7 @@ import { loadWasm, messageOf } from './wasm.js';
 import { Pool } from './pool.js';
 import {
   createState, newRun, runFraction, variantFractions, secondsLeft, formatLeft, addMessage, dismissMessage,
-  keepEpisodes, jobEpisodes, stepsCounted,
+  stepsCounted,
 } from './state.js';
 import { drawCurves, drawSample, sizeCanvas, seriesStyle } from './chart.js';
 import { findControls, pathOfMessage, controlForPath, DEFAULT_GRID_TASK } from './controls.js';
@@ -20,9 +20,8 @@ import {
 import { download, canvasPng, fileStem, readFileText } from './export.js';
 import { fetchPresetIndex, fetchPresetText } from './platform.js';
 import { encodeConfig, decodeFragment, linkFor } from './share.js';
-import {
-  saveExperiment, loadExperiment, saveResults, loadResults, f64ToBase64, base64ToF64,
-} from './storage.js';
+import { saveExperiment, loadExperiment, saveResults, loadResults } from './storage.js';
+import { ResultsClient } from './results.js';
 
 /** Steps each job advances per chunk in a worker. */
 const CHUNK_STEPS = 2000;
@@ -78,6 +77,12 @@ const ui = {
 };
 let pool = null;
 let drawPending = false;
+let curvesPending = false;
+let lastCurveRequest = 0;
+let curveTimer = 0;
+/** Least time between two curve requests while a run trains (ms). */
+const CURVE_INTERVAL_MS = 300;
+let starting = false;
 let lastBusy = null;
 const form = bindForm(state, els, { onEdit, onPreset: (file) => choosePreset(file), isBusy: () => isActive() });
 const inspector = createInspectView({
@@ -257,26 +262,35 @@ async function choosePreset(file) {
 
 function freeResults() {
   if (state.results) {
-    try { state.results.free(); } catch { /* already freed */ }
+    state.results.close();
     state.results = null;
   }
+  state.curves = null;
+  curvesPending = false;
 }
 
-function startRun() {
-  if (!state.check.ok || isActive() || !state.wasm) return;
+async function startRun() {
+  if (!state.check.ok || isActive() || !state.wasm || starting) return;
   const json = JSON.stringify(state.config);
   const info = state.check.info;
+  starting = true;
   freeResults();
-  try {
-    state.results = new state.wasm.Results(json);
-  } catch (err) {
-    showError(`could not set up the results: ${messageOf(err)}`);
-    return;
-  }
+  const rc = new ResultsClient();
+  state.results = rc;
   state.run = newRun(json, info);
   state.run.threshold = typeof state.config.threshold === 'number' ? state.config.threshold : null;
   state.summary = null;
   renderResults();
+  try {
+    await rc.open(json);
+  } catch (err) {
+    starting = false;
+    state.run.status = 'cancelled';
+    showError(`could not set up the results: ${messageOf(err)}`);
+    renderCheck();
+    return;
+  }
+  starting = false;
   launch(Array.from({ length: info.jobs }, (_, j) => j));
   persistRun(false);
 }
@@ -299,6 +313,7 @@ function resumeRun() {
 function launch(jobIds) {
   const run = state.run;
   run.status = 'running';
+  run.summarised = false;
   run.resumedAt = performance.now();
   pool = new Pool({ onProgress, onError: onWorkerError, onPaused, onDone });
   run.workers = Pool.workerCount(jobIds.length);
@@ -313,33 +328,34 @@ function launch(jobIds) {
 function onProgress({ progress, episodes, failures }) {
   const run = state.run;
   if (!run || !state.results) return;
+  run.episodes += episodes.length / 5;
+  for (let k = 0; k + 3 <= progress.length; k += 3) {
+    const job = progress[k];
+    if (run.jobStatus[job] === 0 && progress[k + 2] !== 0) run.newlyFinished = true;
+    run.stepsDone[job] = progress[k + 1];
+    run.jobStatus[job] = progress[k + 2];
+  }
+  for (const f of failures) {
+    run.jobStatus[f.job] = 2;
+    run.newlyFinished = true;
+  }
   try {
-    if (episodes.length) {
-      state.results.addEpisodes(episodes);
-      keepEpisodes(run, episodes);
-      run.episodes += episodes.length / 5;
-      run.version += 1;
-    }
-    for (let k = 0; k + 3 <= progress.length; k += 3) {
-      const job = progress[k];
-      if (run.jobStatus[job] === 0 && progress[k + 2] !== 0) run.newlyFinished = true;
-      run.stepsDone[job] = progress[k + 1];
-      run.jobStatus[job] = progress[k + 2];
-      state.results.setSteps(job, progress[k + 1]);
-    }
-    for (const f of failures) {
-      run.jobStatus[f.job] = 2;
-      run.failures = { ...(run.failures || {}), [f.job]: String(f.reason) };
-      state.results.markFailed(f.job, String(f.reason));
-      run.version += 1;
-      run.newlyFinished = true;
-    }
+    state.results.add(progress, episodes, failures);
   } catch (err) {
     showError(`recording results: ${messageOf(err)}`);
   }
-  renderProgress();
-  scheduleDraw();
+  run.version += 1;
+  scheduleProgress();
+  // New data: ask for fresh curves (throttled); their arrival redraws.
+  if (state.results) requestCurves(run);
   if (run.newlyFinished) scheduleCheckpoint();
+}
+
+let progressPending = 0;
+/** Progress is shown at most four times a second (messages come far more often). */
+function scheduleProgress() {
+  if (progressPending) return;
+  progressPending = setTimeout(() => { progressPending = 0; renderProgress(); }, 250);
 }
 
 function onWorkerError(message, jobIds) {
@@ -349,8 +365,7 @@ function onWorkerError(message, jobIds) {
   for (const j of jobIds) {
     if (run.jobStatus[j] === 0) {
       run.jobStatus[j] = 2;
-      run.failures = { ...(run.failures || {}), [j]: message };
-      try { state.results.markFailed(j, message); } catch (err) { showError(`recording a failure: ${messageOf(err)}`); }
+      try { state.results.fail(j, message); } catch (err) { showError(`recording a failure: ${messageOf(err)}`); }
     }
   }
   run.version += 1;
@@ -399,129 +414,28 @@ function cancelRun() {
   finishSummary();
 }
 
-function finishSummary() {
+/** The run is over (done or cancelled): summarise it in the results worker, then keep it. */
+async function finishSummary() {
   clearInterval(progressTimer);
-  try {
-    state.summary = JSON.parse(state.results.summaryJson());
-  } catch (err) {
-    state.summary = null;
-    showError(`could not summarise the run: ${messageOf(err)}`);
-  }
-  state.run.version += 1;
-  renderResults();
+  const run = state.run;
+  const rc = state.results;
+  run.version += 1;
   renderProgress();
   renderCheck();
   scheduleDraw();
-  persistRun(true);
-}
-
-// ---------------------------------------------------------------- keeping results
-
-let checkpointTimer = 0;
-function scheduleCheckpoint() {
-  if (checkpointTimer) return;
-  checkpointTimer = setTimeout(() => { checkpointTimer = 0; if (isActive()) persistRun(false); }, 1500);
-}
-
-/** The storage record of a job, from the episodes kept on this thread. */
-function jobRecord(run, j) {
-  const finished = run.jobStatus[j] !== 0;
-  let episodes = finished ? run.packed[j] : null;
-  if (episodes === null) {
-    episodes = f64ToBase64(jobEpisodes(run, j));
-    if (finished) run.packed[j] = episodes;
-  }
-  return {
-    id: j,
-    steps: run.stepsDone[j],
-    status: run.jobStatus[j],
-    failed: run.failures?.[j] ?? null,
-    episodes,
-  };
-}
-
-/**
- * Write the run to local storage. `final`: the run is over (done or
- * cancelled) and every job is written; otherwise only finished jobs, so a
- * reload restores them and offers to train the rest.
- */
-async function persistRun(final) {
-  const run = state.run;
-  if (!run || run.origin === 'file') return;
-  run.newlyFinished = false;
-  const jobs = [];
-  for (let j = 0; j < run.jobs; j++) {
-    if (final || run.jobStatus[j] !== 0) jobs.push(jobRecord(run, j));
-  }
-  const status = final ? run.status : 'running';
-  const problem = await saveResults({ kind: 'jobs', status, configJson: run.configJson, jobs });
-  if (problem) showError(problem);
-  debug.checkpoints.push({ status, jobs: jobs.length });
-}
-
-/** Rebuild a run from what storage kept. Returns true when it worked. */
-async function restoreResults() {
-  let rec;
   try {
-    rec = await loadResults();
+    const summary = await rc.summary();
+    if (state.run !== run) return;
+    state.summary = summary;
   } catch (err) {
-    showError(`Results kept from the last visit could not be read: ${messageOf(err)}`);
-    return false;
-  }
-  if (!rec) return false;
-  if (rec.kind === 'file') return showResultsText(rec.text, rec.fileName || 'a results file', 'storage');
-  let info;
-  let results;
-  try {
-    info = JSON.parse(state.wasm.validateConfig(rec.configJson));
-    results = new state.wasm.Results(rec.configJson);
-  } catch (err) {
-    showError(`Results kept from the last visit could not be restored: ${messageOf(err)}`);
-    return false;
-  }
-  const run = newRun(rec.configJson, info, 'storage');
-  try {
-    for (const j of rec.jobs) {
-      const id = Number(j.id);
-      if (!Number.isInteger(id) || id < 0 || id >= run.jobs) throw new Error(`job ${JSON.stringify(j.id)} is not in the experiment`);
-      const eps = base64ToF64(String(j.episodes ?? ''));
-      results.addEpisodes(eps);
-      run.records[id] = { data: eps.slice(), n: eps.length };
-      run.episodes += eps.length / 5;
-      const steps = Number(j.steps) || 0;
-      results.setSteps(id, steps);
-      run.stepsDone[id] = steps;
-      run.jobStatus[id] = j.status === 2 ? 2 : j.status === 1 ? 1 : 0;
-      if (j.failed !== null && j.failed !== undefined) {
-        results.markFailed(id, String(j.failed));
-        run.failures = { ...(run.failures || {}), [id]: String(j.failed) };
-      }
-    }
-  } catch (err) {
-    try { results.free(); } catch { /* nothing to free */ }
-    showError(`Results kept from the last visit could not be restored: ${messageOf(err)}`);
-    return false;
-  }
-  freeResults();
-  state.results = results;
-  run.status = ['done', 'cancelled'].includes(rec.status) ? rec.status : 'interrupted';
-  const config = JSON.parse(rec.configJson);
-  run.threshold = typeof config.threshold === 'number' ? config.threshold : null;
-  state.run = run;
-  try {
-    state.summary = JSON.parse(results.summaryJson());
-  } catch (err) {
+    if (state.run !== run) return;
     state.summary = null;
+    showError(`could not summarise the run: ${messageOf(err)}`);
   }
+  run.summarised = true;
   renderResults();
-  renderProgress();
-  renderButtons();
   scheduleDraw();
-  if (run.status === 'interrupted') {
-    const done = run.jobStatus.reduce((n, st) => n + (st !== 0 ? 1 : 0), 0);
-    showNote(`The last run was interrupted; its ${done} finished job${done === 1 ? ' is' : 's are'} shown. Finish it to train the other ${run.jobs - done}.`, 15000);
-  }
-  return true;
+  await persistRun(true);
 }
 
 function renderProgress() {
@@ -541,7 +455,8 @@ function renderProgress() {
   ui.variantProgress.hidden = !show;
   if (!show) return;
   const fr = variantFractions(run);
-  if (ui.variantProgress.children.length !== fr.length) {
+  if (ui.variantProgress.children.length !== fr.length || ui.variantProgress.dataset.run !== String(run.configJson.length)) {
+    ui.variantProgress.dataset.run = String(run.configJson.length);
     ui.variantProgress.replaceChildren(...run.labels.map((label, i) => {
       const li = document.createElement('li');
       const lab = document.createElement('label');
@@ -559,6 +474,101 @@ function renderProgress() {
     const p = ui.variantProgress.children[i].querySelector('progress');
     p.value = Math.floor(f * 100);
   });
+}
+
+// ---------------------------------------------------------------- keeping results
+
+let checkpointTimer = 0;
+let lastWriteMs = 0;
+/** A checkpoint soon after jobs finish; the larger the results, the rarer
+ * (writing them to storage blocks this thread for as long as it takes). */
+function scheduleCheckpoint() {
+  if (checkpointTimer) return;
+  const delay = Math.max(1500, lastWriteMs * 40);
+  checkpointTimer = setTimeout(() => { checkpointTimer = 0; if (isActive()) persistRun(false); }, delay);
+}
+
+/**
+ * Write the run to local storage. `final`: the run is over (done or
+ * cancelled) and every job is written; otherwise only finished jobs, so a
+ * reload restores them and offers to train the rest. The results worker
+ * packs the records; this thread only stores the text.
+ */
+async function persistRun(final) {
+  const run = state.run;
+  const rc = state.results;
+  if (!run || !rc || run.origin === 'file') return;
+  run.newlyFinished = false;
+  let data;
+  try {
+    data = await rc.pack(final);
+  } catch (err) {
+    if (state.results === rc) showError(`results could not be packed for keeping: ${messageOf(err)}`);
+    return;
+  }
+  if (state.run !== run) return;
+  const status = final ? run.status : 'running';
+  const t0 = performance.now();
+  const problem = await saveResults({ kind: 'jobs', status, configJson: run.configJson, data });
+  lastWriteMs = performance.now() - t0;
+  if (problem) showError(problem);
+  const finished = run.jobStatus.reduce((n, st) => n + (st !== 0 ? 1 : 0), 0);
+  debug.checkpoints.push({ status, jobs: final ? run.jobs : finished });
+}
+
+/** Rebuild a run from what storage kept. Returns true when it worked. */
+async function restoreResults() {
+  let rec;
+  try {
+    rec = await loadResults();
+  } catch (err) {
+    showError(`Results kept from the last visit could not be read: ${messageOf(err)}`);
+    return false;
+  }
+  if (!rec) return false;
+  if (rec.kind === 'file') return showResultsText(rec.text, rec.fileName || 'a results file', 'storage');
+  let info;
+  try {
+    info = JSON.parse(state.wasm.validateConfig(rec.configJson));
+  } catch (err) {
+    showError(`Results kept from the last visit could not be restored: ${messageOf(err)}`);
+    return false;
+  }
+  const rc = new ResultsClient();
+  let answer;
+  try {
+    answer = await rc.restore(rec.configJson, rec.data);
+  } catch (err) {
+    rc.close();
+    showError(`Results kept from the last visit could not be restored: ${messageOf(err)}`);
+    return false;
+  }
+  freeResults();
+  state.results = rc;
+  const run = newRun(rec.configJson, info, 'storage');
+  for (const j of answer.jobs) {
+    run.stepsDone[j.id] = j.steps;
+    run.jobStatus[j.id] = j.status;
+  }
+  run.status = ['done', 'cancelled'].includes(rec.status) ? rec.status : 'interrupted';
+  const config = JSON.parse(rec.configJson);
+  run.threshold = typeof config.threshold === 'number' ? config.threshold : null;
+  state.run = run;
+  try {
+    state.summary = await rc.summary();
+  } catch {
+    state.summary = null;
+  }
+  run.summarised = true;
+  renderResults();
+  renderProgress();
+  renderButtons();
+  scheduleDraw();
+  if (run.status === 'interrupted') {
+    const done = run.jobStatus.reduce((n, st) => n + (st !== 0 ? 1 : 0), 0);
+    showNote(`The last run was interrupted; its ${done} finished job${done === 1 ? ' is' : 's are'} shown. Finish it to train the other ${run.jobs - done}.`, 15000);
+  }
+  return true;
 }
 
 // ---------------------------------------------------------------- results
@@ -613,19 +623,19 @@ function exportBase() {
   return fileStem(state.run?.title || state.config?.title);
 }
 
-function saveResultsFile() {
+async function saveResultsFile() {
   if (!state.results) return;
   try {
-    download(`${exportBase()}-results.json`, state.results.saveJson(), 'application/json');
+    download(`${exportBase()}-results.json`, await state.results.saveJson(), 'application/json');
   } catch (err) {
     showError(`could not write the results file: ${messageOf(err)}`);
   }
 }
 
-function exportCsv() {
+async function exportCsv() {
   if (!state.results) return;
   try {
-    download(`${exportBase()}.csv`, state.results.tidyCsv(), 'text/csv');
+    download(`${exportBase()}.csv`, await state.results.tidyCsv(), 'text/csv');
   } catch (err) {
     showError(`could not write the CSV: ${messageOf(err)}`);
   }
@@ -650,39 +660,36 @@ async function openResultsFile(file) {
     showError(messageOf(err));
     return;
   }
-  showResultsText(text, file.name, 'file');
+  await showResultsText(text, file.name, 'file');
 }
 
-/** Show saved results (results file format); returns true when it worked. */
-function showResultsText(text, fileName, origin) {
-  let results;
+/** Show saved results (results file format); resolves true when it worked. */
+async function showResultsText(text, fileName, origin) {
+  const rc = new ResultsClient();
   let configJson;
   let info;
+  let summary = null;
   try {
-    results = state.wasm.Results.fromSaved(text);
-    configJson = results.configJson();
+    ({ configJson } = await rc.openSaved(text));
     info = JSON.parse(state.wasm.validateConfig(configJson));
+    summary = await rc.summary();
   } catch (err) {
-    try { results?.free(); } catch { /* nothing to free */ }
+    rc.close();
     showError(`${fileName} could not be opened: ${messageOf(err)}`);
     return false;
   }
   freeResults();
-  state.results = results;
+  state.results = rc;
   const config = JSON.parse(configJson);
-  const run = newRun(configJson, info, origin === 'storage' ? 'file' : origin);
+  const run = newRun(configJson, info, 'file');
   run.status = 'opened';
   run.fileName = fileName;
+  run.summarised = true;
   run.threshold = typeof config.threshold === 'number' ? config.threshold : null;
   run.jobStatus.fill(1);
   run.stepsDone.fill(run.steps);
   state.run = run;
-  try {
-    state.summary = JSON.parse(results.summaryJson());
-  } catch (err) {
-    state.summary = null;
-    showError(`could not summarise ${fileName}: ${messageOf(err)}`);
-  }
+  state.summary = summary;
   // The form shows the experiment that produced the results.
   state.presetFile = '';
   renderPresetPicker();
@@ -692,7 +699,8 @@ function showResultsText(text, fileName, origin) {
   scheduleDraw();
   if (origin === 'file') {
     showNote(`Opened ${fileName}: ${info.labels.length} variants × ${info.seeds} seeds, not re-run.`);
-    saveResults({ kind: 'file', status: 'opened', configJson, fileName, text }).then((problem) => { if (problem) showError(problem); });
+    const problem = await saveResults({ kind: 'file', status: 'opened', configJson, fileName, text });
+    if (problem) showError(problem);
   }
   return true;
 }
@@ -719,20 +727,32 @@ function scheduleDraw() {
   requestAnimationFrame(() => { drawPending = false; draw(); });
 }
 
-/** Per-seed curves, cached per results version. */
-let seedCache = { key: '', data: [] };
-function seedCurves(run) {
-  const key = `${run.version}/${run.labels.length}/${run.seeds}/${run.configJson.length}`;
-  if (seedCache.key === key && seedCache.results === state.results) return seedCache.data;
-  const data = run.labels.map((_, v) => {
-    const out = [];
-    for (let s = 0; s < run.seeds; s++) {
-      try { out.push(state.results.seedCurve(v, s)); } catch (err) { reportDrawError(err); }
-    }
-    return out;
+/**
+ * Ask the results worker for fresh curves when the shown ones are out of
+ * date (one request at a time); the answer triggers a redraw.
+ */
+function requestCurves(run) {
+  const key = `${run.version}/${state.view.stat}/${state.view.seedLines}`;
+  if (curvesPending || (state.curves && state.curves.key === key && state.curves.run === run)) return;
+  // While training, fresh curves at most about three times a second.
+  const wait = CURVE_INTERVAL_MS - (performance.now() - lastCurveRequest);
+  const sameView = state.curves && state.curves.run === run && state.curves.key.endsWith(`/${state.view.stat}/${state.view.seedLines}`);
+  if (isActive() && sameView && wait > 0) {
+    if (!curveTimer) curveTimer = setTimeout(() => { curveTimer = 0; if (state.run === run) requestCurves(run); }, wait);
+    return;
+  }
+  lastCurveRequest = performance.now();
+  const rc = state.results;
+  curvesPending = true;
+  rc.curves(state.view.stat, state.view.seedLines).then((c) => {
+    curvesPending = false;
+    if (state.results !== rc || state.run !== run) return;
+    state.curves = { key, run, stat: state.view.stat, ...c };
+    scheduleDraw();
+  }, (err) => {
+    curvesPending = false;
+    if (state.results === rc) reportDrawError(err);
   });
-  seedCache = { key, data, results: state.results };
-  return data;
 }
 
 function draw() {
@@ -746,24 +766,22 @@ function draw() {
 
   const run = state.run;
   const stat = state.view.stat;
+  let drawStat = stat;
   let variants;
   let xMax;
   let note = '';
   let threshold = null;
   if (run && state.results) {
-    const seeds = state.view.seedLines ? seedCurves(run) : null;
-    variants = run.labels.map((label, v) => {
-      let curve;
-      let robust;
-      try {
-        curve = state.results.curve(v);
-        robust = stat === 'mean' ? undefined : state.results.curveRobust(v);
-      } catch (err) {
-        curve = new Float64Array(0);
-        reportDrawError(err);
-      }
-      return { label, curve, robust, seeds: seeds ? seeds[v] : undefined };
-    });
+    requestCurves(run);
+    const c = state.curves && state.curves.run === run ? state.curves : null;
+    variants = run.labels.map((label, v) => ({
+      label,
+      curve: c ? c.curves[v] : new Float64Array(0),
+      robust: c && c.robust ? c.robust[v] : undefined,
+      seeds: c && c.seeds && state.view.seedLines ? c.seeds[v] : undefined,
+    }));
+    // Until the worker answers for a new statistic, draw the mean.
+    if (stat !== 'mean' && !(c && c.robust)) drawStat = 'mean';
     xMax = run.steps;
     threshold = run.threshold;
     note = run.status === 'running' ? 'Waiting for the first finished episodes…' : 'No finished episodes to show.';
@@ -781,13 +799,13 @@ function draw() {
     width,
     height,
     dpr,
-    stat,
+    stat: drawStat,
     seedLines: state.view.seedLines,
     colours: chartColours(),
     palette: readPalette(),
     font: getComputedStyle(document.body).fontFamily,
   });
-  const statWord = { mean: 'mean with 95% band', iqm: 'interquartile mean', median: 'median' }[stat];
+  const statWord = { mean: 'mean with 95% band', iqm: 'interquartile mean', median: 'median' }[drawStat];
   ui.canvas.setAttribute('aria-label', `Learning curves (${statWord} over seeds) of ${variants.map((v) => v.label).join(', ') || 'no variants'}: return against environment steps`);
   debug.draws += 1;
   debug.lastDraw = { ...layout, dpr, width, height };

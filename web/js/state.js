@@ -9,7 +9,8 @@
  *   config      the experiment config object being edited (schema 1)
  *   check       {ok: true, info} from validateConfig, or {ok: false, message, path}
  *   run         null, or the current/last run (see newRun)
- *   results     the Results handle of the last run, or null (owned here; freed by main.js)
+ *   results     the ResultsClient (results.js) of the last run, or null (closed by main.js)
+ *   curves      the last curves the results worker sent: {key, run, stat, curves, robust, seeds}, or null
  *   summary     parsed summaryJson() of the last finished or cancelled run, or null
  *   view        how results are shown: {stat: 'mean'|'iqm'|'median', seedLines: bool, tab}
  *   messages    [{id, text}] errors shown in the message area
@@ -23,6 +24,7 @@ export function createState() {
     check: { ok: false, message: 'Loading the WebAssembly module…', path: '' },
     run: null,
     results: null,
+    curves: null,
     summary: null,
     view: { stat: 'mean', seedLines: false, tab: 'results' },
     messages: [],
@@ -59,31 +61,7 @@ export function newRun(configJson, info, origin = 'run') {
     resumedAt: 0,       // performance.now() when it last started running, 0 while paused
     stepsAtStart: 0,    // steps already done when this session of training started (resumed runs)
     version: 0,         // bumped whenever the results change (caches key on it)
-    records: Array.from({ length: jobs }, () => null),  // per job: {data: Float64Array, n} episode records (stride 5)
-    packed: Array.from({ length: jobs }, () => null),   // per finished job: its records as base64 (storage.js)
   };
-}
-
-/** Keep a message's episode records (stride 5, job id first) per job. */
-export function keepEpisodes(run, episodes) {
-  for (let i = 0; i + 5 <= episodes.length; i += 5) {
-    const j = episodes[i];
-    let r = run.records[j];
-    if (!r) { r = { data: new Float64Array(5 * 64), n: 0 }; run.records[j] = r; }
-    if (r.n + 5 > r.data.length) {
-      const bigger = new Float64Array(r.data.length * 2);
-      bigger.set(r.data.subarray(0, r.n));
-      r.data = bigger;
-    }
-    r.data.set(episodes.subarray(i, i + 5), r.n);
-    r.n += 5;
-  }
-}
-
-/** A job's kept episode records. */
-export function jobEpisodes(run, job) {
-  const r = run.records[job];
-  return r ? r.data.subarray(0, r.n) : new Float64Array(0);
 }
 
 /** Fraction of the run's step budget done, in [0, 1]; failed jobs count as complete. */

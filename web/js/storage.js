@@ -5,12 +5,13 @@
 //   critbox:experiment  {v: 1, config, presetFile, savedAt}
 //       the experiment being edited, written shortly after every edit.
 //   critbox:results     {v: 1, kind, status, configJson, fileName, savedAt, data}
-//       the last run's results. kind 'jobs': data is base64 of the gzip of
+//       the last run's results. kind 'jobs': data is base64url of the gzip of
 //       JSON {jobs: [{id, steps, status, failed, episodes}]} with episodes the
-//       base64 of a Float64Array of episode records (stride 5: job id, end
+//       base64url of a Float64Array of episode records (stride 5: job id, end
 //       step, base return, shaped return, length) as the workers send them;
-//       during a run only finished jobs are written. kind 'file': data is
-//       base64 of the gzip of an opened results file's text.
+//       during a run only finished jobs are written. The results worker packs
+//       and unpacks it (worker.js, 'res-pack' and 'res-restore'). kind
+//       'file': data is base64url of the gzip of an opened results file's text.
 // Anything unreadable is ignored with a message, never trusted: restored
 // configs go through the core's validator and records through Results.
 
@@ -73,18 +74,20 @@ export function base64ToF64(text) {
 
 /**
  * Save results.
- * @param {object} rec {kind: 'jobs', status, configJson, jobs: [{id, steps, status, failed, episodes: base64}]}
+ * @param {object} rec {kind: 'jobs', status, configJson, data (packed by the results worker)}
  *                  or {kind: 'file', status: 'opened', configJson, fileName, text}
  * @returns {Promise<string>} '' or a message saying why they were not kept
  */
 export async function saveResults(rec) {
   const s = store();
   if (!s) return 'this browser does not allow local storage, so results are not kept across reloads';
-  let data;
-  try {
-    data = await pack(rec.kind === 'file' ? rec.text : JSON.stringify({ jobs: rec.jobs }));
-  } catch (err) {
-    return `results could not be packed for local storage (${err.message})`;
+  let data = rec.data;
+  if (rec.kind === 'file') {
+    try {
+      data = await pack(rec.text);
+    } catch (err) {
+      return `results could not be packed for local storage (${err.message})`;
+    }
   }
   const entry = JSON.stringify({
     v: VERSION, kind: rec.kind, status: rec.status, configJson: rec.configJson,
@@ -101,8 +104,9 @@ export async function saveResults(rec) {
 }
 
 /**
- * The saved results, unpacked, or null.
- * @returns {Promise<null | {kind, status, configJson, fileName, jobs?, text?}>}
+ * The saved results, or null: kind 'file' unpacked to its text, kind 'jobs'
+ * with its packed data (for the results worker).
+ * @returns {Promise<null | {kind, status, configJson, fileName, data?, text?}>}
  * Throws an Error with a message when the entry is unreadable.
  */
 export async function loadResults() {
@@ -113,12 +117,9 @@ export async function loadResults() {
   if (!v || v.v !== VERSION || typeof v.data !== 'string' || typeof v.configJson !== 'string') {
     throw new Error('the results kept from the last visit are in a format this page does not read');
   }
-  const body = await unpack(v.data);
-  if (v.kind === 'file') return { kind: 'file', status: 'opened', configJson: v.configJson, fileName: v.fileName, text: body };
+  if (v.kind === 'file') return { kind: 'file', status: 'opened', configJson: v.configJson, fileName: v.fileName, text: await unpack(v.data) };
   if (v.kind !== 'jobs') throw new Error(`the kept results are of an unknown kind ${JSON.stringify(v.kind)}`);
-  const parsed = JSON.parse(body);
-  if (!parsed || !Array.isArray(parsed.jobs)) throw new Error('the kept results have no job list');
-  return { kind: 'jobs', status: String(v.status), configJson: v.configJson, fileName: '', jobs: parsed.jobs };
+  return { kind: 'jobs', status: String(v.status), configJson: v.configJson, fileName: '', data: v.data };
 }
 
 /** Forget the saved results. */

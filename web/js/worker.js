@@ -19,8 +19,26 @@
 //   {type:'probe-query', runId, qid, kind: 'rollout', maxSteps, seed, greedy}
 //     → {type:'probe-answer', runId, qid, data: Float64Array}
 //   Any failure: {type:'probe-error', runId, qid?, message}.
+//
+// And, in a third worker, the experiment's results (results.js is the page's
+// side): the Results handle lives here, so binning, bootstrap bands and
+// summaries never hold up the page. Messages are handled strictly in order.
+//   {type:'res-open', qid, config}                → {type:'res-ok', qid}
+//   {type:'res-open-saved', qid, text}            → {type:'res-ok', qid, configJson, jobs}
+//   {type:'res-restore', qid, config, data}       → {type:'res-ok', qid, jobs}   (data: see pack)
+//   {type:'res-add', progress, episodes, failures} (no answer; as training workers send them)
+//   {type:'res-fail', job, reason}                 (no answer)
+//   {type:'res-curves', qid, stat, seeds}         → {type:'res-curves', qid, curves: [Float64Array],
+//                                                     robust: [Float64Array] | null, seeds: [[Float64Array]] | null}
+//   {type:'res-summary' | 'res-save' | 'res-csv', qid} → {type:'res-text', qid, text}
+//   {type:'res-pack', qid, final}                 → {type:'res-text', qid, text}: base64url of the gzip of
+//       JSON {jobs: [{id, steps, status, failed, episodes}]}, episodes the base64url of the job's
+//       records (Float64Array, stride 5); all jobs when final, else the finished ones
+//   jobs in answers: [{id, steps, status, failed}]; any failure: {type:'res-error', qid, message}.
+// Every message may carry `wasm` (the module's bytes, single-file build).
 
 import { loadWasm, messageOf, provideWasmBytes } from './wasm.js';
+import { compress, decompress, toBase64Url, fromBase64Url } from './share.js';
 
 /** The current run in this worker, or null. */
 let current = null;
@@ -50,6 +68,11 @@ self.onmessage = (event) => {
     case 'probe-train': probeTrain(msg); break;
     case 'probe-query': probeQuery(msg); break;
     default:
+      if (typeof msg.type === 'string' && msg.type.startsWith('res-')) {
+        if (msg.wasm) provideWasmBytes(msg.wasm);
+        resQueue = resQueue.then(() => resHandle(msg));
+        break;
+      }
       post({ type: 'error', runId: msg.runId ?? null, message: `worker: unknown message type ${JSON.stringify(msg.type)}` });
   }
 };
@@ -246,6 +269,177 @@ function probeQuery(msg) {
   } catch (err) {
     post({ type: 'probe-error', runId: msg.runId, qid: msg.qid, message: messageOf(err) });
   }
+}
+
+// ---------------------------------------------------------------- results
+
+let resQueue = Promise.resolve();
+/** {results, jobs, records, steps, status, failed} or null. */
+let res = null;
+
+function resEmpty(results, jobs) {
+  return {
+    results,
+    jobs,
+    records: Array.from({ length: jobs }, () => null),
+    steps: new Float64Array(jobs),
+    status: new Uint8Array(jobs),
+    failed: new Map(),
+  };
+}
+
+function resKeep(episodes) {
+  for (let i = 0; i + 5 <= episodes.length; i += 5) {
+    const j = episodes[i];
+    let r = res.records[j];
+    if (!r) { r = { data: new Float64Array(5 * 64), n: 0 }; res.records[j] = r; }
+    if (r.n + 5 > r.data.length) {
+      const bigger = new Float64Array(r.data.length * 2);
+      bigger.set(r.data.subarray(0, r.n));
+      r.data = bigger;
+    }
+    r.data.set(episodes.subarray(i, i + 5), r.n);
+    r.n += 5;
+  }
+}
+
+function resJobs() {
+  return Array.from({ length: res.jobs }, (_, id) => ({ id, steps: res.steps[id], status: res.status[id], failed: res.failed.get(id) ?? null }));
+}
+
+function resFree() {
+  if (res && res.results) { try { res.results.free(); } catch { /* already freed */ } }
+  res = null;
+}
+
+const f64b64 = (a) => toBase64Url(new Uint8Array(a.buffer, a.byteOffset, a.byteLength));
+
+async function resHandle(msg) {
+  const answer = (m, transfer) => post({ qid: msg.qid, ...m }, transfer);
+  try {
+    const wasm = await loadWasm();
+    switch (msg.type) {
+      case 'res-open': {
+        resFree();
+        const results = new wasm.Results(msg.config);
+        res = resEmpty(results, JSON.parse(wasm.validateConfig(msg.config)).jobs);
+        answer({ type: 'res-ok' });
+        break;
+      }
+      case 'res-open-saved': {
+        resFree();
+        const results = wasm.Results.fromSaved(msg.text);
+        const configJson = results.configJson();
+        const info = JSON.parse(wasm.validateConfig(configJson));
+        res = resEmpty(results, info.jobs);
+        // The records of a results file, for keeping it: read them back from its own save.
+        const saved = JSON.parse(msg.text);
+        for (const j of saved.jobs || []) {
+          const id = Number(j.id);
+          const eps = new Float64Array((j.episodes || []).length * 5);
+          (j.episodes || []).forEach((e, k) => eps.set([id, e[0], e[1], e[2], e[3]], k * 5));
+          resKeep(eps);
+          res.steps[id] = Number(j.steps_done) || 0;
+          res.status[id] = j.failed ? 2 : 1;
+          if (j.failed) res.failed.set(id, String(j.failed));
+        }
+        answer({ type: 'res-ok', configJson, jobs: resJobs() });
+        break;
+      }
+      case 'res-restore': {
+        resFree();
+        const results = new wasm.Results(msg.config);
+        res = resEmpty(results, JSON.parse(wasm.validateConfig(msg.config)).jobs);
+        const body = new TextDecoder().decode(await decompress(fromBase64Url(msg.data), 'gzip'));
+        const parsed = JSON.parse(body);
+        if (!parsed || !Array.isArray(parsed.jobs)) throw new Error('the kept results have no job list');
+        for (const j of parsed.jobs) {
+          const id = Number(j.id);
+          if (!Number.isInteger(id) || id < 0 || id >= res.jobs) throw new Error(`job ${JSON.stringify(j.id)} is not in the experiment`);
+          const bytes = fromBase64Url(String(j.episodes ?? ''));
+          if (bytes.length % 8 !== 0) throw new Error(`job ${id}: an episode list that is not a whole number of values`);
+          const eps = new Float64Array(bytes.buffer, bytes.byteOffset, bytes.length / 8);
+          results.addEpisodes(eps);
+          resKeep(eps);
+          const steps = Number(j.steps) || 0;
+          results.setSteps(id, steps);
+          res.steps[id] = steps;
+          res.status[id] = j.status === 2 ? 2 : j.status === 1 ? 1 : 0;
+          if (j.failed !== null && j.failed !== undefined) {
+            results.markFailed(id, String(j.failed));
+            res.failed.set(id, String(j.failed));
+          }
+        }
+        answer({ type: 'res-ok', jobs: resJobs() });
+        break;
+      }
+      case 'res-add': {
+        if (!res) return;
+        if (msg.episodes && msg.episodes.length) { res.results.addEpisodes(msg.episodes); resKeep(msg.episodes); }
+        const p = msg.progress || [];
+        for (let k = 0; k + 3 <= p.length; k += 3) {
+          res.results.setSteps(p[k], p[k + 1]);
+          res.steps[p[k]] = p[k + 1];
+          res.status[p[k]] = p[k + 2];
+        }
+        for (const f of msg.failures || []) {
+          res.results.markFailed(f.job, String(f.reason));
+          res.status[f.job] = 2;
+          res.failed.set(f.job, String(f.reason));
+        }
+        break;
+      }
+      case 'res-fail': {
+        if (!res) return;
+        if (res.status[msg.job] === 0) {
+          res.results.markFailed(msg.job, String(msg.reason));
+          res.status[msg.job] = 2;
+          res.failed.set(msg.job, String(msg.reason));
+        }
+        break;
+      }
+      case 'res-curves': {
+        if (!res) throw new Error('no results are open');
+        const n = JSON.parse(res.results.configJson()).variants.length;
+        const seeds = res.jobs / n;
+        const curves = [];
+        const robust = msg.stat && msg.stat !== 'mean' ? [] : null;
+        const perSeed = msg.seeds ? [] : null;
+        for (let v = 0; v < n; v++) {
+          curves.push(owned(res.results.curve(v)));
+          if (robust) robust.push(owned(res.results.curveRobust(v)));
+          if (perSeed) perSeed.push(Array.from({ length: seeds }, (_, s) => owned(res.results.seedCurve(v, s))));
+        }
+        const transfer = [...curves, ...(robust || []), ...(perSeed || []).flat()].map((a) => a.buffer);
+        answer({ type: 'res-curves', curves, robust, seeds: perSeed }, transfer);
+        break;
+      }
+      case 'res-summary': answer({ type: 'res-text', text: mustRes().results.summaryJson() }); break;
+      case 'res-save': answer({ type: 'res-text', text: mustRes().results.saveJson() }); break;
+      case 'res-csv': answer({ type: 'res-text', text: mustRes().results.tidyCsv() }); break;
+      case 'res-pack': {
+        mustRes();
+        const jobs = [];
+        for (let id = 0; id < res.jobs; id++) {
+          if (!msg.final && res.status[id] === 0) continue;
+          const r = res.records[id];
+          jobs.push({ id, steps: res.steps[id], status: res.status[id], failed: res.failed.get(id) ?? null, episodes: f64b64(r ? r.data.subarray(0, r.n) : new Float64Array(0)) });
+        }
+        const packed = await compress(new TextEncoder().encode(JSON.stringify({ jobs })), 'gzip');
+        answer({ type: 'res-text', text: toBase64Url(packed) });
+        break;
+      }
+      case 'res-close': resFree(); break;
+      default: throw new Error(`unknown results message ${JSON.stringify(msg.type)}`);
+    }
+  } catch (err) {
+    if (msg.qid) answer({ type: 'res-error', message: messageOf(err) });
+  }
+}
+
+function mustRes() {
+  if (!res) throw new Error('no results are open');
+  return res;
 }
 
 function post(msg, transfer) {
