@@ -28,7 +28,7 @@ fn run_prints_the_summary_json() {
     assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
     let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
     let variants = v["variants"].as_array().unwrap();
-    assert_eq!(variants.len(), 2);
+    assert_eq!(variants.len(), 3, "the rover preset compares three variants");
     for var in variants {
         assert!(var["label"].is_string());
         assert!(var["final_return"]["mean"].is_f64());
