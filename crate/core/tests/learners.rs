@@ -435,6 +435,27 @@ fn a2c_with_a_gaussian_policy_regulates() {
 }
 
 #[test]
+fn a2c_with_mlp_actor_and_critic_balances_cartpole() {
+    // The MLP approximator (backpropagation checked against finite differences
+    // in approx::mlp) inside a learner: A2C with one hidden layer of 32 tanh
+    // units for the actor and for the critic, Adam, on cart-pole (Barto, Sutton
+    // & Anderson 1983). A uniform random policy lasts about 22 steps (common
+    // practice, no source). Stated level: every seed's final return at least
+    // 400 of the 500-step limit after 50 000 steps. Measured: 500 on every seed.
+    let p = one(
+        json!({"kind": "cartpole", "max_steps": 500}),
+        json!({"algo": "a2c",
+        "actor": {"kind": "mlp", "hidden": [32]}, "critic": {"kind": "mlp", "hidden": [32]},
+        "optimizer": {"kind": "adam"}, "actor_step": 0.001, "critic_step": 0.003}),
+        10,
+        50_000,
+        5,
+    );
+    let f: Vec<f64> = experiment::run_all(&p).final_per_seed(0).into_iter().map(|x| x.unwrap()).collect();
+    assert!(f.iter().all(|&x| x >= 400.0), "{f:?}");
+}
+
+#[test]
 fn a_diverging_continuous_learner_stops_with_a_reason() {
     // Too large a step on the regulator's large early costs makes the
     // Gaussian's mean blow up; the job stops with "diverged", not a panic.
