@@ -26,11 +26,22 @@ fn plan_of(json: &str) -> Result<Plan, JsError> {
 }
 
 /// Checks a config; returns a JSON description of the plan or throws with
-/// every problem, each naming its field.
+/// every problem, each naming its field. Besides the labels and sizes:
+/// `task_kind`, `state_names`, `state_low`/`state_high` (typical ranges),
+/// `action_names`, `continuous` (whether actions are continuous) and
+/// `grid_map` (a grid's map rows, a named layout's included; null otherwise).
 #[wasm_bindgen(js_name = validateConfig)]
 pub fn validate_config(json: &str) -> Result<String, JsError> {
     let plan = plan_of(json)?;
+    let grid_map = match &plan.config.task {
+        TaskConfig::Grid(g) => serde_json::json!(g.map),
+        _ => serde_json::Value::Null,
+    };
     let v = serde_json::json!({
+        "state_low": plan.spec.state_vars.iter().map(|v| v.low).collect::<Vec<_>>(),
+        "state_high": plan.spec.state_vars.iter().map(|v| v.high).collect::<Vec<_>>(),
+        "continuous": plan.spec.actions.discrete_count().is_none(),
+        "grid_map": grid_map,
         "title": plan.config.title,
         "labels": plan.variants.iter().map(|v| v.label.clone()).collect::<Vec<_>>(),
         "seeds": plan.config.seeds,

@@ -105,3 +105,27 @@ pub fn find(name: &str) -> Option<&'static Layout> {
 pub fn names() -> String {
     LAYOUTS.iter().map(|l| l.name).collect::<Vec<_>>().join(", ")
 }
+
+/// Every layout as JSON, for a page that offers them: `[{name, title, map,
+/// slip, step_reward, hazard_reward, hazard_restart, goal_reward,
+/// max_steps}]`.
+pub fn to_json() -> serde_json::Value {
+    serde_json::Value::Array(
+        LAYOUTS
+            .iter()
+            .map(|l| {
+                serde_json::json!({
+                    "name": l.name,
+                    "title": l.title,
+                    "map": l.map,
+                    "slip": l.slip,
+                    "step_reward": l.step_reward,
+                    "hazard_reward": l.hazard_reward,
+                    "hazard_restart": l.hazard_restart,
+                    "goal_reward": l.goal_reward,
+                    "max_steps": l.max_steps,
+                })
+            })
+            .collect(),
+    )
+}
