@@ -93,8 +93,10 @@ fn work_per_sweep(m: &FiniteModel) -> usize {
     m.outcomes.iter().flatten().map(|l| l.len().max(1)).sum::<usize>().max(1)
 }
 
-/// Value iteration to a residual below `tol`, within a work budget; `None`
-/// when it does not settle (unbounded values, or too slow to settle).
+/// Value iteration to a residual below `tol`, as [`exact::value_iteration`]
+/// does, but within a work budget (about 3·10⁸ outcome updates) so that an
+/// unbounded problem on a large map gives up quickly, in the page too;
+/// `None` when it does not settle (unbounded values, or too slow to settle).
 fn solve(m: &FiniteModel, gamma: f64, tol: f64) -> Option<Vec<f64>> {
     let sweeps = (300_000_000 / work_per_sweep(m)).clamp(2_000, 200_000);
     let mut v = vec![0.0; m.n_states];
@@ -157,7 +159,10 @@ fn uniform_policy(m: &FiniteModel, sets: &[Vec<usize>]) -> Vec<f64> {
     pi
 }
 
-/// Exact value of a policy, or `None` when it has none (γ = 1 and the policy never ends).
+/// Exact value of a policy, or `None` when it has none (γ = 1 and the policy
+/// never ends): [`exact::evaluate`]'s dense solve up to 600 states, beyond
+/// that (where an O(n³) solve is too slow) iterative evaluation with the
+/// same work budget as [`solve`].
 fn policy_value(m: &FiniteModel, pi: &[f64], gamma: f64, tol: f64) -> Option<Vec<f64>> {
     if m.n_states <= 600 {
         return exact::evaluate(m, pi, gamma).ok().filter(|v| v.iter().all(|x| x.is_finite()));

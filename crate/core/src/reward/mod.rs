@@ -10,7 +10,7 @@
 //!
 //! The formula language is our own small expression language:
 //! [`lex`] splits the text into tokens, [`parse`] builds a tree,
-//! [`print`] writes it back in canonical form, [`compile`] resolves names
+//! [`print`](mod@print) writes it back in canonical form, [`compile`] resolves names
 //! against a task, folds constants and emits a compact stack program that
 //! evaluates with no allocation. Errors carry the byte span, the column and
 //! a hint (an unknown name lists the closest known names). A [`Shaper`] is
