@@ -131,20 +131,29 @@ fn run(args: &[String]) -> Result<(), Failure> {
                     "--estimates" => estimates = number(a, it.next())?,
                     "--episodes" => episodes = number(a, it.next())?,
                     "--checkpoints" => {
-                        let v = it.next().ok_or_else(|| Failure::Usage("--checkpoints needs a list".into()))?;
-                        let list: Result<Vec<u64>, _> = v.split(',').map(|x| x.trim().parse::<u64>()).collect();
+                        let v =
+                            it.next().ok_or_else(|| Failure::Usage("--checkpoints needs a list".into()))?;
+                        let list: Result<Vec<u64>, _> =
+                            v.split(',').map(|x| x.trim().parse::<u64>()).collect();
                         checkpoints = Some(list.map_err(|_| {
-                            Failure::Usage(format!("--checkpoints: {v:?} is not a comma-separated list of steps"))
+                            Failure::Usage(format!(
+                                "--checkpoints: {v:?} is not a comma-separated list of steps"
+                            ))
                         })?);
                     }
                     other if other.starts_with("--") => {
                         return Err(Failure::Usage(format!("probe: unknown option {other:?}")))
                     }
                     other if config.is_none() => config = Some(other.to_string()),
-                    _ => return Err(Failure::Usage("`critbox probe` takes exactly one CONFIG argument".into())),
+                    _ => {
+                        return Err(Failure::Usage(
+                            "`critbox probe` takes exactly one CONFIG argument".into(),
+                        ))
+                    }
                 }
             }
-            let config = config.ok_or_else(|| Failure::Usage("`critbox probe` needs a CONFIG argument".into()))?;
+            let config =
+                config.ok_or_else(|| Failure::Usage("`critbox probe` needs a CONFIG argument".into()))?;
             let plan = plan_of(&config)?;
             let steps = plan.config.steps;
             let settings = critbox_core::experiment::probe::ProbeSettings {
