@@ -279,6 +279,27 @@ fn deserialize<T: for<'de> Deserialize<'de>>(v: &Value, prefix: &str) -> Result<
     })
 }
 
+/// The problem in a `task` object, with the path of its field, found by
+/// reading the object as the struct of its `kind`.
+fn task_problem(task: &Value) -> Option<Problem> {
+    fn as_kind<T: for<'de> Deserialize<'de>>(v: &Value) -> Option<Problem> {
+        let mut v = v.clone();
+        v.as_object_mut()?.remove("kind");
+        deserialize::<T>(&v, "task").err()
+    }
+    match task.get("kind")?.as_str()? {
+        "grid" => as_kind::<GridConfig>(task),
+        "cartpole" => as_kind::<CartPoleConfig>(task),
+        "mountain_car" => as_kind::<MountainCarConfig>(task),
+        "pendulum" => as_kind::<PendulumConfig>(task),
+        "server" => as_kind::<ServerConfig>(task),
+        "corridor" => as_kind::<CorridorConfig>(task),
+        "lqr" => as_kind::<LqrConfig>(task),
+        "random_mdp" => as_kind::<RandomMdpConfig>(task),
+        _ => None,
+    }
+}
+
 /// Parses and validates a config text.
 pub fn parse(text: &str) -> Result<Plan, ConfigError> {
     if text.len() > MAX_CONFIG_BYTES {
@@ -311,7 +332,12 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
             return Err(ConfigError::one("schema", format!("must be {SCHEMA}, got {other}")));
         }
     }
-    let config: Config = deserialize(value, "").map_err(|p| ConfigError { problems: vec![p] })?;
+    let config: Config = deserialize(value, "").map_err(|p| {
+        // The task is an internally tagged enum, whose errors lose the field
+        // path: read it again as its own kind to name the field.
+        let p = if p.path == "task" { task_problem(&value["task"]).unwrap_or(p) } else { p };
+        ConfigError { problems: vec![p] }
+    })?;
     let mut problems = Vec::new();
     let mut bad = |path: String, message: String| problems.push(Problem { path, message });
 
@@ -480,6 +506,13 @@ mod tests {
         v["task"] = serde_json::json!({"kind": "cartpole"});
         v["base"]["features"] = serde_json::json!({"kind": "tabular"});
         assert!(errors(v).starts_with("base.features.kind: \"tabular\" needs a finite task"));
+        let mut v = base_json();
+        v["task"]["slip"] = "lots".into();
+        assert!(errors(v).starts_with("task.slip: invalid type: string \"lots\""), "{}", errors(base_json()));
+        let mut v = base_json();
+        v["task"]["slipp"] = 0.1.into();
+        let e = errors(v);
+        assert!(e.starts_with("task: unknown field `slipp`") || e.starts_with("task.slipp: unknown field"), "{e}");
         assert!(parse("{\"schema\": 1,").unwrap_err().to_string().starts_with("not valid JSON at line 1"));
     }
 }
