@@ -94,11 +94,32 @@ export function bindForm(state, els, hooks) {
     if (texty !== (e.type === 'input')) return;
     const r = applyInput(state.config, el);
     if (r.error) state.formErrors.set(el.dataset.path, r.error); else state.formErrors.delete(el.dataset.path);
+    if (el.dataset.path === 'task.layout') fitLayoutMap(el.value);
     afterEdit(el, r.structural && !texty);
     if (r.structural && texty && el.dataset.type === 'constants') {
       const ta = el.closest('.reward')?.querySelector('textarea[data-formula]');
       if (ta) checkFormula(ta);
     }
+  }
+
+  /**
+   * A built-in floor and a map do not mix (the core refuses a config with
+   * both): choosing a floor drops the map; choosing your own map starts
+   * from the floor that was shown.
+   */
+  function fitLayoutMap(layout) {
+    const task = state.config.task;
+    if (layout) {
+      delete task.map;
+      return;
+    }
+    if (Array.isArray(task.map) && task.map.length) return;
+    const shown = state.check.ok && Array.isArray(state.check.info.grid_map) ? state.check.info.grid_map : null;
+    let rows = shown;
+    if (!rows && state.wasm && typeof state.wasm.gridLayouts === 'function') {
+      try { rows = JSON.parse(state.wasm.gridLayouts()).find((l) => l.name === 'rover')?.map; } catch { rows = null; }
+    }
+    if (rows) task.map = rows.slice();
   }
 
   function focusPath(path) {
