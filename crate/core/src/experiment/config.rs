@@ -512,7 +512,10 @@ mod tests {
         let mut v = base_json();
         v["task"]["slipp"] = 0.1.into();
         let e = errors(v);
-        assert!(e.starts_with("task: unknown field `slipp`") || e.starts_with("task.slipp: unknown field"), "{e}");
+        assert!(
+            e.starts_with("task: unknown field `slipp`") || e.starts_with("task.slipp: unknown field"),
+            "{e}"
+        );
         assert!(parse("{\"schema\": 1,").unwrap_err().to_string().starts_with("not valid JSON at line 1"));
     }
 }
