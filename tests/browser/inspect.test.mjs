@@ -144,3 +144,36 @@ test('continuous task: a value slice and a cart-pole episode', async () => {
   assert.deepEqual(problems, []);
   await context.close();
 });
+
+test('gradient variance by baseline: the page shows what `critbox probe` computes', async () => {
+  const { execFile } = await import('node:child_process');
+  const { promisify } = await import('node:util');
+  const { writeFile, mkdtemp } = await import('node:fs/promises');
+  const os = await import('node:os');
+  const CLI = process.env.CRITBOX_CLI || path.join(ROOT, 'target', 'release', 'critbox');
+  const { page, context, problems } = await openPage(env);
+  await page.fill('#seeds', '2');
+  await page.fill('#steps', '4000');
+  await runToEnd(page);
+  await page.click('#tab-variance');
+  await page.selectOption('#var-variant', '0');
+  await page.selectOption('#var-seed', '1');
+  await page.selectOption('#var-points', '3');
+  await page.fill('#var-k', '12');
+  await page.fill('#var-m', '3');
+  await page.click('#var-go');
+  await page.waitForFunction(() => window.__critbox.variance() && !document.getElementById('var-go').disabled, null, { timeout: 60000 });
+  const { result, drawn } = await page.evaluate(() => window.__critbox.variance());
+  const configJson = await page.evaluate(() => window.__critbox.state.run.configJson);
+  const dir = await mkdtemp(path.join(os.tmpdir(), 'critbox-'));
+  await writeFile(path.join(dir, 'c.json'), configJson);
+  const { stdout } = await promisify(execFile)(CLI, ['probe', path.join(dir, 'c.json'), '--variant', '0', '--seed', '1',
+    '--checkpoints', '0,2000,4000', '--estimates', '12', '--episodes', '3'], { maxBuffer: 1 << 24 });
+  assert.deepEqual(result, JSON.parse(stdout));
+  const options = result.checkpoints[0].options.length;
+  assert.equal(await page.locator('#var-body tr').count(), 3 * options);
+  assert.deepEqual(drawn, Array(options).fill(3), 'a line of three points per baseline option');
+  await shoot(page, 'gradient-variance.png', { scrollBench: 200 });
+  assert.deepEqual(problems, []);
+  await context.close();
+});

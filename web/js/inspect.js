@@ -87,6 +87,24 @@ export class Probe {
     });
   }
 
+  /**
+   * The gradient-variance probe of job (variant, seed) at the given steps:
+   * resolves with its parsed JSON (see DEVELOPERS.md, WebAssembly API, probe).
+   */
+  async variance(configJson, variant, seed, checkpoints, estimates, episodes) {
+    this.#ensure();
+    const qid = this.nextQid++;
+    const wasm = wasmForWorker();
+    const text = await new Promise((resolve, reject) => {
+      this.pending.set(qid, { resolve, reject });
+      this.worker.postMessage({
+        type: 'probe-variance', runId: this.runId, qid, config: configJson, variant, seed,
+        checkpoints: Float64Array.from(checkpoints), estimates, episodes, wasm,
+      }, wasm ? [wasm] : []);
+    });
+    return JSON.parse(text);
+  }
+
   stop() {
     this.#failAll('stopped');
     if (this.worker) this.worker.terminate();

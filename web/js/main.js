@@ -14,6 +14,7 @@ import { drawCurves, drawSample, sizeCanvas, seriesStyle } from './chart.js';
 import { findControls, pathOfMessage, controlForPath, DEFAULT_GRID_TASK } from './controls.js';
 import { bindForm } from './form.js';
 import { createInspectView } from './inspectview.js';
+import { createVarianceView } from './varianceview.js';
 import {
   renderScores, renderComparisons, renderAdvisor, SCORE_COLUMNS, COMPARISON_COLUMNS, ADVISOR_COLUMNS,
 } from './tables.js';
@@ -96,7 +97,14 @@ const inspector = createInspectView({
 let progressTimer = 0;
 
 // For tests and for curious people in the console: read-only by convention.
-const debug = { state, ready: false, draws: 0, lastDraw: null, checkpoints: [], inspected: () => inspector.debug() };
+const variance = createVarianceView({
+  state,
+  showError: (t) => showError(t),
+  colours: () => chartColours(),
+  palette: () => readPalette(),
+  font: () => getComputedStyle(document.body).fontFamily,
+});
+const debug = { state, ready: false, draws: 0, lastDraw: null, checkpoints: [], inspected: () => inspector.debug(), variance: () => variance.debug() };
 window.__critbox = debug;
 
 // ---------------------------------------------------------------- messages
@@ -617,6 +625,7 @@ function renderResults() {
   ui.scoresNote.textContent = note;
   renderButtons();
   inspector.refresh();
+  variance.refresh();
 }
 
 function exportBase() {
@@ -913,6 +922,7 @@ function selectTab(tab, focus = false) {
   if (focus) tab.focus();
   scheduleDraw();
   if (state.view.tab === 'inspect') { inspector.refresh(); requestAnimationFrame(() => inspector.draw()); }
+  if (state.view.tab === 'variance') { variance.refresh(); requestAnimationFrame(() => variance.draw()); }
 }
 
 function bindTabs() {
@@ -956,6 +966,7 @@ function bind() {
   window.matchMedia('(prefers-color-scheme: dark)').addEventListener('change', () => {
     scheduleDraw();
     inspector.draw();
+    variance.draw();
     if (state.summary) renderResults();
   });
 }

@@ -18,6 +18,9 @@
 //     → {type:'probe-answer', runId, qid, data: Float64Array}
 //   {type:'probe-query', runId, qid, kind: 'rollout', maxSteps, seed, greedy}
 //     → {type:'probe-answer', runId, qid, data: Float64Array}
+//   {type:'probe-variance', runId, qid, config, variant, seed, checkpoints: Float64Array,
+//    estimates, episodes, wasm}  (the gradient-variance probe, wasm `probe`)
+//     → {type:'probe-answer', runId, qid, data: JSON text}
 //   Any failure: {type:'probe-error', runId, qid?, message}.
 //
 // And, in a third worker, the experiment's results (results.js is the page's
@@ -67,6 +70,7 @@ self.onmessage = (event) => {
       break;
     case 'probe-train': probeTrain(msg); break;
     case 'probe-query': probeQuery(msg); break;
+    case 'probe-variance': probeVariance(msg); break;
     default:
       if (typeof msg.type === 'string' && msg.type.startsWith('res-')) {
         if (msg.wasm) provideWasmBytes(msg.wasm);
@@ -251,6 +255,17 @@ async function probeTrain(msg) {
       [states.buffer, values.buffer]);
   } catch (err) {
     fail(messageOf(err));
+  }
+}
+
+async function probeVariance(msg) {
+  if (msg.wasm) provideWasmBytes(msg.wasm);
+  try {
+    const wasm = await loadWasm();
+    const text = wasm.probe(msg.config, msg.variant, msg.seed, msg.checkpoints, msg.estimates, msg.episodes);
+    post({ type: 'probe-answer', runId: msg.runId, qid: msg.qid, data: text });
+  } catch (err) {
+    post({ type: 'probe-error', runId: msg.runId, qid: msg.qid, message: messageOf(err) });
   }
 }
 
