@@ -78,3 +78,32 @@ test('a variant with a reward of its own: a potential, checked as it is typed, t
   assert.deepEqual(problems, []);
   await context.close();
 });
+
+test('a bonus that teaches loops: the shaped curve rises, the task return does not, the table says so', async () => {
+  const { page, context, problems } = await openPage(env);
+  await page.click('#presets button[data-preset="rover-loop-bonus.json"]');
+  await page.waitForFunction(() => window.__critbox.state.presetFile === 'rover-loop-bonus.json');
+  await page.fill('#seeds', '4');
+  await page.fill('#steps', '20000');
+  await runToEnd(page);
+  const s = await page.evaluate(() => window.__critbox.state.summary);
+  const flagged = s.variants.map((v) => v.hacking.flag);
+  assert.deepEqual(flagged, [false, true], 'the core flags the bonus variant only');
+  // The table shows the warning on the bonus variant's row only.
+  const warnings = await page.locator('#scores-body tr.hacking').allTextContents();
+  assert.equal(warnings.length, 1);
+  assert.match(warnings[0], /Possible reward hacking: .*\(\d+ of 4 seeds\)/);
+  // The shaped curve is drawn from the shaped returns: for the task-reward
+  // variant it equals the task-return curve (the reward is the task's own).
+  await page.click('label[for=stat-shaped]');
+  await page.waitForFunction(() => window.__critbox.lastDraw.stat === 'shaped');
+  const [shaped, base] = await page.evaluate(() => [
+    Array.from(window.__critbox.state.curves.curves[0]),
+    window.__critbox.state.summary.variants[0].curve.mean,
+  ]);
+  const shapedMeans = shaped.filter((_, i) => i % 5 === 1);
+  assert.deepEqual(shapedMeans.map((x) => (Number.isFinite(x) ? x : null)), base);
+  await shoot(page, 'reward-hacking.png', { scrollBench: 300 });
+  assert.deepEqual(problems, []);
+  await context.close();
+});

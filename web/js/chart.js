@@ -24,6 +24,7 @@ export const STATS = {
   mean: 'return: mean over seeds with 95% bootstrap band',
   iqm: 'return: interquartile mean over seeds',
   median: 'return: median over seeds',
+  shaped: 'shaped return (trained on): mean with 95% t band',
 };
 
 export function seriesStyle(i, palette = PALETTE) {
@@ -100,7 +101,8 @@ function runsWhere(n, pred) {
  * @param {object} options
  *   width, height (CSS px), dpr,
  *   colours: {background, ink, muted, grid}, palette: [css colours], font: css font family,
- *   stat: 'mean' (default) | 'iqm' | 'median', seedLines: bool (draw data.variants[i].seeds),
+ *   stat: 'mean' (default) | 'iqm' | 'median' | 'shaped' (curve then holds the shaped return's
+ *   curve, same stride), seedLines: bool (draw data.variants[i].seeds),
  *   xLabel, yLabel (optional axis titles)
  * @returns {{plot:{x,y,w,h}, x:[number,number], y:[number,number], series:Array}}
  *   layout in CSS px; series[i] = {label, colour, dash, points (finite means drawn)}
@@ -139,7 +141,7 @@ export function drawCurves(ctx, data, options) {
     const n = Math.floor(c.length / CURVE_STRIDE);
     for (let k = 0; k < n; k++) {
       widen(lineAt[i](k));
-      if (stat === 'mean') { widen(c[k * CURVE_STRIDE + 2]); widen(c[k * CURVE_STRIDE + 3]); }
+      if (stat === 'mean' || stat === 'shaped') { widen(c[k * CURVE_STRIDE + 2]); widen(c[k * CURVE_STRIDE + 3]); }
     }
     if (seedLines && v.seeds) for (const s of v.seeds) for (const y of s) widen(y);
   });
@@ -217,7 +219,7 @@ export function drawCurves(ctx, data, options) {
     });
   }
   variants.forEach((v, i) => {
-    if (stat !== 'mean') return;
+    if (stat !== 'mean' && stat !== 'shaped') return;
     const c = v.curve || [];
     const n = Math.floor(c.length / CURVE_STRIDE);
     const at = (k, f) => c[k * CURVE_STRIDE + f];

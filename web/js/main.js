@@ -752,12 +752,15 @@ function requestCurves(run) {
   }
   lastCurveRequest = performance.now();
   const rc = state.results;
+  const { stat, seedLines } = state.view;
   curvesPending = true;
-  rc.curves(state.view.stat, state.view.seedLines).then((c) => {
+  rc.curves(stat, seedLines).then((c) => {
     curvesPending = false;
     if (state.results !== rc || state.run !== run) return;
-    state.curves = { key, run, stat: state.view.stat, ...c };
+    state.curves = { key, run, stat, seedLines, curves: c.curves, robust: c.robust, seeds: c.seeds };
     scheduleDraw();
+    // The view may have changed while the worker was busy.
+    if (state.view.stat !== stat || state.view.seedLines !== seedLines) requestCurves(run);
   }, (err) => {
     curvesPending = false;
     if (state.results === rc) reportDrawError(err);
@@ -789,8 +792,8 @@ function draw() {
       robust: c && c.robust ? c.robust[v] : undefined,
       seeds: c && c.seeds && state.view.seedLines ? c.seeds[v] : undefined,
     }));
-    // Until the worker answers for a new statistic, draw the mean.
-    if (stat !== 'mean' && !(c && c.robust)) drawStat = 'mean';
+    // Until the worker answers for a new statistic, draw what it has.
+    if (!c || c.stat !== stat) drawStat = c ? c.stat : 'mean';
     xMax = run.steps;
     threshold = run.threshold;
     note = run.status === 'running' ? 'Waiting for the first finished episodes…' : 'No finished episodes to show.';
@@ -814,7 +817,7 @@ function draw() {
     palette: readPalette(),
     font: getComputedStyle(document.body).fontFamily,
   });
-  const statWord = { mean: 'mean with 95% band', iqm: 'interquartile mean', median: 'median' }[drawStat];
+  const statWord = { mean: 'mean with 95% band', iqm: 'interquartile mean', median: 'median', shaped: 'mean shaped return' }[drawStat];
   ui.canvas.setAttribute('aria-label', `Learning curves (${statWord} over seeds) of ${variants.map((v) => v.label).join(', ') || 'no variants'}: return against environment steps`);
   debug.draws += 1;
   debug.lastDraw = { ...layout, dpr, width, height };

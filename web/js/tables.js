@@ -118,13 +118,24 @@ export function renderScores(tbody, summary, opts = {}) {
       num2(`${fr.n ?? 0} of ${summary.seeds ?? '?'}`, failed.length ? `${failed.length} failed` : `${v.episodes ?? 0} episodes`,
         'Seeds with a final return, of all seeds; episodes finished over all seeds'),
     );
-    if (!failed.length) return [tr];
-    tr.className = 'pair-row';
-    const more = el('tr', null, 'fail-row');
-    const td = el('td', `Failed: ${failed.map((f) => `seed ${f.seed}: ${f.reason}`).join('; ')}`, 'fail');
-    td.colSpan = SCORE_COLUMNS.length;
-    more.append(td);
-    return [tr, more];
+    const extra = [];
+    if (failed.length) {
+      const more = el('tr', null, 'fail-row');
+      const td = el('td', `Failed: ${failed.map((f) => `seed ${f.seed}: ${f.reason}`).join('; ')}`, 'fail');
+      td.colSpan = SCORE_COLUMNS.length;
+      more.append(td);
+      extra.push(more);
+    }
+    const h = v.hacking;
+    if (h && h.flag) {
+      const more = el('tr', null, 'fail-row hacking');
+      const td = el('td', `Possible reward hacking: the shaped return rose by ${fmt(h.shaped_change)} over the run while the task's return changed by ${fmt(h.base_change)} (${h.seeds_flagged} of ${h.seeds} seeds). Judge this variant by its task return.`, 'fail');
+      td.colSpan = SCORE_COLUMNS.length;
+      more.append(td);
+      extra.push(more);
+    }
+    if (extra.length) tr.className = 'pair-row';
+    return [tr, ...extra];
   });
   tbody.replaceChildren(...rows);
 }

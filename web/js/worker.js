@@ -31,7 +31,8 @@
 //   {type:'res-restore', qid, config, data}       → {type:'res-ok', qid, jobs}   (data: see pack)
 //   {type:'res-add', progress, episodes, failures} (no answer; as training workers send them)
 //   {type:'res-fail', job, reason}                 (no answer)
-//   {type:'res-curves', qid, stat, seeds}         → {type:'res-curves', qid, curves: [Float64Array],
+//   {type:'res-curves', qid, stat, seeds}         → {type:'res-curves', qid, curves: [Float64Array] (the shaped
+//                                                     return's when stat is 'shaped'),
 //                                                     robust: [Float64Array] | null, seeds: [[Float64Array]] | null}
 //   {type:'res-summary' | 'res-save' | 'res-csv', qid} → {type:'res-text', qid, text}
 //   {type:'res-pack', qid, final}                 → {type:'res-text', qid, text}: base64url of the gzip of
@@ -421,7 +422,7 @@ async function resHandle(msg) {
         const robust = msg.stat && msg.stat !== 'mean' ? [] : null;
         const perSeed = msg.seeds ? [] : null;
         for (let v = 0; v < n; v++) {
-          curves.push(owned(res.results.curve(v)));
+          curves.push(owned(msg.stat === 'shaped' ? res.results.curveShaped(v) : res.results.curve(v)));
           if (robust) robust.push(owned(res.results.curveRobust(v)));
           if (perSeed) perSeed.push(Array.from({ length: seeds }, (_, s) => owned(res.results.seedCurve(v, s))));
         }
