@@ -279,3 +279,41 @@ test('a missing wasm file is reported and Train stays off with the reason', asyn
   await shoot(page, 'wasm-missing.png');
   await context.close();
 });
+
+test('keyboard: tabs move with the arrow keys, Train starts from the keyboard, every button has a name', async () => {
+  const { page, context, problems } = await openPage(env);
+  await page.fill('#seeds', '2');
+  await page.fill('#steps', '1000');
+  await page.waitForFunction(() => !document.getElementById('train').disabled);
+  // Every button and every control has an accessible name.
+  const nameless = await page.evaluate(() => [...document.querySelectorAll('button')]
+    .filter((b) => !(b.getAttribute('aria-label') || b.textContent).trim()).map((b) => b.id || b.outerHTML.slice(0, 80)));
+  assert.deepEqual(nameless, []);
+  const unlabelled = await page.evaluate(() => [...document.querySelectorAll('input, select, textarea, progress')]
+    .filter((el) => !el.labels || el.labels.length === 0).map((el) => el.id || el.outerHTML.slice(0, 80)));
+  assert.deepEqual(unlabelled, []);
+  // The view tabs: arrow keys, Home and End move the selection and the focus.
+  await page.focus('#tab-results');
+  await page.keyboard.press('ArrowRight');
+  assert.equal(await page.evaluate(() => document.activeElement.id), 'tab-variance');
+  assert.equal(await page.getAttribute('#tab-variance', 'aria-selected'), 'true');
+  assert.equal(await page.isVisible('#panel-variance'), true);
+  await page.keyboard.press('End');
+  assert.equal(await page.evaluate(() => document.activeElement.id), 'tab-inspect');
+  await page.keyboard.press('Home');
+  assert.equal(await page.evaluate(() => document.activeElement.id), 'tab-results');
+  assert.equal(await page.isVisible('#panel-inspect'), false);
+  // A preset from the keyboard, then Train with Enter.
+  await page.focus('#presets button[data-preset="cartpole-a2c-tiles.json"]');
+  await page.keyboard.press('Enter');
+  await page.waitForFunction(() => window.__critbox.state.presetFile === 'cartpole-a2c-tiles.json');
+  await page.fill('#seeds', '1');
+  await page.fill('#steps', '1000');
+  await page.waitForFunction(() => !document.getElementById('train').disabled);
+  await page.focus('#train');
+  await page.keyboard.press('Enter');
+  await waitForRunEnd(page, 60000);
+  assert.equal(await page.evaluate(() => window.__critbox.state.run.status), 'done');
+  assert.deepEqual(problems, []);
+  await context.close();
+});
