@@ -6,6 +6,7 @@
 //! config's rewards; `critbox serve` serves the page on 127.0.0.1.
 //! Exit codes: 0 success, 2 bad input (config or usage), 1 other failures.
 
+mod bench;
 mod serve;
 
 use std::path::{Path, PathBuf};
@@ -29,6 +30,9 @@ usage:
                                    policy_changed, differing_states, base_value_loss)
   critbox serve [--root DIR] [--port N]
                                    serve the page on 127.0.0.1 (default root web, port 8000)
+  critbox bench CONFIG.json [--job J] [--steps N] [--rss-at A,B,..]
+                                   time job J (default 0) for N steps (default the config's budget) and
+                                   print steps per second as JSON; --rss-at records resident memory
   critbox help                     this text
 
 A CONFIG of '-' reads standard input. Exit codes: 0 ok, 2 bad config or usage, 1 other errors.";
@@ -208,6 +212,43 @@ fn run(args: &[String]) -> Result<(), Failure> {
                 }
             }
             serve_root(&root, port)
+        }
+        "bench" => {
+            let (mut config, mut job, mut steps, mut rss_at) = (None, 0usize, None, Vec::new());
+            let mut it = rest.iter();
+            while let Some(a) = it.next() {
+                let mut value = || it.next().ok_or_else(|| Failure::Usage(format!("{a} needs a value")));
+                match a.as_str() {
+                    "--job" | "--steps" => {
+                        let v = value()?;
+                        let n: u64 = v
+                            .parse()
+                            .map_err(|_| Failure::Usage(format!("{a}: {v:?} is not a whole number")))?;
+                        if a == "--job" {
+                            job = n as usize
+                        } else {
+                            steps = Some(n)
+                        }
+                    }
+                    "--rss-at" => {
+                        for part in value()?.split(',') {
+                            rss_at.push(part.trim().parse().map_err(|_| {
+                                Failure::Usage(format!("--rss-at: {part:?} is not a whole number"))
+                            })?);
+                        }
+                    }
+                    other if other.starts_with("--") => {
+                        return Err(Failure::Usage(format!("bench: unknown option {other:?}")))
+                    }
+                    other if config.is_none() => config = Some(other.to_string()),
+                    _ => return Err(Failure::Usage("`critbox bench` takes exactly one CONFIG argument".into())),
+                }
+            }
+            let config =
+                config.ok_or_else(|| Failure::Usage("`critbox bench` needs a CONFIG argument".into()))?;
+            let plan = plan_of(&config)?;
+            let steps = steps.unwrap_or(plan.config.steps);
+            print_json(&bench::bench(&plan, job, steps, &rss_at).map_err(Failure::Usage)?)
         }
         "help" | "--help" | "-h" => {
             println!("{USAGE}");
