@@ -3,7 +3,7 @@
 
 use critbox_core::experiment::{self, Job, JobStatus, Plan};
 use critbox_core::task::grid::{GridConfig, GridWorld, ROVER_MAP};
-use critbox_core::task::{FiniteModel, Task};
+use critbox_core::task::Task;
 
 fn preset(name: &str) -> String {
     let path = format!("{}/../../web/presets/{name}", env!("CARGO_MANIFEST_DIR"));
@@ -16,31 +16,6 @@ fn plan_with(name: &str, edit: impl FnOnce(&mut serde_json::Value)) -> Plan {
     experiment::config::validate_value(&v).unwrap()
 }
 
-/// Optimal values by value iteration (Bellman optimality equation; Sutton &
-/// Barto 2018, Section 4.4), iterated to a fixed point.
-fn optimal_values(m: &FiniteModel, gamma: f64) -> Vec<f64> {
-    let mut v = vec![0.0; m.n_states];
-    for _ in 0..10_000 {
-        let mut change: f64 = 0.0;
-        for s in 0..m.n_states {
-            if m.terminal[s] {
-                continue;
-            }
-            let best = (0..m.n_actions)
-                .map(|a| {
-                    m.outcomes[s][a].iter().map(|o| o.prob * (o.reward + gamma * v[o.next])).sum::<f64>()
-                })
-                .fold(f64::NEG_INFINITY, f64::max);
-            change = change.max((best - v[s]).abs());
-            v[s] = best;
-        }
-        if change < 1e-12 {
-            break;
-        }
-    }
-    v
-}
-
 #[test]
 fn rover_map_optimum_by_value_iteration() {
     // Exact solution (dynamic programming on the task's own model): the
@@ -48,7 +23,8 @@ fn rover_map_optimum_by_value_iteration() {
     // on the map), and cutting through a spill saves 4 moves but costs 10.
     let w = GridWorld::new(GridConfig::default()).unwrap();
     let m = w.model().unwrap();
-    let v = optimal_values(&m, 1.0);
+    // Value iteration (Sutton & Barto 2018, Section 4.4).
+    let v = critbox_core::exact::value_iteration(&m, 1.0, 1e-12).unwrap().values;
     let s0 = m.start.iter().position(|&p| p == 1.0).unwrap();
     assert!((v[s0] + 17.0).abs() < 1e-9, "optimal start value {}", v[s0]);
     assert_eq!(ROVER_MAP.len(), 7);

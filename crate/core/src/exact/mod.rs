@@ -144,15 +144,20 @@ pub struct Optimal {
     pub greedy: Vec<Vec<usize>>,
 }
 
-/// Value iteration (at most 200 000 sweeps; it stops early when values
-/// grow past 1e15, as with a rewarding loop under discount 1) to a residual
-/// below `tol` (Bellman optimality equation;
-/// Sutton & Barto 2018, Section 4.4). Actions whose value is within
-/// `1e-9 · max(1, |best|)` of the best are all reported as optimal.
-pub fn value_iteration(m: &FiniteModel, gamma: f64, tol: f64) -> Result<Optimal, ExactError> {
+/// Optimal state values by in-place value iteration: at most `max_sweeps`
+/// sweeps, giving up as soon as a value grows past `bound` in size (a
+/// rewarding loop under discount 1 never settles), until the largest change
+/// in a sweep is below `tol`.
+pub fn optimal_values(
+    m: &FiniteModel,
+    gamma: f64,
+    tol: f64,
+    max_sweeps: usize,
+    bound: f64,
+) -> Result<Vec<f64>, ExactError> {
     let mut v = vec![0.0; m.n_states];
     let mut residual = f64::INFINITY;
-    for _ in 0..200_000 {
+    for _ in 0..max_sweeps {
         residual = 0.0;
         for s in 0..m.n_states {
             if m.terminal[s] {
@@ -169,14 +174,23 @@ pub fn value_iteration(m: &FiniteModel, gamma: f64, tol: f64) -> Result<Optimal,
             residual = residual.max((best - v[s]).abs());
             v[s] = best;
         }
-        // Unbounded values (a rewarding loop with discount 1) never settle.
-        if residual < tol || v.iter().any(|x| x.abs() > 1e15) {
-            break;
+        if !residual.is_finite() || v.iter().any(|x| x.abs() > bound) {
+            return Err(ExactError::NoConvergence { residual });
+        }
+        if residual < tol {
+            return Ok(v);
         }
     }
-    if residual.is_nan() || residual >= tol {
-        return Err(ExactError::NoConvergence { residual });
-    }
+    Err(ExactError::NoConvergence { residual })
+}
+
+/// Value iteration (at most 200 000 sweeps; it stops early when values
+/// grow past 1e15, as with a rewarding loop under discount 1) to a residual
+/// below `tol` (Bellman optimality equation;
+/// Sutton & Barto 2018, Section 4.4). Actions whose value is within
+/// `1e-9 · max(1, |best|)` of the best are all reported as optimal.
+pub fn value_iteration(m: &FiniteModel, gamma: f64, tol: f64) -> Result<Optimal, ExactError> {
+    let v = optimal_values(m, gamma, tol, 200_000, 1e15)?;
     let q = q_values(m, &v, gamma);
     let na = m.n_actions;
     let greedy = (0..m.n_states)

@@ -99,32 +99,7 @@ fn work_per_sweep(m: &FiniteModel) -> usize {
 /// `None` when it does not settle (unbounded values, or too slow to settle).
 fn solve(m: &FiniteModel, gamma: f64, tol: f64) -> Option<Vec<f64>> {
     let sweeps = (300_000_000 / work_per_sweep(m)).clamp(2_000, 200_000);
-    let mut v = vec![0.0; m.n_states];
-    for _ in 0..sweeps {
-        let mut residual: f64 = 0.0;
-        for s in 0..m.n_states {
-            if m.terminal[s] {
-                continue;
-            }
-            let best = (0..m.n_actions)
-                .map(|a| {
-                    m.outcomes[s][a]
-                        .iter()
-                        .map(|o| o.prob * (o.reward + if o.terminal { 0.0 } else { gamma * v[o.next] }))
-                        .sum::<f64>()
-                })
-                .fold(f64::NEG_INFINITY, f64::max);
-            residual = residual.max((best - v[s]).abs());
-            v[s] = best;
-        }
-        if !residual.is_finite() || v.iter().any(|x| x.abs() > 1e13) {
-            return None;
-        }
-        if residual < tol {
-            return Some(v);
-        }
-    }
-    None
+    exact::optimal_values(m, gamma, tol, sweeps, 1e13).ok()
 }
 
 /// The optimal action sets from action values `q[s * n_actions + a]`.
