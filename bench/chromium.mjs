@@ -1,0 +1,54 @@
+// Bench driver: headless Chromium (Debian's /usr/bin/chromium, never a
+// downloaded browser) on bench/page.html, served from the repository root by
+// `critbox serve` on 127.0.0.1. Prints one JSON object on stdout.
+// usage: node bench/chromium.mjs single CONFIG.json STEPS
+//        node bench/chromium.mjs pool CONFIG.json WORKERS
+import path from 'node:path';
+import { spawn } from 'node:child_process';
+import { createRequire } from 'node:module';
+import { fileURLToPath } from 'node:url';
+
+const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
+const require = createRequire(path.join(root, 'tests/browser/package.json'));
+const { chromium } = require('playwright-core');
+
+const [mode, configPath, arg] = process.argv.slice(2);
+if (!['single', 'pool'].includes(mode) || !configPath || !arg) {
+  console.error('usage: node bench/chromium.mjs single|pool CONFIG.json STEPS|WORKERS');
+  process.exit(2);
+}
+
+const cli = process.env.CRITBOX_CLI || path.join(root, 'target/release/critbox');
+const server = spawn(cli, ['serve', '--root', root, '--port', '0'], { stdio: ['ignore', 'pipe', 'inherit'] });
+const base = await new Promise((resolve, reject) => {
+  let buf = '';
+  server.stdout.on('data', (d) => {
+    buf += d;
+    const m = buf.match(/http:\/\/127\.0\.0\.1:\d+/);
+    if (m) resolve(m[0]);
+  });
+  server.on('exit', (code) => reject(new Error(`critbox serve exited (${code}) before listening`)));
+});
+
+let browser;
+try {
+  browser = await chromium.launch({
+    executablePath: process.env.CRITBOX_CHROMIUM || '/usr/bin/chromium',
+    args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking',
+      '--disable-component-update', '--disable-sync', '--no-first-run'],
+  });
+  const page = await browser.newPage();
+  const pageErrors = [];
+  page.on('pageerror', (e) => pageErrors.push(String(e)));
+  await page.goto(`${base}/bench/page.html`);
+  await page.waitForFunction(() => window.__bench, null, { timeout: 20000 });
+  const url = `${base}/${path.relative(root, path.resolve(configPath))}`;
+  const out = mode === 'single'
+    ? await page.evaluate(([u, n]) => window.__bench.single(u, n), [url, Number(arg)])
+    : await page.evaluate(([u, n]) => window.__bench.pool(u, n), [url, Number(arg)]);
+  if (pageErrors.length) out.page_errors = pageErrors;
+  console.log(JSON.stringify(out));
+} finally {
+  if (browser) await browser.close();
+  server.kill();
+}

@@ -1,0 +1,45 @@
+// Bench page (served from the repository root, so ../web/ is reachable):
+// window.__bench.single(configUrl, steps) times one job in a dedicated worker
+// (bench/job-worker.mjs, the WebAssembly build in web/pkg); window.__bench.pool(configUrl,
+// workers) runs every job of a config through the page's own worker pool
+// (web/js/pool.js, chunk 2000 steps as the page uses) and times it wall to wall.
+import { Pool } from '../web/js/pool.js';
+
+async function text(url) {
+  const res = await fetch(url);
+  if (!res.ok) throw new Error(`${url}: HTTP ${res.status}`);
+  return res.text();
+}
+
+function single(configUrl, steps) {
+  return new Promise((resolve, reject) => {
+    const w = new Worker(new URL('./job-worker.mjs', import.meta.url), { type: 'module' });
+    w.onmessage = (e) => { w.terminate(); e.data.error ? reject(new Error(e.data.error)) : resolve(e.data); };
+    w.onerror = (e) => { w.terminate(); reject(new Error(e.message || 'bench worker failed')); };
+    text(configUrl).then((config) => w.postMessage({ config, steps }), reject);
+  });
+}
+
+async function pool(configUrl, workers, chunk = 2000) {
+  const config = await text(configUrl);
+  const plan = JSON.parse(config);
+  const jobs = plan.variants.length * plan.seeds;
+  const ids = Array.from({ length: jobs }, (_, i) => i);
+  const errors = [];
+  const t0 = performance.now();
+  await new Promise((resolve) => {
+    const p = new Pool({
+      onProgress: () => {},
+      onError: (message) => errors.push(message),
+      onPaused: () => {},
+      onDone: () => resolve(),
+    }, { concurrency: workers });
+    p.start(config, ids, chunk, { variants: plan.variants.length, seeds: plan.seeds });
+  });
+  const seconds = (performance.now() - t0) / 1000;
+  const steps = jobs * plan.steps;
+  return { workers, jobs, steps, seconds, steps_per_sec: steps / seconds, errors };
+}
+
+window.__bench = { single, pool, cores: navigator.hardwareConcurrency };
+document.getElementById('out').textContent = 'ready';
