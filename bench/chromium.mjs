@@ -1,8 +1,9 @@
 // Bench driver: headless Chromium (Debian's /usr/bin/chromium, never a
 // downloaded browser) on bench/page.html, served from the repository root by
 // `critbox serve` on 127.0.0.1. Prints one JSON object on stdout.
-// usage: node bench/chromium.mjs single CONFIG.json STEPS
-//        node bench/chromium.mjs pool CONFIG.json WORKERS
+// usage: node bench/chromium.mjs single CONFIG.json STEPS [RUNS]
+//        node bench/chromium.mjs pool CONFIG.json WORKERS [RUNS]
+// RUNS measurements (default 1) in one browser, printed as a JSON array.
 import path from 'node:path';
 import { spawn } from 'node:child_process';
 import { createRequire } from 'node:module';
@@ -12,7 +13,8 @@ const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
 const require = createRequire(path.join(root, 'tests/browser/package.json'));
 const { chromium } = require('playwright-core');
 
-const [mode, configPath, arg] = process.argv.slice(2);
+const [mode, configPath, arg, runsArg] = process.argv.slice(2);
+const runs = Math.max(1, Number(runsArg || 1));
 if (!['single', 'pool'].includes(mode) || !configPath || !arg) {
   console.error('usage: node bench/chromium.mjs single|pool CONFIG.json STEPS|WORKERS');
   process.exit(2);
@@ -43,10 +45,13 @@ try {
   await page.goto(`${base}/bench/page.html`);
   await page.waitForFunction(() => window.__bench, null, { timeout: 20000 });
   const url = `${base}/${path.relative(root, path.resolve(configPath))}`;
-  const out = mode === 'single'
-    ? await page.evaluate(([u, n]) => window.__bench.single(u, n), [url, Number(arg)])
-    : await page.evaluate(([u, n]) => window.__bench.pool(u, n), [url, Number(arg)]);
-  if (pageErrors.length) out.page_errors = pageErrors;
+  const out = [];
+  for (let r = 0; r < runs; r++) {
+    out.push(mode === 'single'
+      ? await page.evaluate(([u, n]) => window.__bench.single(u, n), [url, Number(arg)])
+      : await page.evaluate(([u, n]) => window.__bench.pool(u, n), [url, Number(arg)]));
+  }
+  if (pageErrors.length) throw new Error(`the bench page failed: ${pageErrors.join('; ')}`);
   console.log(JSON.stringify(out));
 } finally {
   if (browser) await browser.close();

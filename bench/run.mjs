@@ -1,0 +1,113 @@
+// The bench runner behind scripts/bench: runs every workload natively
+// (`critbox bench`), as WebAssembly under Node (bench/node.mjs) and in headless
+// Chromium (bench/chromium.mjs), the NumPy peer (bench/peer.py) on W1 and W2,
+// W4 through the page's worker pool with 1 and 2 workers, and W1's resident
+// memory at 1 M and 10 M steps. Takes the median of several runs, prints a
+// table against the targets and writes the JSON file.
+// usage: node bench/run.mjs [--quick] [--out FILE] [--python PY]
+import fs from 'node:fs';
+import os from 'node:os';
+import path from 'node:path';
+import { execFileSync } from 'node:child_process';
+import { fileURLToPath } from 'node:url';
+
+const root = path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..');
+const args = process.argv.slice(2);
+const quick = args.includes('--quick');
+const opt = (name, dflt) => { const i = args.indexOf(name); return i >= 0 && args[i + 1] ? args[i + 1] : dflt; };
+const outPath = path.resolve(opt('--out', path.join(root, 'bench/results.json')));
+const python = opt('--python', path.join(root, 'bench/.venv/bin/python'));
+const cli = process.env.CRITBOX_CLI || path.join(root, 'target/release/critbox');
+
+// Steps per measurement and runs per median. Sized so a quick run stays under
+// 2 minutes on a loaded 2-core machine; the full run gives steadier medians.
+const S = quick
+  ? { runs: 3, w4runs: 1, native: { w1: 300000, w2: 10000, w3: 300000 }, wasm: { w1: 300000, w2: 10000, w3: 300000 },
+      peer: { w1: 3000, w2: 1500 }, rss: [300000, 3000000] }
+  : { runs: 5, w4runs: 3, native: { w1: 2000000, w2: 60000, w3: 2000000 }, wasm: { w1: 2000000, w2: 60000, w3: 2000000 },
+      peer: { w1: 20000, w2: 6000 }, rss: [1000000, 10000000] };
+
+const cfg = (w) => path.join(root, `bench/${w}.json`);
+const median = (xs) => { const s = [...xs].sort((a, b) => a - b); const m = s.length >> 1; return s.length % 2 ? s[m] : (s[m - 1] + s[m]) / 2; };
+const json = (cmd, argv) => JSON.parse(execFileSync(cmd, argv, { cwd: root, encoding: 'utf8', stdio: ['ignore', 'pipe', 'inherit'], maxBuffer: 1 << 24 }));
+const log = (m) => process.stderr.write(`bench: ${m}\n`);
+
+const raw = {};
+const med = {};
+for (const w of ['w1', 'w2', 'w3']) {
+  log(`${w} native (${S.native[w]} steps x ${S.runs})`);
+  const nat = [];
+  for (let r = 0; r < S.runs; r++) nat.push(json(cli, ['bench', cfg(w), '--steps', String(S.native[w])]).steps_per_sec);
+  log(`${w} wasm under Node (${S.wasm[w]} steps x ${S.runs})`);
+  const node = [];
+  for (let r = 0; r < S.runs; r++) node.push(json('node', [path.join(root, 'bench/node.mjs'), cfg(w), String(S.wasm[w])]).steps_per_sec);
+  log(`${w} wasm in headless Chromium (${S.wasm[w]} steps x ${S.runs})`);
+  const chr = json('node', [path.join(root, 'bench/chromium.mjs'), 'single', cfg(w), String(S.wasm[w]), String(S.runs)]).map((o) => o.steps_per_sec);
+  raw[w] = { native: nat, node, chromium: chr };
+  med[w] = { native: median(nat), node: median(node), chromium: median(chr) };
+  if (w !== 'w3') {
+    log(`${w} NumPy peer (${S.peer[w]} steps x ${S.runs})`);
+    const peer = [];
+    for (let r = 0; r < S.runs; r++) peer.push(json(python, [path.join(root, 'bench/peer.py'), w, String(S.peer[w])]).steps_per_sec);
+    raw[w].numpy = peer;
+    med[w].numpy = median(peer);
+  }
+}
+
+log(`w4 through the page's worker pool, 1 and 2 workers (x ${S.w4runs})`);
+const w4 = {};
+for (const workers of [1, 2]) {
+  const runs = json('node', [path.join(root, 'bench/chromium.mjs'), 'pool', cfg('w4'), String(workers), String(S.w4runs)]);
+  for (const r of runs) if (r.errors.length) throw new Error(`W4 with ${workers} worker(s): ${r.errors.join('; ')}`);
+  w4[workers] = median(runs.map((r) => r.seconds));
+  raw[`w4_${workers}_workers_seconds`] = runs.map((r) => r.seconds);
+}
+
+log(`w1 resident memory at ${S.rss.join(' and ')} steps (native)`);
+const rssRun = json(cli, ['bench', cfg('w1'), '--steps', String(S.rss[1]), '--rss-at', S.rss.join(',')]);
+const [rssA, rssB] = rssRun.rss.map((r) => r.rss_kib);
+
+const ratio = (a, b) => (a && b ? a / b : null);
+const rows = [];
+const row = (name, value, unit, target, ok) => rows.push({ name, value, unit, target, met: ok });
+for (const w of ['w1', 'w2', 'w3']) {
+  const r = ratio(med[w].chromium, med[w].native);
+  row(`${w.toUpperCase()} wasm in Chromium / native`, r, 'x', '>= 0.7', r >= 0.7);
+}
+const r1 = ratio(med.w1.native, med.w1.numpy);
+row('W1 native / NumPy peer', r1, 'x', '>= 100', r1 >= 100);
+const r2 = ratio(med.w2.native, med.w2.numpy);
+row('W2 native / NumPy peer', r2, 'x', '>= 20', r2 >= 20);
+row('W4 wall time, 2 workers', w4[2], 's', '< 3', w4[2] < 3);
+const sp = ratio(w4[1], w4[2]);
+row('W4 speed-up, 2 workers over 1', sp, 'x', '>= 1.8', sp >= 1.8);
+const growth = ratio(rssB, rssA) - 1;
+row(`W1 resident memory growth ${S.rss[0]} -> ${S.rss[1]} steps`, growth * 100, '%', '<= 10', Math.abs(growth) <= 0.1);
+
+const fmt = (x) => (x == null ? '-' : x >= 100 ? x.toFixed(0) : x >= 1 ? x.toFixed(2) : x.toFixed(3));
+console.log(`\nenvironment steps per second (median of ${S.runs} runs${quick ? ', --quick' : ''})`);
+console.log(['workload', 'native', 'wasm Node', 'wasm Chromium', 'NumPy peer', 'Node/native', 'Chromium/native', 'native/NumPy'].join('\t'));
+for (const w of ['w1', 'w2', 'w3']) {
+  const m = med[w];
+  console.log([w.toUpperCase(), fmt(m.native), fmt(m.node), fmt(m.chromium), fmt(m.numpy), fmt(ratio(m.node, m.native)),
+    fmt(ratio(m.chromium, m.native)), fmt(ratio(m.native, m.numpy))].join('\t'));
+}
+console.log(`W4 (30 jobs x 50 000 steps, page worker pool in Chromium): 1 worker ${fmt(w4[1])} s, 2 workers ${fmt(w4[2])} s`);
+console.log(`W1 resident memory: ${rssA} KiB at ${S.rss[0]} steps, ${rssB} KiB at ${S.rss[1]} steps`);
+console.log('\ntargets');
+for (const r of rows) console.log(`${r.met ? 'met   ' : 'MISSED'}  ${r.name}: ${fmt(r.value)} ${r.unit} (target ${r.target})`);
+
+const out = {
+  schema: 1,
+  quick,
+  date: new Date().toISOString(),
+  machine: { cpus: os.cpus().length, cpu: os.cpus()[0] && os.cpus()[0].model, loadavg: os.loadavg(), node: process.version },
+  steps: S,
+  steps_per_sec: med,
+  w4_seconds: { workers_1: w4[1], workers_2: w4[2] },
+  w1_rss_kib: { [S.rss[0]]: rssA, [S.rss[1]]: rssB },
+  targets: rows,
+  raw,
+};
+fs.writeFileSync(outPath, `${JSON.stringify(out, null, 2)}\n`);
+console.log(`\nwrote ${path.relative(process.cwd(), outPath) || outPath}`);
