@@ -507,6 +507,9 @@ async function persistRun(final) {
   const rc = state.results;
   if (!run || !rc || run.origin === 'file') return;
   run.newlyFinished = false;
+  // The worker has every message sent before this request, so the jobs
+  // finished now are the ones it packs.
+  const finished = run.jobStatus.reduce((n, st) => n + (st !== 0 ? 1 : 0), 0);
   let data;
   try {
     data = await rc.pack(final);
@@ -520,7 +523,6 @@ async function persistRun(final) {
   const problem = await saveResults({ kind: 'jobs', status, configJson: run.configJson, data });
   lastWriteMs = performance.now() - t0;
   if (problem) showError(problem);
-  const finished = run.jobStatus.reduce((n, st) => n + (st !== 0 ? 1 : 0), 0);
   debug.checkpoints.push({ status, jobs: final ? run.jobs : finished });
 }
 
