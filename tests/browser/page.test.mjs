@@ -191,6 +191,9 @@ test('pause holds the run still, resume goes on, cancel ends it with a partial s
   const percent = () => page.evaluate(() => Number(document.getElementById('progress').value));
   const stepsDone = () => page.evaluate(() => Array.from(window.__critbox.state.run.stepsDone).reduce((a, b) => a + b, 0));
   await page.waitForFunction(() => Array.from(window.__critbox.state.run.stepsDone).some((s) => s > 0));
+  // Long work shows its progress: a bar per variant and, after a moment, the time left.
+  assert.equal(await page.locator('#variant-progress progress').count(), 3);
+  await page.waitForFunction(() => /about .* left|almost done/.test(document.getElementById('eta').textContent), null, { timeout: 20000 });
 
   await page.click('#pause');
   assert.equal((await page.textContent('#pause')).trim(), 'Resume');
