@@ -93,7 +93,9 @@ for (const w of ['w1', 'w2', 'w3']) {
     fmt(ratio(m.chromium, m.native)), fmt(ratio(m.native, m.numpy))].join('\t'));
 }
 console.log(`W4 (30 jobs x 50 000 steps, page worker pool in Chromium): 1 worker ${fmt(w4[1])} s, 2 workers ${fmt(w4[2])} s`);
-console.log(`W1 resident memory: ${rssA} KiB at ${S.rss[0]} steps, ${rssB} KiB at ${S.rss[1]} steps`);
+const [ra, rb] = rssRun.rss;
+console.log(`W1 resident memory: ${rssA} KiB at ${S.rss[0]} steps, ${rssB} KiB at ${S.rss[1]} steps `
+  + `(episode log ${fmt(ra.episode_log_kib)} -> ${fmt(rb.episode_log_kib)} KiB, ${ra.episodes} -> ${rb.episodes} episodes)`);
 console.log('\ntargets');
 for (const r of rows) console.log(`${r.met ? 'met   ' : 'MISSED'}  ${r.name}: ${fmt(r.value)} ${r.unit} (target ${r.target})`);
 
@@ -106,6 +108,7 @@ const out = {
   steps_per_sec: med,
   w4_seconds: { workers_1: w4[1], workers_2: w4[2] },
   w1_rss_kib: { [S.rss[0]]: rssA, [S.rss[1]]: rssB },
+  w1_rss_detail: rssRun,
   targets: rows,
   raw,
 };
