@@ -4,7 +4,7 @@
 
 use std::time::Instant;
 
-use critbox_core::experiment::{EpisodeRecord, Job, JobStatus, Plan};
+use critbox_core::experiment::{Job, JobStatus, Plan};
 
 /// Resident set size in KiB from /proc/self/status (Linux); None elsewhere.
 fn rss_kib() -> Option<u64> {
@@ -40,7 +40,7 @@ pub fn bench(plan: &Plan, job: usize, steps: u64, rss_at: &[u64]) -> Result<serd
             // The job keeps every finished episode (the results need them):
             // that log is the one thing expected to grow with steps.
             let episodes = j.episodes().len();
-            let log_kib = (episodes * std::mem::size_of::<EpisodeRecord>()) as f64 / 1024.0;
+            let log_kib = std::mem::size_of_val(j.episodes()) as f64 / 1024.0;
             rss.push(serde_json::json!({
                 "steps": m, "rss_kib": rss_kib(), "episodes": episodes, "episode_log_kib": log_kib
             }));
