@@ -2,7 +2,8 @@
 // window.__bench.single(configUrl, steps) times one job in a dedicated worker
 // (bench/job-worker.mjs, the WebAssembly build in web/pkg); window.__bench.pool(configUrl,
 // workers) runs every job of a config through the page's own worker pool
-// (web/js/pool.js, chunk 2000 steps as the page uses) and times it wall to wall.
+// (web/js/pool.js, chunk 2000 steps as the page uses) and times it wall to wall,
+// with the time to the first progress message (workers started, wasm loaded, one chunk).
 import { Pool } from '../web/js/pool.js';
 
 async function text(url) {
@@ -27,9 +28,10 @@ async function pool(configUrl, workers, chunk = 2000) {
   const ids = Array.from({ length: jobs }, (_, i) => i);
   const errors = [];
   const t0 = performance.now();
+  let firstProgress = null;
   await new Promise((resolve) => {
     const p = new Pool({
-      onProgress: () => {},
+      onProgress: () => { if (firstProgress === null) firstProgress = (performance.now() - t0) / 1000; },
       onError: (message) => errors.push(message),
       onPaused: () => {},
       onDone: () => resolve(),
@@ -38,7 +40,7 @@ async function pool(configUrl, workers, chunk = 2000) {
   });
   const seconds = (performance.now() - t0) / 1000;
   const steps = jobs * plan.steps;
-  return { workers, jobs, steps, seconds, steps_per_sec: steps / seconds, errors };
+  return { workers, jobs, steps, seconds, steps_per_sec: steps / seconds, first_progress_seconds: firstProgress, errors };
 }
 
 window.__bench = { single, pool, cores: navigator.hardwareConcurrency };

@@ -60,6 +60,7 @@ for (const workers of [1, 2]) {
   const runs = json('node', [path.join(root, 'bench/chromium.mjs'), 'pool', cfg('w4'), String(workers), String(S.w4runs)]);
   for (const r of runs) if (r.errors.length) throw new Error(`W4 with ${workers} worker(s): ${r.errors.join('; ')}`);
   w4[workers] = median(runs.map((r) => r.seconds));
+  w4[`first_${workers}`] = median(runs.map((r) => r.first_progress_seconds));
   raw[`w4_${workers}_workers_seconds`] = runs.map((r) => r.seconds);
 }
 
@@ -92,7 +93,8 @@ for (const w of ['w1', 'w2', 'w3']) {
   console.log([w.toUpperCase(), fmt(m.native), fmt(m.node), fmt(m.chromium), fmt(m.numpy), fmt(ratio(m.node, m.native)),
     fmt(ratio(m.chromium, m.native)), fmt(ratio(m.native, m.numpy))].join('\t'));
 }
-console.log(`W4 (30 jobs x 50 000 steps, page worker pool in Chromium): 1 worker ${fmt(w4[1])} s, 2 workers ${fmt(w4[2])} s`);
+console.log(`W4 (30 jobs x 50 000 steps, page worker pool in Chromium): 1 worker ${fmt(w4[1])} s, 2 workers ${fmt(w4[2])} s `
+  + `(first progress after ${fmt(w4.first_1)} s and ${fmt(w4.first_2)} s)`);
 const [ra, rb] = rssRun.rss;
 console.log(`W1 resident memory: ${rssA} KiB at ${S.rss[0]} steps, ${rssB} KiB at ${S.rss[1]} steps `
   + `(episode log ${fmt(ra.episode_log_kib)} -> ${fmt(rb.episode_log_kib)} KiB, ${ra.episodes} -> ${rb.episodes} episodes)`);
@@ -106,7 +108,7 @@ const out = {
   machine: { cpus: os.cpus().length, cpu: os.cpus()[0] && os.cpus()[0].model, loadavg: os.loadavg(), node: process.version },
   steps: S,
   steps_per_sec: med,
-  w4_seconds: { workers_1: w4[1], workers_2: w4[2] },
+  w4_seconds: { workers_1: w4[1], workers_2: w4[2], first_progress_1: w4.first_1, first_progress_2: w4.first_2 },
   w1_rss_kib: { [S.rss[0]]: rssA, [S.rss[1]]: rssB },
   w1_rss_detail: rssRun,
   targets: rows,
