@@ -241,7 +241,11 @@ fn run(args: &[String]) -> Result<(), Failure> {
                         return Err(Failure::Usage(format!("bench: unknown option {other:?}")))
                     }
                     other if config.is_none() => config = Some(other.to_string()),
-                    _ => return Err(Failure::Usage("`critbox bench` takes exactly one CONFIG argument".into())),
+                    _ => {
+                        return Err(Failure::Usage(
+                            "`critbox bench` takes exactly one CONFIG argument".into(),
+                        ))
+                    }
                 }
             }
             let config =
