@@ -61,17 +61,6 @@ async function unpack(data) {
   return new TextDecoder().decode(await decompress(fromBase64Url(data), 'gzip'));
 }
 
-/** Float64Array → base64url of its bytes (little-endian on every browser we know of). */
-export function f64ToBase64(arr) {
-  return toBase64Url(new Uint8Array(arr.buffer, arr.byteOffset, arr.byteLength));
-}
-
-export function base64ToF64(text) {
-  const bytes = fromBase64Url(text);
-  if (bytes.length % 8 !== 0) throw new Error('an episode list has a length that is not a whole number of values');
-  return new Float64Array(bytes.buffer, bytes.byteOffset, bytes.length / 8);
-}
-
 /**
  * Save results.
  * @param {object} rec {kind: 'jobs', status, configJson, data (packed by the results worker)}
@@ -120,10 +109,4 @@ export async function loadResults() {
   if (v.kind === 'file') return { kind: 'file', status: 'opened', configJson: v.configJson, fileName: v.fileName, text: await unpack(v.data) };
   if (v.kind !== 'jobs') throw new Error(`the kept results are of an unknown kind ${JSON.stringify(v.kind)}`);
   return { kind: 'jobs', status: String(v.status), configJson: v.configJson, fileName: '', data: v.data };
-}
-
-/** Forget the saved results. */
-export function clearResults() {
-  const s = store();
-  try { s && s.removeItem(RESULTS_KEY); } catch { /* nothing to do */ }
 }
