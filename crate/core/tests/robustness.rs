@@ -309,9 +309,10 @@ fn mutated_configs_give_a_plan_or_a_message() {
             }
         }
     }
-    // The mutations must reach both sides of the decoder, or the run tests little.
+    // The mutations must reach both sides of the decoder, or the run tests
+    // little (checked when there are enough cases for it to mean something).
     assert!(
-        accepted * 20 >= n && refused * 2 >= n,
+        n < 50 || (accepted * 20 >= n && refused * 2 >= n),
         "accepted {accepted}, refused {refused} of the mutated configs"
     );
     eprintln!(
