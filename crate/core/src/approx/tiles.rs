@@ -98,7 +98,9 @@ impl Features for TileCoder {
             let u = ((v - self.low[i]) * self.scale[i]).clamp(0.0, top);
             let u = if u.is_nan() { 0.0 } else { u };
             let shift = f64::from((k * (2 * i as u32 + 1)) % n) / f64::from(n);
-            (u + shift).floor().min(top) as u32
+            // u + shift lies in [0, intervals + 1), so truncating is flooring:
+            // the same tile as floor() without a libm call on baseline x86-64.
+            ((u + shift) as u32).min(self.intervals)
         };
         for k in 0..n {
             let index = if self.hash > 0 {
