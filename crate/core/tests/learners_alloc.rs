@@ -3,7 +3,7 @@
 //! global allocator in this test binary only (common practice, no source).
 
 use std::alloc::{GlobalAlloc, Layout, System};
-use std::sync::atomic::{AtomicUsize, Ordering};
+use std::cell::Cell;
 
 use critbox_core::approx::Obs;
 use critbox_core::experiment;
@@ -13,11 +13,21 @@ use serde_json::{json, Value};
 
 struct Counting;
 
-static ALLOCATIONS: AtomicUsize = AtomicUsize::new(0);
+thread_local! {
+    // Per thread, so the test harness's own threads (output capture, the
+    // slow-test timer) never count: only the measuring thread's allocations do.
+    static ALLOCATIONS: Cell<usize> = const { Cell::new(0) };
+}
+
+/// Allocations made so far by the calling thread.
+fn allocations_so_far() -> usize {
+    ALLOCATIONS.with(Cell::get)
+}
 
 unsafe impl GlobalAlloc for Counting {
     unsafe fn alloc(&self, layout: Layout) -> *mut u8 {
-        ALLOCATIONS.fetch_add(1, Ordering::SeqCst);
+        // `try_with`: during thread teardown the slot may be gone already.
+        let _ = ALLOCATIONS.try_with(|c| c.set(c.get() + 1));
         System.alloc(layout)
     }
     unsafe fn dealloc(&self, ptr: *mut u8, layout: Layout) {
@@ -48,7 +58,7 @@ fn allocations(task: Value, base: Value, steps: usize, measured: usize) -> usize
     let mut before = 0;
     for i in 0..steps {
         if i == steps - measured {
-            before = ALLOCATIONS.load(Ordering::SeqCst);
+            before = allocations_so_far();
         }
         if fresh {
             task.reset(&mut task_rng, &mut obs);
@@ -81,7 +91,7 @@ fn allocations(task: Value, base: Value, steps: usize, measured: usize) -> usize
             std::mem::swap(&mut a, &mut b);
         }
     }
-    ALLOCATIONS.load(Ordering::SeqCst) - before
+    allocations_so_far() - before
 }
 
 #[test]

@@ -3,7 +3,7 @@
 //! test binary only (common practice, no source).
 
 use std::alloc::{GlobalAlloc, Layout, System};
-use std::sync::atomic::{AtomicUsize, Ordering};
+use std::cell::Cell;
 
 use critbox_core::reward::{Mode, RewardConfig, Shaper, StepInput};
 use critbox_core::task::grid::{GridConfig, GridWorld};
@@ -11,11 +11,21 @@ use critbox_core::task::{Action, Task};
 
 struct Counting;
 
-static ALLOCATIONS: AtomicUsize = AtomicUsize::new(0);
+thread_local! {
+    // Per thread, so the test harness's own threads (output capture, the
+    // slow-test timer) never count: only the measuring thread's allocations do.
+    static ALLOCATIONS: Cell<usize> = const { Cell::new(0) };
+}
+
+/// Allocations made so far by the calling thread.
+fn allocations_so_far() -> usize {
+    ALLOCATIONS.with(Cell::get)
+}
 
 unsafe impl GlobalAlloc for Counting {
     unsafe fn alloc(&self, layout: Layout) -> *mut u8 {
-        ALLOCATIONS.fetch_add(1, Ordering::SeqCst);
+        // `try_with`: during thread teardown the slot may be gone already.
+        let _ = ALLOCATIONS.try_with(|c| c.set(c.get() + 1));
         System.alloc(layout)
     }
     unsafe fn dealloc(&self, ptr: *mut u8, layout: Layout) {
@@ -39,7 +49,7 @@ fn shaped_rewards_allocate_nothing_per_step() {
     for (mode, f) in formulas {
         let cfg = RewardConfig { mode, formula: f.into(), ..Default::default() };
         let mut shaper = Shaper::new(&cfg, &spec, 0.99).unwrap();
-        let before = ALLOCATIONS.load(Ordering::SeqCst);
+        let before = allocations_so_far();
         let mut total = 0.0;
         for i in 0..10_000u64 {
             let (r, c) = ((i % 6) as f64, (i % 11) as f64);
@@ -52,7 +62,7 @@ fn shaped_rewards_allocate_nothing_per_step() {
                 t: i,
             });
         }
-        let after = ALLOCATIONS.load(Ordering::SeqCst);
+        let after = allocations_so_far();
         assert!(total.is_finite());
         assert_eq!(after - before, 0, "{mode:?} {f}: {} allocations in 10 000 steps", after - before);
     }
