@@ -1,9 +1,10 @@
 //! Every learner's per-step path (act, task step, learn) allocates nothing
 //! once a job is under way (design rule: buffers are sized once). A counting
-//! global allocator in this test binary only (common practice, no source).
+//! global allocator in this test binary only (tests/common).
 
-use std::alloc::{GlobalAlloc, Layout, System};
-use std::cell::Cell;
+mod common;
+
+use common::allocations_so_far;
 
 use critbox_core::approx::Obs;
 use critbox_core::experiment;
@@ -11,32 +12,8 @@ use critbox_core::learn::{build_learner_with, ActionBuf, Transition};
 use critbox_core::rng::Stream;
 use serde_json::{json, Value};
 
-struct Counting;
-
-thread_local! {
-    // Per thread, so the test harness's own threads (output capture, the
-    // slow-test timer) never count: only the measuring thread's allocations do.
-    static ALLOCATIONS: Cell<usize> = const { Cell::new(0) };
-}
-
-/// Allocations made so far by the calling thread.
-fn allocations_so_far() -> usize {
-    ALLOCATIONS.with(Cell::get)
-}
-
-unsafe impl GlobalAlloc for Counting {
-    unsafe fn alloc(&self, layout: Layout) -> *mut u8 {
-        // `try_with`: during thread teardown the slot may be gone already.
-        let _ = ALLOCATIONS.try_with(|c| c.set(c.get() + 1));
-        System.alloc(layout)
-    }
-    unsafe fn dealloc(&self, ptr: *mut u8, layout: Layout) {
-        System.dealloc(ptr, layout)
-    }
-}
-
 #[global_allocator]
-static GLOBAL: Counting = Counting;
+static GLOBAL: common::Counting = common::Counting;
 
 /// Runs `steps` steps the way the runner does (act at the next state before
 /// learning; truncation at the task's limit) and returns the allocations

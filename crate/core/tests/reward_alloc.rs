@@ -2,39 +2,16 @@
 //! per-step hot path allocates nothing). A counting global allocator in this
 //! test binary only (common practice, no source).
 
-use std::alloc::{GlobalAlloc, Layout, System};
-use std::cell::Cell;
+mod common;
+
+use common::allocations_so_far;
 
 use critbox_core::reward::{Mode, RewardConfig, Shaper, StepInput};
 use critbox_core::task::grid::{GridConfig, GridWorld};
 use critbox_core::task::{Action, Task};
 
-struct Counting;
-
-thread_local! {
-    // Per thread, so the test harness's own threads (output capture, the
-    // slow-test timer) never count: only the measuring thread's allocations do.
-    static ALLOCATIONS: Cell<usize> = const { Cell::new(0) };
-}
-
-/// Allocations made so far by the calling thread.
-fn allocations_so_far() -> usize {
-    ALLOCATIONS.with(Cell::get)
-}
-
-unsafe impl GlobalAlloc for Counting {
-    unsafe fn alloc(&self, layout: Layout) -> *mut u8 {
-        // `try_with`: during thread teardown the slot may be gone already.
-        let _ = ALLOCATIONS.try_with(|c| c.set(c.get() + 1));
-        System.alloc(layout)
-    }
-    unsafe fn dealloc(&self, ptr: *mut u8, layout: Layout) {
-        System.dealloc(ptr, layout)
-    }
-}
-
 #[global_allocator]
-static GLOBAL: Counting = Counting;
+static GLOBAL: common::Counting = common::Counting;
 
 #[test]
 fn shaped_rewards_allocate_nothing_per_step() {

@@ -739,27 +739,8 @@ impl Program {
 mod tests {
     use super::super::parse::parse;
     use super::*;
-    use crate::task::StateVar;
 
-    fn spec() -> TaskSpec {
-        TaskSpec {
-            kind: "grid",
-            state_vars: vec![
-                StateVar { name: "row".into(), low: 0.0, high: 5.0 },
-                StateVar { name: "col".into(), low: 0.0, high: 9.0 },
-            ],
-            actions: ActionSpace::Discrete(vec![
-                "north".into(),
-                "east".into(),
-                "south".into(),
-                "west".into(),
-            ]),
-            n_states: Some(60),
-            default_discount: 0.9,
-            max_steps: 100,
-            continuing: false,
-        }
-    }
+    use super::super::tests::spec;
 
     fn run(src: &str, inputs: &[f64]) -> f64 {
         let scope = Scope::new(&spec(), 0.9, &[("k".into(), 2.0)]);

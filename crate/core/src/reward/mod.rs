@@ -414,7 +414,8 @@ mod tests {
     use super::*;
     use crate::task::{ActionSpace, StateVar};
 
-    fn spec() -> TaskSpec {
+    /// A small grid-like spec shared by the reward module's tests.
+    pub(super) fn spec() -> TaskSpec {
         TaskSpec {
             kind: "grid",
             state_vars: vec![
