@@ -270,11 +270,7 @@ impl Learner for OffPolicy {
     }
 
     fn probabilities(&mut self, obs: Obs<'_>, out: &mut [f64]) -> bool {
-        if !self.target.is_discrete() {
-            return false;
-        }
-        out.copy_from_slice(self.target.probabilities(obs));
-        true
+        self.target.write_probabilities(obs, out)
     }
 }
 

@@ -84,7 +84,6 @@ impl Learner for Qac {
     }
 
     fn probabilities(&mut self, obs: Obs<'_>, out: &mut [f64]) -> bool {
-        out.copy_from_slice(self.actor.probabilities(obs));
-        true
+        self.actor.write_probabilities(obs, out)
     }
 }

@@ -209,11 +209,7 @@ impl Learner for Reinforce {
     }
 
     fn probabilities(&mut self, obs: Obs<'_>, out: &mut [f64]) -> bool {
-        if !self.actor.is_discrete() {
-            return false;
-        }
-        out.copy_from_slice(self.actor.probabilities(obs));
-        true
+        self.actor.write_probabilities(obs, out)
     }
 }
 

@@ -194,6 +194,17 @@ impl StochasticPolicy {
         &self.probs
     }
 
+    /// Writes π(·|s) into `out` for a softmax policy and returns true; false
+    /// (and `out` untouched) for a Gaussian. The body of every learner's
+    /// `Learner::probabilities`.
+    pub fn write_probabilities(&mut self, obs: Obs<'_>, out: &mut [f64]) -> bool {
+        if !self.is_discrete() {
+            return false;
+        }
+        out.copy_from_slice(self.probabilities(obs));
+        true
+    }
+
     /// The probabilities computed by the last call to [`StochasticPolicy::probabilities`].
     pub fn last_probabilities(&self) -> &[f64] {
         &self.probs
