@@ -4,6 +4,7 @@
 import { test } from 'node:test';
 import assert from 'node:assert/strict';
 import fs from 'node:fs';
+import os from 'node:os';
 import path from 'node:path';
 import { execFileSync } from 'node:child_process';
 import { fileURLToPath } from 'node:url';
@@ -49,6 +50,41 @@ for (const file of presets) {
     const wasm = runLikeThePage(json, 2, 1500);
     assert.deepEqual(wasm, native);
     assert.ok(native.variants.length >= 1);
+  });
+}
+
+// The MLP's dense kernels have hand-written simd128 versions in the
+// WebAssembly build (crate/core/src/approx/kernels.rs) and compiler-vectorised
+// ones natively; no preset uses an MLP, so the bench's MLP workload (W2, tanh,
+// plain SGD: the fused update path) and a ReLU / Adam / clipping variant (the
+// gradient-buffer path) are compared here, shortened.
+for (const [name, edit] of [
+  ['W2: MLP tanh, SGD', (v) => v],
+  ['MLP ReLU, Adam, clipping, 2-step', (v) => {
+    v.base.actor = { kind: 'mlp', hidden: [24, 13], activation: 'relu' };
+    v.base.critic = { kind: 'mlp', hidden: [17], activation: 'tanh' };
+    v.base.optimizer = { kind: 'adam', clip: 1 };
+    v.base.n_steps = 2;
+    v.base.actor_step = 0.001;
+    v.base.critic_step = 0.001;
+    return v;
+  }],
+]) {
+  test(`${name}: WebAssembly and native CLI agree exactly`, () => {
+    const v = edit(JSON.parse(fs.readFileSync(path.join(root, 'bench/w2.json'), 'utf8')));
+    v.steps = 6000;
+    v.seeds = 2;
+    const json = JSON.stringify(v);
+    const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'critbox-mlp-'));
+    try {
+      const configPath = path.join(dir, 'config.json');
+      fs.writeFileSync(configPath, json);
+      const native = JSON.parse(execFileSync(cli, ['run', configPath], { encoding: 'utf8', maxBuffer: 1 << 26 }));
+      assert.deepEqual(runLikeThePage(json, 2, 1000), native);
+      assert.ok(native.variants[0].episodes > 10);
+    } finally {
+      fs.rmSync(dir, { recursive: true, force: true });
+    }
   });
 }
 

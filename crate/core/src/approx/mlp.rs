@@ -15,13 +15,28 @@
 //! `∂/∂W_l = g_l a_{l−1}ᵀ`, `∂/∂b_l = g_l`, and
 //! `g_{l−1} = (W_lᵀ g_l) ⊙ f'(a_{l−1})` with `tanh' = 1 − a²` and
 //! `relu' = 1[a > 0]`; one more step gives the gradient with respect to the
-//! input. Buffers are sized in the constructor; the last forward pass is
-//! kept and reused when the next call is at the same input.
+//! input. Buffers are sized in the constructor; the last two forward passes
+//! are kept and reused while the weights are unchanged (a learner's step
+//! evaluates a state and its successor, then updates at the first). With
+//! plain SGD the update is added to the weights during backpropagation
+//! ([`Approx::sgd_step`]), row by row, without a gradient buffer; the
+//! gradient's norm comes from `‖g aᵀ‖ = ‖g‖ ‖a‖`. Dense loops use the
+//! kernels of [`super::kernels`].
 
+use super::kernels::{axpy, backprop_step, matvec, norm_sq, tanh_in_place};
 use super::{Activation, Approx, Obs};
 use crate::optim::Grad;
 use crate::rng::Stream;
 use crate::task::StateVar;
+
+/// The activations of every layer at one input, flat (layer `l` at
+/// `Mlp::aoff[l]`), valid while `fresh` and the weights are unchanged.
+#[derive(Clone, Debug)]
+struct Pass {
+    key: Vec<f64>,
+    a: Vec<f64>,
+    fresh: bool,
+}
 
 /// A multi-layer perceptron.
 #[derive(Clone, Debug)]
@@ -30,12 +45,17 @@ pub struct Mlp {
     act: Activation,
     w: Vec<f64>,
     off: Vec<usize>,
+    aoff: Vec<usize>,
     low: Vec<f64>,
     inv: Vec<f64>,
-    a: Vec<Vec<f64>>,
-    g: Vec<Vec<f64>>,
-    key: Vec<f64>,
-    fresh: bool,
+    /// Two cached forward passes (a learner's step looks at a state and the
+    /// next one), the most recently used one is `passes[recent]`.
+    passes: [Pass; 2],
+    recent: usize,
+    /// Backpropagated sensitivities, laid out like a pass's activations.
+    g: Vec<f64>,
+    /// Per-row step sizes of an SGD step (as long as the widest layer).
+    step_buf: Vec<f64>,
 }
 
 impl Mlp {
@@ -57,28 +77,37 @@ impl Mlp {
             off.push(total);
             total += sizes[l + 1] * sizes[l] + sizes[l + 1];
         }
+        let mut aoff = Vec::with_capacity(sizes.len() + 1);
+        let mut units = 0;
+        for &n in &sizes {
+            aoff.push(units);
+            units += n;
+        }
+        aoff.push(units);
         let mut w = vec![0.0; total];
         for l in 0..sizes.len() - 2 {
             let (n_in, n_out) = (sizes[l], sizes[l + 1]);
             let limit = match act {
-                Activation::Tanh => libm::sqrt(6.0 / (n_in + n_out) as f64),
-                Activation::Relu => libm::sqrt(6.0 / n_in.max(1) as f64),
+                Activation::Tanh => f64::sqrt(6.0 / (n_in + n_out) as f64),
+                Activation::Relu => f64::sqrt(6.0 / n_in.max(1) as f64),
             };
             for v in &mut w[off[l]..off[l] + n_out * n_in] {
                 *v = rng.uniform_in(-limit, limit);
             }
         }
+        let pass = Pass { key: vec![0.0; vars.len()], a: vec![0.0; units], fresh: false };
         Mlp {
-            a: sizes.iter().map(|&n| vec![0.0; n]).collect(),
-            g: sizes.iter().map(|&n| vec![0.0; n]).collect(),
+            passes: [pass.clone(), pass],
+            recent: 0,
+            g: vec![0.0; units],
+            step_buf: vec![0.0; sizes.iter().copied().max().unwrap_or(0)],
             low: vars.iter().map(|v| v.low).collect(),
             inv: vars.iter().map(|v| 2.0 / (v.high - v.low)).collect(),
-            key: vec![0.0; vars.len()],
-            fresh: false,
             sizes,
             act,
             w,
             off,
+            aoff,
         }
     }
 
@@ -87,87 +116,154 @@ impl Mlp {
         self.sizes.len() - 1
     }
 
-    fn forward(&mut self, x: &[f64]) {
-        if self.fresh && self.key.iter().zip(x).all(|(a, b)| a.to_bits() == b.to_bits()) {
-            return;
-        }
-        self.key.copy_from_slice(x);
-        for j in 0..x.len() {
-            self.a[0][j] = (x[j] - self.low[j]) * self.inv[j] - 1.0;
-        }
-        let last = self.layers() - 1;
-        for l in 0..self.layers() {
-            let (n_in, n_out) = (self.sizes[l], self.sizes[l + 1]);
-            let (prev, next) = self.a.split_at_mut(l + 1);
-            let (input, out) = (&prev[l], &mut next[0]);
-            let m = &self.w[self.off[l]..self.off[l] + n_out * n_in];
-            let b = &self.w[self.off[l] + n_out * n_in..self.off[l] + n_out * n_in + n_out];
-            for r in 0..n_out {
-                let row = &m[r * n_in..(r + 1) * n_in];
-                let pre = b[r] + row.iter().zip(input).map(|(w, v)| w * v).sum::<f64>();
-                out[r] = if l == last {
-                    pre
-                } else {
-                    match self.act {
-                        Activation::Tanh => libm::tanh(pre),
-                        Activation::Relu => pre.max(0.0),
-                    }
-                };
+    /// Runs (or finds cached) the forward pass at `x`; returns its slot.
+    fn forward(&mut self, x: &[f64]) -> usize {
+        let same = |p: &Pass| p.fresh && p.key.iter().zip(x).all(|(a, b)| a.to_bits() == b.to_bits());
+        for s in [self.recent, 1 - self.recent] {
+            if same(&self.passes[s]) {
+                self.recent = s;
+                return s;
             }
         }
-        self.fresh = true;
+        let s = 1 - self.recent;
+        self.recent = s;
+        let layers = self.layers();
+        let pass = &mut self.passes[s];
+        pass.key.copy_from_slice(x);
+        for j in 0..x.len() {
+            pass.a[j] = (x[j] - self.low[j]) * self.inv[j] - 1.0;
+        }
+        for l in 0..layers {
+            let (n_in, n_out) = (self.sizes[l], self.sizes[l + 1]);
+            let (prev, next) = pass.a.split_at_mut(self.aoff[l + 1]);
+            let (input, out) = (&prev[self.aoff[l]..], &mut next[..n_out]);
+            let m = &self.w[self.off[l]..self.off[l] + n_out * n_in];
+            let b = &self.w[self.off[l] + n_out * n_in..self.off[l] + n_out * n_in + n_out];
+            matvec(m, input, b, out);
+            if l + 1 != layers {
+                match self.act {
+                    Activation::Tanh => tanh_in_place(out),
+                    Activation::Relu => out.iter_mut().for_each(|v| *v = v.max(0.0)),
+                }
+            }
+        }
+        pass.fresh = true;
+        s
     }
 
-    /// Backpropagates output sensitivities `signal · coef` to every layer
-    /// (`self.g`), adding weight gradients to `grad` when given.
-    fn backward(&mut self, coef: &[f64], signal: f64, mut grad: Option<&mut [f64]>, to_input: bool) {
+    /// Multiplies the sensitivities `below` of hidden layer `l` by the
+    /// activation's derivative at that layer's activations `a`.
+    fn activation_derivative(act: Activation, a: &[f64], below: &mut [f64]) {
+        match act {
+            Activation::Tanh => {
+                for (g, &a) in below.iter_mut().zip(a) {
+                    *g *= 1.0 - a * a;
+                }
+            }
+            Activation::Relu => {
+                for (g, &a) in below.iter_mut().zip(a) {
+                    if a <= 0.0 {
+                        *g = 0.0;
+                    }
+                }
+            }
+        }
+    }
+
+    /// Backpropagates output sensitivities `signal · coef` through the pass
+    /// in slot `s` (into `self.g`), and for every layer either adds the
+    /// weight gradient to `grad` or, with `step`, adds `step ·` it to the
+    /// weights in place (after the layer's sensitivities below have been
+    /// computed with the old weights). Returns the squared norm of the
+    /// weight gradient, `Σ_l ‖g_l‖² (‖a_{l−1}‖² + 1)` (an outer product
+    /// plus the biases per layer).
+    fn backward(&mut self, s: usize, coef: &[f64], signal: f64, target: Target<'_>, to_input: bool) -> f64 {
         let layers = self.layers();
-        for (gk, &c) in self.g[layers].iter_mut().zip(coef) {
+        let a = &self.passes[s].a;
+        for (gk, &c) in self.g[self.aoff[layers]..].iter_mut().zip(coef) {
             *gk = signal * c;
         }
+        let mut target = target;
+        let mut sq = 0.0;
         for l in (0..layers).rev() {
             let (n_in, n_out) = (self.sizes[l], self.sizes[l + 1]);
             let (wo, bo) = (self.off[l], self.off[l] + n_out * n_in);
-            if let Some(gr) = grad.as_deref_mut() {
-                for r in 0..n_out {
-                    let gr_r = self.g[l + 1][r];
-                    if gr_r == 0.0 {
-                        continue;
-                    }
-                    for c in 0..n_in {
-                        gr[wo + r * n_in + c] += gr_r * self.a[l][c];
-                    }
-                    gr[bo + r] += gr_r;
-                }
+            let (lower, upper) = self.g.split_at_mut(self.aoff[l + 1]);
+            let above = &upper[..n_out];
+            let below = &mut lower[self.aoff[l]..];
+            let input = &a[self.aoff[l]..self.aoff[l + 1]];
+            let need_below = l > 0 || to_input;
+            if need_below {
+                below.iter_mut().for_each(|v| *v = 0.0);
             }
-            if l == 0 && !to_input {
-                break;
+            if let Target::Grad(_) | Target::Step(_) = target {
+                sq += norm_sq(above) * (norm_sq(input) + 1.0);
             }
-            let (lower, upper) = self.g.split_at_mut(l + 1);
-            let (below, above) = (&mut lower[l], &upper[0]);
-            for c in 0..n_in {
-                let mut s = 0.0;
-                for r in 0..n_out {
-                    s += self.w[wo + r * n_in + c] * above[r];
+            match &mut target {
+                Target::Step(step) if need_below => {
+                    // All rows at once (blocked); the step per row goes in
+                    // `step_buf`.
+                    for (cb, &gr) in self.step_buf.iter_mut().zip(above) {
+                        *cb = *step * gr;
+                    }
+                    let cs = &self.step_buf[..n_out];
+                    backprop_step(above, cs, input, &mut self.w[wo..bo], below);
+                    for (b, &c) in self.w[bo..bo + n_out].iter_mut().zip(cs) {
+                        *b += c;
+                    }
                 }
-                below[c] = if l == 0 {
-                    s
-                } else {
-                    let a = self.a[l][c];
-                    match self.act {
-                        Activation::Tanh => s * (1.0 - a * a),
-                        Activation::Relu => {
-                            if a > 0.0 {
-                                s
-                            } else {
-                                0.0
+                _ => {
+                    for r in 0..n_out {
+                        let gr = above[r];
+                        if gr == 0.0 {
+                            continue;
+                        }
+                        let row = wo + r * n_in..wo + (r + 1) * n_in;
+                        match &mut target {
+                            Target::Step(step) => {
+                                let c = *step * gr;
+                                axpy(c, input, &mut self.w[row]);
+                                self.w[bo + r] += c;
+                            }
+                            Target::Grad(g) => {
+                                if need_below {
+                                    axpy(gr, &self.w[row.clone()], below);
+                                }
+                                axpy(gr, input, &mut g[row]);
+                                g[bo + r] += gr;
+                            }
+                            Target::None => {
+                                if need_below {
+                                    axpy(gr, &self.w[row], below);
+                                }
                             }
                         }
                     }
-                };
+                }
+            }
+            if !need_below {
+                break;
+            }
+            if l > 0 {
+                Self::activation_derivative(self.act, input, below);
             }
         }
+        if let Target::Step(_) = target {
+            self.passes[0].fresh = false;
+            self.passes[1].fresh = false;
+        }
+        sq
     }
+}
+
+/// Where [`Mlp::backward`] puts the weight gradient.
+enum Target<'a> {
+    /// Nowhere (input gradient only).
+    None,
+    /// Added to a dense gradient buffer.
+    Grad(&'a mut [f64]),
+    /// Added to the weights times this step size.
+    Step(f64),
 }
 
 impl Approx for Mlp {
@@ -180,25 +276,31 @@ impl Approx for Mlp {
     }
 
     fn params_mut(&mut self) -> &mut [f64] {
-        self.fresh = false;
+        self.passes[0].fresh = false;
+        self.passes[1].fresh = false;
         &mut self.w
     }
 
     fn eval(&mut self, obs: Obs<'_>) -> &[f64] {
-        self.forward(obs.values);
-        &self.a[self.layers()]
+        let s = self.forward(obs.values);
+        &self.passes[s].a[self.aoff[self.layers()]..]
     }
 
     fn accumulate(&mut self, obs: Obs<'_>, coef: &[f64], signal: f64, grad: &mut Grad) {
-        self.forward(obs.values);
-        self.backward(coef, signal, Some(grad.dense_mut()), false);
+        let s = self.forward(obs.values);
+        self.backward(s, coef, signal, Target::Grad(grad.dense_mut()), false);
+    }
+
+    fn sgd_step(&mut self, obs: Obs<'_>, coef: &[f64], step: f64) -> Option<f64> {
+        let s = self.forward(obs.values);
+        Some(f64::sqrt(self.backward(s, coef, 1.0, Target::Step(step), false)))
     }
 
     fn input_grad(&mut self, obs: Obs<'_>, coef: &[f64], out: &mut [f64]) -> bool {
-        self.forward(obs.values);
-        self.backward(coef, 1.0, None, true);
+        let s = self.forward(obs.values);
+        self.backward(s, coef, 1.0, Target::None, true);
         for j in 0..self.inv.len() {
-            out[j] = self.g[0][j] * self.inv[j];
+            out[j] = self.g[j] * self.inv[j];
         }
         true
     }

@@ -16,6 +16,7 @@
 //! allocates per step: buffers are sized once.
 
 pub mod fourier;
+pub mod kernels;
 pub mod mlp;
 pub mod poly;
 pub mod rbf;
@@ -488,7 +489,7 @@ impl Approx for LinearFn {
             sq += c * c;
             self.lin.add(k, step * c, x);
         }
-        Some(libm::sqrt(sq * x.norm_sq()))
+        Some(f64::sqrt(sq * x.norm_sq()))
     }
     fn input_grad(&mut self, obs: Obs<'_>, coef: &[f64], out: &mut [f64]) -> bool {
         let dim = self.lin.dim;
