@@ -166,7 +166,7 @@ impl Grad {
     pub fn norm(&self) -> f64 {
         let mut sq = 0.0;
         self.for_each_touched(|i| sq += self.g[i] * self.g[i]);
-        libm::sqrt(sq)
+        f64::sqrt(sq)
     }
 
     /// Dot product with another direction over the same weights.
@@ -280,7 +280,7 @@ impl Optimizer {
                     self.v[i] = b2 * self.v[i] + (1.0 - b2) * g * g;
                     let mh = self.m[i] / c1;
                     let vh = self.v[i] / c2;
-                    w[i] += step * mh / (libm::sqrt(vh) + self.epsilon);
+                    w[i] += step * mh / (f64::sqrt(vh) + self.epsilon);
                 }
             }
         }
@@ -369,7 +369,7 @@ mod tests {
         g.add(3, 1.0);
         g.add(7, 2.0);
         g.add(3, 2.0);
-        assert_eq!(g.norm(), libm::sqrt(9.0 + 4.0));
+        assert_eq!(g.norm(), f64::sqrt(9.0 + 4.0));
         let mut h = Grad::new(10);
         h.add_scaled(2.0, &g);
         assert_eq!(h.values()[3], 6.0);

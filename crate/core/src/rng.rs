@@ -102,7 +102,7 @@ impl Stream {
         // 1 - u lies in (0, 1], so the logarithm is finite.
         let u1 = 1.0 - self.uniform();
         let u2 = self.uniform();
-        libm::sqrt(-2.0 * libm::log(u1)) * libm::cos(2.0 * core::f64::consts::PI * u2)
+        f64::sqrt(-2.0 * libm::log(u1)) * libm::cos(2.0 * core::f64::consts::PI * u2)
     }
 
     /// Index drawn from a discrete distribution given by `probs` (which

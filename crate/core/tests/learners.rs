@@ -162,8 +162,8 @@ fn stationary_distribution_and_average_reward_match_a_long_run() {
         means.push(total / len as f64);
     }
     let mean = means.iter().sum::<f64>() / batches as f64;
-    let sd = libm::sqrt(means.iter().map(|x| (x - mean) * (x - mean)).sum::<f64>() / (batches - 1) as f64);
-    assert!((mean - want).abs() < 3.0 * sd / libm::sqrt(batches as f64), "{mean} vs {want}");
+    let sd = f64::sqrt(means.iter().map(|x| (x - mean) * (x - mean)).sum::<f64>() / (batches - 1) as f64);
+    assert!((mean - want).abs() < 3.0 * sd / f64::sqrt(batches as f64), "{mean} vs {want}");
     for s in 0..m.n_states {
         assert!((visits[s] / (batches * len) as f64 - d[s]).abs() < 0.01, "state {s}");
     }

@@ -52,7 +52,7 @@ impl Rbf {
         let per_var: f64 = (0..m)
             .map(|k| {
                 let c = k as f64 / (m - 1) as f64;
-                sigma * libm::sqrt(core::f64::consts::PI) / 2.0
+                sigma * f64::sqrt(core::f64::consts::PI) / 2.0
                     * (libm::erf((1.0 - c) / sigma) + libm::erf(c / sigma))
             })
             .sum();

@@ -24,7 +24,13 @@ pub struct TileCoder {
     per_tiling: u64,
     hash: u32,
     dim: usize,
+    /// `shift[k * d + i]`: tiling `k`'s displacement of variable `i`, in tiles.
+    shift: Vec<f64>,
 }
+
+/// Most state variables whose scaled values [`TileCoder::compute`] keeps on
+/// the stack (more are recomputed per tiling, with the same result).
+const STACK_VARS: usize = 16;
 
 fn hash_coords(tiling: u32, coords: impl Iterator<Item = u32>) -> u64 {
     // FNV-1a over 32-bit words followed by a SplitMix64 finish (common practice, no source).
@@ -68,7 +74,11 @@ impl TileCoder {
                 ),
             );
         };
+        let shift = (0..tilings)
+            .flat_map(|k| (0..d).map(move |i| f64::from((k * (2 * i + 1)) % tilings) / f64::from(tilings)))
+            .collect();
         Ok(TileCoder {
+            shift,
             low: vars.iter().map(|v| v.low).collect(),
             scale: vars.iter().map(|v| f64::from(intervals) / (v.high - v.low)).collect(),
             tilings,
@@ -92,23 +102,44 @@ impl Features for TileCoder {
     fn compute(&self, obs: Obs<'_>, out: &mut Sparse) {
         out.clear();
         let n = self.tilings;
+        let d = self.low.len();
         let top = f64::from(self.intervals);
+        // Clamped to [0, intervals], NaN to 0 (comparisons rather than
+        // clamp(): WebAssembly's min/max carry NaN and signed-zero rules
+        // that cost a long instruction sequence).
+        let scaled = |i: usize| -> f64 {
+            let u = (obs.values[i] - self.low[i]) * self.scale[i];
+            if u > top {
+                top
+            } else if u >= 0.0 {
+                u
+            } else {
+                0.0
+            }
+        };
+        let mut stack = [0.0f64; STACK_VARS];
+        for (i, slot) in stack.iter_mut().enumerate().take(d) {
+            *slot = scaled(i);
+        }
         let coord = |k: u32, i: usize| -> u32 {
-            let v = obs.values[i];
-            let u = ((v - self.low[i]) * self.scale[i]).clamp(0.0, top);
-            let u = if u.is_nan() { 0.0 } else { u };
-            let shift = f64::from((k * (2 * i as u32 + 1)) % n) / f64::from(n);
+            let u = if i < STACK_VARS { stack[i] } else { scaled(i) };
             // u + shift lies in [0, intervals + 1), so truncating is flooring:
             // the same tile as floor() without a libm call on baseline x86-64.
-            ((u + shift) as u32).min(self.intervals)
+            ((u + self.shift[k as usize * d + i]) as u32).min(self.intervals)
         };
+        // h mod 2^m is h's low m bits: the same index without a 64-bit division.
+        let pow2 = self.hash.is_power_of_two();
         for k in 0..n {
             let index = if self.hash > 0 {
-                let h = hash_coords(k, (0..self.low.len()).map(|i| coord(k, i)));
-                h % u64::from(self.hash)
+                let h = hash_coords(k, (0..d).map(|i| coord(k, i)));
+                if pow2 {
+                    h & u64::from(self.hash - 1)
+                } else {
+                    h % u64::from(self.hash)
+                }
             } else {
                 let mut flat = 0u64;
-                for i in 0..self.low.len() {
+                for i in 0..d {
                     flat = flat * u64::from(self.intervals + 1) + u64::from(coord(k, i));
                 }
                 u64::from(k) * self.per_tiling + flat

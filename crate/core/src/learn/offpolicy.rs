@@ -364,7 +364,7 @@ mod tests {
                 continue;
             }
             let mean = sum[i] / nf;
-            let se = libm::sqrt((sq[i] / nf - mean * mean) / nf);
+            let se = f64::sqrt((sq[i] / nf - mean * mean) / nf);
             let want = exact[s * na + a];
             assert!((mean - want).abs() < 4.0 * se, "state {s} action {a}: {mean} ± {se} vs exact {want}");
             assert!(se < 0.1 * scale, "the check has power: se {se} vs gradient scale {scale}");

@@ -382,7 +382,7 @@ impl StochasticPolicy {
                 for v in g.log_std.iter_mut() {
                     *v = v.clamp(LOG_STD_MIN, LOG_STD_MAX);
                 }
-                libm::sqrt(n * n + m * m)
+                f64::sqrt(n * n + m * m)
             }
             _ => n,
         }

@@ -89,7 +89,7 @@ impl ShortCorridor {
 
     /// The best `P(right)`, `2 − √2`.
     pub fn best_p() -> f64 {
-        2.0 - libm::sqrt(2.0)
+        2.0 - f64::sqrt(2.0)
     }
 }
 
@@ -152,7 +152,7 @@ mod tests {
         // J(0.95) ≈ −44.2 (references.md).
         let t = ShortCorridor::new(CorridorConfig::default()).unwrap();
         let m = t.model().unwrap();
-        for p in [0.1, 0.3, 0.5, 2.0 - libm::sqrt(2.0), 0.8, 0.95] {
+        for p in [0.1, 0.3, 0.5, 2.0 - f64::sqrt(2.0), 0.8, 0.95] {
             let mut pi = vec![0.0; 8];
             for s in 0..3 {
                 pi[s * 2] = 1.0 - p;
@@ -164,7 +164,7 @@ mod tests {
         }
         let best = ShortCorridor::best_p();
         assert!((best - 0.585786).abs() < 1e-6);
-        assert!((ShortCorridor::objective(best) + 6.0 + 4.0 * libm::sqrt(2.0)).abs() < 1e-12);
+        assert!((ShortCorridor::objective(best) + 6.0 + 4.0 * f64::sqrt(2.0)).abs() < 1e-12);
         assert!((ShortCorridor::objective(0.95) + 44.21).abs() < 0.01);
         assert!((ShortCorridor::objective(0.05) + 82.11).abs() < 0.01);
         // p* is a maximum: nearby p are worse.

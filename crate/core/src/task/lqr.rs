@@ -195,12 +195,12 @@ mod tests {
         // Bertsekas, Vol. I, Section 4.1 (from memory; references.md): with
         // a = b = q = r = γ = 1, P = (1 + √5)/2 and K = (√5 − 1)/2.
         let (p, k) = riccati(1.0, 1.0, 1.0, 1.0, 1.0);
-        let s5 = libm::sqrt(5.0);
+        let s5 = f64::sqrt(5.0);
         assert!((p - (1.0 + s5) / 2.0).abs() < 1e-12, "{p}");
         assert!((k - (s5 - 1.0) / 2.0).abs() < 1e-12, "{k}");
         // Derived by hand for the default γ = 0.9: 0.9P² − 0.8P − 1 = 0.
         let (p, k) = riccati(1.0, 1.0, 1.0, 1.0, 0.9);
-        let want = (0.8 + libm::sqrt(0.64 + 3.6)) / 1.8;
+        let want = (0.8 + f64::sqrt(0.64 + 3.6)) / 1.8;
         assert!((p - want).abs() < 1e-12 && (k - 0.9 * want / (1.0 + 0.9 * want)).abs() < 1e-12);
     }
 
