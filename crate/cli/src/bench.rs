@@ -14,8 +14,9 @@ fn rss_kib() -> Option<u64> {
 }
 
 /// Runs job `job` of `plan` for `steps` steps in chunks of 10 000 (the way
-/// the page's workers advance) and reports steps per second; at each step
-/// count in `rss_at` (ascending) it records the resident memory.
+/// the page's workers advance: after each chunk the new episode records are
+/// taken, as a worker posts them to the page) and reports steps per second;
+/// at each step count in `rss_at` (ascending) it records the resident memory.
 pub fn bench(plan: &Plan, job: usize, steps: u64, rss_at: &[u64]) -> Result<serde_json::Value, String> {
     if job >= plan.job_count() {
         return Err(format!("--job {job} is out of range: the plan has {} jobs", plan.job_count()));
@@ -27,20 +28,22 @@ pub fn bench(plan: &Plan, job: usize, steps: u64, rss_at: &[u64]) -> Result<serd
     let rss_start = rss_kib();
     let t0 = Instant::now();
     let mut next_mark = 0;
+    let mut episodes = 0usize;
     while j.steps_done() < steps && *j.status() == JobStatus::Running {
         let mut chunk = (steps - j.steps_done()).min(10_000);
         if let Some(&m) = marks.get(next_mark) {
             chunk = chunk.min(m - j.steps_done()).max(1);
         }
         j.advance(chunk);
+        episodes += j.take_new_episodes().len();
         while let Some(&m) = marks.get(next_mark) {
             if j.steps_done() < m {
                 break;
             }
-            // The job keeps every finished episode (the results need them):
-            // that log is the one thing expected to grow with steps.
-            let episodes = j.episodes().len();
-            let log_kib = std::mem::size_of_val(j.episodes()) as f64 / 1024.0;
+            // What the results keep for these episodes (32 bytes each), held
+            // by whoever took them (the page), not by this process.
+            let log_kib =
+                (episodes * std::mem::size_of::<critbox_core::experiment::EpisodeRecord>()) as f64 / 1024.0;
             rss.push(serde_json::json!({
                 "steps": m, "rss_kib": rss_kib(), "episodes": episodes, "episode_log_kib": log_kib
             }));
@@ -58,7 +61,7 @@ pub fn bench(plan: &Plan, job: usize, steps: u64, rss_at: &[u64]) -> Result<serd
         "steps": done,
         "seconds": secs,
         "steps_per_sec": if secs > 0.0 { done as f64 / secs } else { 0.0 },
-        "episodes": j.episodes().len(),
+        "episodes": episodes,
         "status": status,
         "rss_start_kib": rss_start,
         "rss": rss,

@@ -85,6 +85,18 @@ fn same_config_same_numbers_whatever_the_chunks() {
             assert_eq!(j.diagnostics(), whole.diagnostics());
             assert_eq!(j.steps_done(), 3_000);
         }
+        // Taking episodes as they finish (as a page worker does) hands out the
+        // same records, and the job keeps only the last batch it handed out.
+        let mut j = Job::new(&plan, id);
+        let mut taken = Vec::new();
+        while j.advance(250) > 0 {
+            let new = j.take_new_episodes().to_vec();
+            assert_eq!(j.episodes(), &new[..], "job {id}: the job holds only what it just handed out");
+            taken.extend(new);
+        }
+        taken.extend_from_slice(j.take_new_episodes());
+        assert_eq!(&taken[..], whole.episodes(), "job {id}");
+        assert!(j.take_new_episodes().is_empty() && j.episodes().is_empty());
     }
 }
 

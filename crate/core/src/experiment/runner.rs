@@ -198,16 +198,20 @@ impl Job {
         &self.status
     }
 
-    /// Every finished episode so far.
+    /// The finished episodes the job still holds: every one so far, unless
+    /// [`Job::take_new_episodes`] has been called (it drops what it handed out).
     pub fn episodes(&self) -> &[EpisodeRecord] {
         &self.episodes
     }
 
-    /// Episodes finished since the last call.
+    /// Episodes finished since the last call. The records the previous call
+    /// returned are dropped first: whoever takes episodes keeps them (the
+    /// page's results, the CLI's), so a job that is read as it runs holds
+    /// only one chunk's worth and its memory stays flat however long it runs.
     pub fn take_new_episodes(&mut self) -> &[EpisodeRecord] {
-        let from = self.unread;
+        self.episodes.drain(..self.unread);
         self.unread = self.episodes.len();
-        &self.episodes[from..]
+        &self.episodes
     }
 
     /// Diagnostic sums per curve bin.
