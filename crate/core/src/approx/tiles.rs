@@ -39,6 +39,12 @@ fn hash_coords(tiling: u32, coords: impl Iterator<Item = u32>) -> u64 {
         h ^= u64::from(c);
         h = h.wrapping_mul(0x0000_0100_0000_01B3);
     }
+    mix(h)
+}
+
+/// The SplitMix64-style finish of [`hash_coords`].
+#[inline(always)]
+fn mix(mut h: u64) -> u64 {
     h ^= h >> 33;
     h = h.wrapping_mul(0xff51_afd7_ed55_8ccd);
     h ^= h >> 33;
@@ -129,6 +135,22 @@ impl Features for TileCoder {
         };
         // h mod 2^m is h's low m bits: the same index without a 64-bit division.
         let pow2 = self.hash.is_power_of_two();
+        if self.hash > 0 && (1..=STACK_VARS).contains(&d) {
+            // The common case without per-coordinate bounds checks: the same
+            // coordinates and hash as `hash_coords` below.
+            let u = &stack[..d];
+            for (k, shifts) in (0u32..).zip(self.shift.chunks_exact(d)) {
+                let mut h: u64 = 0xcbf2_9ce4_8422_2325 ^ u64::from(k);
+                for (&ui, &si) in u.iter().zip(shifts) {
+                    h ^= u64::from(((ui + si) as u32).min(self.intervals));
+                    h = h.wrapping_mul(0x0000_0100_0000_01B3);
+                }
+                let h = mix(h);
+                let index = if pow2 { h & u64::from(self.hash - 1) } else { h % u64::from(self.hash) };
+                out.push(index as u32, 1.0);
+            }
+            return;
+        }
         for k in 0..n {
             let index = if self.hash > 0 {
                 let h = hash_coords(k, (0..d).map(|i| coord(k, i)));
