@@ -22,6 +22,8 @@ pub mod poly;
 pub mod rbf;
 pub mod tiles;
 
+use std::sync::{Arc, Mutex, MutexGuard};
+
 use serde::{Deserialize, Serialize};
 
 use crate::optim::Grad;
@@ -315,16 +317,23 @@ impl Linear {
     }
 }
 
-/// A two-slot cache of feature vectors keyed by observation, so that the
-/// features of a state are computed once although the state is seen by
-/// `act`, then by `learn` as the next state, then by `learn` as the state.
+/// Number of feature vectors a [`FeatureCache`] keeps.
+const CACHE_SLOTS: usize = 3;
+
+/// A small cache of feature vectors keyed by observation, least recently
+/// used out, so that the features of a state are computed once although the
+/// state is seen by `act`, then by `learn` as the next state, then by `learn`
+/// as the state, and by both the actor and the critic when they share the
+/// cache ([`SharedFeatures`]; three slots: the state, the next one and the
+/// one after, which `act` asks for before `learn`).
 pub struct FeatureCache {
     features: Box<dyn Features>,
-    keys: [Vec<f64>; 2],
-    ids: [Option<usize>; 2],
-    valid: [bool; 2],
-    slots: [Sparse; 2],
-    newest: usize,
+    keys: [Vec<f64>; CACHE_SLOTS],
+    ids: [Option<usize>; CACHE_SLOTS],
+    /// Last use of each slot (0: empty).
+    used: [u64; CACHE_SLOTS],
+    slots: [Sparse; CACHE_SLOTS],
+    clock: u64,
 }
 
 impl FeatureCache {
@@ -333,11 +342,11 @@ impl FeatureCache {
         let cap = features.max_active();
         FeatureCache {
             features,
-            keys: [Vec::new(), Vec::new()],
-            ids: [None; 2],
-            valid: [false; 2],
-            slots: [Sparse::with_capacity(cap), Sparse::with_capacity(cap)],
-            newest: 0,
+            keys: std::array::from_fn(|_| Vec::new()),
+            ids: [None; CACHE_SLOTS],
+            used: [0; CACHE_SLOTS],
+            slots: std::array::from_fn(|_| Sparse::with_capacity(cap)),
+            clock: 0,
         }
     }
 
@@ -352,8 +361,8 @@ impl FeatureCache {
     }
 
     fn find(&self, obs: Obs<'_>) -> Option<usize> {
-        (0..2).find(|&i| {
-            self.valid[i]
+        (0..CACHE_SLOTS).find(|&i| {
+            self.used[i] > 0
                 && self.ids[i] == obs.id
                 && self.keys[i].len() == obs.values.len()
                 && self.keys[i].iter().zip(obs.values).all(|(a, b)| a.to_bits() == b.to_bits())
@@ -363,21 +372,21 @@ impl FeatureCache {
     /// The slot holding `obs`'s features, computing them if needed without
     /// evicting slot `keep`.
     fn ensure(&mut self, obs: Obs<'_>, keep: Option<usize>) -> usize {
+        self.clock += 1;
         if let Some(i) = self.find(obs) {
-            self.newest = i;
+            self.used[i] = self.clock;
             return i;
         }
-        let slot = match keep {
-            Some(k) => 1 - k,
-            None => 1 - self.newest,
-        };
+        let slot = (0..CACHE_SLOTS)
+            .filter(|&i| Some(i) != keep)
+            .min_by_key(|&i| self.used[i])
+            .expect("a cache has more than one slot");
         // Sized on first use only (observation lengths never change in a job).
         self.keys[slot].clear();
         self.keys[slot].extend_from_slice(obs.values);
         self.ids[slot] = obs.id;
-        self.valid[slot] = true;
+        self.used[slot] = self.clock;
         self.features.compute(obs, &mut self.slots[slot]);
-        self.newest = slot;
         slot
     }
 
@@ -392,6 +401,54 @@ impl FeatureCache {
         let i = self.ensure(obs, None);
         let j = self.ensure(next, Some(i));
         (&self.slots[i], &self.slots[j])
+    }
+}
+
+/// A [`FeatureCache`] that several approximators of one learner use (the
+/// actor and the critic over the same features compute each state's features
+/// once between them). A job runs on one thread, so the lock is never
+/// contended; in WebAssembly it costs nothing.
+#[derive(Clone)]
+pub struct SharedFeatures(Arc<Mutex<FeatureCache>>);
+
+impl SharedFeatures {
+    /// A cache over `features`, not yet shared.
+    pub fn new(features: Box<dyn Features>) -> Self {
+        SharedFeatures(Arc::new(Mutex::new(FeatureCache::new(features))))
+    }
+
+    /// The cache (a poisoned lock only means another user panicked: the
+    /// cached vectors are still whole, as they are written before use).
+    pub fn lock(&self) -> MutexGuard<'_, FeatureCache> {
+        self.0.lock().unwrap_or_else(|e| e.into_inner())
+    }
+}
+
+/// The feature caches built so far for one learner, by feature settings and
+/// input variables: approximators built through the same pool over the same
+/// features share one cache.
+#[derive(Default)]
+pub struct FeaturePool {
+    entries: Vec<(FeatureConfig, Vec<StateVar>, Option<usize>, SharedFeatures)>,
+}
+
+impl FeaturePool {
+    /// The shared cache for these settings, built on first request.
+    fn get(
+        &mut self,
+        cfg: &FeatureConfig,
+        vars: &[StateVar],
+        n_states: Option<usize>,
+        kind: &str,
+    ) -> Result<SharedFeatures, FeatureError> {
+        if let Some((.., shared)) =
+            self.entries.iter().find(|(c, v, n, _)| c == cfg && v.as_slice() == vars && *n == n_states)
+        {
+            return Ok(shared.clone());
+        }
+        let shared = SharedFeatures::new(build_features_over(cfg, vars, n_states, kind)?);
+        self.entries.push((cfg.clone(), vars.to_vec(), n_states, shared.clone()));
+        Ok(shared)
     }
 }
 
@@ -425,27 +482,32 @@ pub trait Approx: Send {
 
 /// A linear map over a feature map: `out_k = w_k · x(s)`.
 pub struct LinearFn {
-    cache: FeatureCache,
+    cache: SharedFeatures,
     lin: Linear,
     out: Vec<f64>,
     comb: Vec<f64>,
+    step_scale: f64,
 }
 
 impl LinearFn {
     /// Zero weights over `features`, with `outputs` outputs.
     pub fn new(features: Box<dyn Features>, outputs: usize) -> Self {
-        let dim = features.dim();
+        Self::over(SharedFeatures::new(features), outputs)
+    }
+
+    /// Zero weights over a (possibly shared) feature cache.
+    pub fn over(cache: SharedFeatures, outputs: usize) -> Self {
+        let (dim, step_scale) = {
+            let c = cache.lock();
+            (c.dim(), c.features().step_scale())
+        };
         LinearFn {
-            cache: FeatureCache::new(features),
+            cache,
             lin: Linear::zeros(dim, outputs),
             out: vec![0.0; outputs],
             comb: Vec::new(),
+            step_scale,
         }
-    }
-
-    /// The features of a state (cached).
-    pub fn features_of(&mut self, obs: Obs<'_>) -> &Sparse {
-        self.cache.get(obs)
     }
 }
 
@@ -460,17 +522,19 @@ impl Approx for LinearFn {
         &mut self.lin.w
     }
     fn step_scale(&self) -> f64 {
-        self.cache.features().step_scale()
+        self.step_scale
     }
     fn eval(&mut self, obs: Obs<'_>) -> &[f64] {
-        let x = self.cache.get(obs);
+        let mut cache = self.cache.lock();
+        let x = cache.get(obs);
         for k in 0..self.lin.outputs {
             self.out[k] = self.lin.value(k, x);
         }
         &self.out
     }
     fn accumulate(&mut self, obs: Obs<'_>, coef: &[f64], signal: f64, grad: &mut Grad) {
-        let x = self.cache.get(obs);
+        let mut cache = self.cache.lock();
+        let x = cache.get(obs);
         let dim = self.lin.dim;
         for (k, &c) in coef.iter().enumerate() {
             let c = signal * c;
@@ -483,7 +547,8 @@ impl Approx for LinearFn {
         }
     }
     fn sgd_step(&mut self, obs: Obs<'_>, coef: &[f64], step: f64) -> Option<f64> {
-        let x = self.cache.get(obs);
+        let mut cache = self.cache.lock();
+        let x = cache.get(obs);
         let mut sq = 0.0;
         for (k, &c) in coef.iter().enumerate() {
             sq += c * c;
@@ -500,7 +565,7 @@ impl Approx for LinearFn {
         for i in 0..dim {
             self.comb[i] = coef.iter().enumerate().map(|(k, c)| c * self.lin.w[k * dim + i]).sum();
         }
-        self.cache.features().input_grad(obs.values, &self.comb, out)
+        self.cache.lock().features().input_grad(obs.values, &self.comb, out)
     }
 }
 
@@ -562,17 +627,33 @@ pub fn build_approx(
     outputs: usize,
     rng: &mut Stream,
 ) -> Result<Box<dyn Approx>, FeatureError> {
+    build_approx_in(&mut FeaturePool::default(), cfg, shared, vars, n_states, kind, outputs, rng)
+}
+
+/// [`build_approx`], with a linear approximator's feature cache taken from
+/// (and shared through) `pool`.
+#[allow(clippy::too_many_arguments)]
+pub fn build_approx_in(
+    pool: &mut FeaturePool,
+    cfg: &ApproxConfig,
+    shared: &FeatureConfig,
+    vars: &[StateVar],
+    n_states: Option<usize>,
+    kind: &str,
+    outputs: usize,
+    rng: &mut Stream,
+) -> Result<Box<dyn Approx>, FeatureError> {
     match cfg {
         ApproxConfig::Linear { features } => {
             let (fc, prefix) = match features {
                 Some(f) => (f, "features."),
                 None => (shared, "features."),
             };
-            let f = build_features_over(fc, vars, n_states, kind).map_err(|e| {
+            let f = pool.get(fc, vars, n_states, kind).map_err(|e| {
                 let FeatureError::Invalid(field, msg) = e;
                 FeatureError::Invalid(format!("{prefix}{field}"), msg)
             })?;
-            Ok(Box::new(LinearFn::new(f, outputs)))
+            Ok(Box::new(LinearFn::over(f, outputs)))
         }
         ApproxConfig::Mlp { hidden, activation } => {
             if hidden.is_empty() || hidden.len() > 4 {
@@ -607,6 +688,52 @@ mod tests {
         assert_eq!(l.value(0, &x), 0.0);
         assert_eq!(l.value(1, &x), 2.0 * 1.0 + 2.0 * 0.25);
         assert_eq!(l.w[5 + 1], 2.0);
+    }
+
+    #[test]
+    fn actor_and_critic_share_one_feature_computation_per_state() {
+        // Common practice, no source: through a shared cache, an actor and a
+        // critic stepping in the runner's order (act at the next state, then
+        // evaluate both states, update at the first) compute each state's
+        // features once between them; a pool shares by settings and inputs.
+        struct Counting(Arc<std::sync::atomic::AtomicUsize>);
+        impl Features for Counting {
+            fn dim(&self) -> usize {
+                10
+            }
+            fn max_active(&self) -> usize {
+                1
+            }
+            fn compute(&self, obs: Obs<'_>, out: &mut Sparse) {
+                self.0.fetch_add(1, std::sync::atomic::Ordering::SeqCst);
+                Tabular::one_hot(obs.id.unwrap(), out);
+            }
+        }
+        let n = Arc::new(std::sync::atomic::AtomicUsize::new(0));
+        let shared = SharedFeatures::new(Box::new(Counting(n.clone())));
+        let (mut actor, mut critic) = (LinearFn::over(shared.clone(), 2), LinearFn::over(shared, 1));
+        let vals: Vec<[f64; 1]> = (0..8).map(|i| [i as f64]).collect();
+        let o = |i: usize| Obs { values: &vals[i][..], id: Some(i) };
+        actor.eval(o(0));
+        for s in 0..7 {
+            actor.eval(o(s + 1));
+            critic.eval(o(s));
+            critic.eval(o(s + 1));
+            critic.sgd_step(o(s), &[1.0], 0.1);
+            actor.sgd_step(o(s), &[1.0, -1.0], 0.1);
+        }
+        assert_eq!(n.load(std::sync::atomic::Ordering::SeqCst), 8);
+
+        let vars = [StateVar { name: "a".into(), low: -1.0, high: 1.0 }];
+        let other = [StateVar { name: "b".into(), low: -1.0, high: 1.0 }];
+        let cfg = FeatureConfig::Tiles { tilings: 4, intervals: 4, hash: 0 };
+        let mut pool = FeaturePool::default();
+        let a = pool.get(&cfg, &vars, None, "test").unwrap();
+        let b = pool.get(&cfg, &vars, None, "test").unwrap();
+        let c = pool.get(&cfg, &other, None, "test").unwrap();
+        let d = pool.get(&FeatureConfig::Fourier { order: 2 }, &vars, None, "test").unwrap();
+        assert!(Arc::ptr_eq(&a.0, &b.0));
+        assert!(!Arc::ptr_eq(&a.0, &c.0) && !Arc::ptr_eq(&a.0, &d.0));
     }
 
     #[test]

@@ -21,6 +21,7 @@ use super::{
     action_dims, finite, stochastic_actor, value_critic, LearnError, Learner, LearnerSetup, StepDiag,
     Trajectory, Transition,
 };
+use crate::approx::FeaturePool;
 use crate::approx::Obs;
 use crate::learn::ActionBuf;
 use crate::optim::Trainable;
@@ -54,8 +55,9 @@ impl A2c {
     /// A learner for a checked setup (uniform policy, zero values; MLP
     /// weights drawn from `rng`).
     pub fn new(setup: &LearnerSetup, spec: &TaskSpec, rng: &mut Stream) -> Self {
-        let actor = stochastic_actor(setup, spec, rng);
-        let critic = value_critic(setup, spec, rng);
+        let mut pool = FeaturePool::default();
+        let actor = stochastic_actor(&mut pool, setup, spec, rng);
+        let critic = value_critic(&mut pool, setup, spec, rng);
         let gamma = setup.discount_on(spec);
         let n = setup.n_steps as usize;
         A2c {

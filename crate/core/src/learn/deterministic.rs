@@ -21,6 +21,7 @@
 //! each transition is learned from once, as it comes.
 
 use super::{finite, joint_vars, state_net, LearnError, Learner, LearnerSetup, StepDiag, Transition};
+use crate::approx::FeaturePool;
 use crate::approx::{build_approx, Approx, Obs};
 use crate::learn::ActionBuf;
 use crate::optim::Trainable;
@@ -127,7 +128,8 @@ impl Deterministic {
             build_approx(&critic_cfg, &shared, &joint, None, spec.kind, 1, rng)
                 .expect("a checked setup's critic builds")
         };
-        let actor_net = state_net(setup, spec, &actor_cfg, dims, setup.actor_step, rng);
+        let actor_net =
+            state_net(&mut FeaturePool::default(), setup, spec, &actor_cfg, dims, setup.actor_step, rng);
         let critic_net = make_critic(rng);
         let use_targets = setup.target_tau < 1.0;
         let actor_target = use_targets.then(|| {

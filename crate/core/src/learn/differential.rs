@@ -11,6 +11,7 @@
 use super::{
     finite, stochastic_actor, value_critic, LearnError, Learner, LearnerSetup, StepDiag, Transition,
 };
+use crate::approx::FeaturePool;
 use crate::approx::Obs;
 use crate::learn::ActionBuf;
 use crate::optim::Trainable;
@@ -30,8 +31,9 @@ pub struct Differential {
 impl Differential {
     /// A learner for a checked setup (`R̄` starts at 0).
     pub fn new(setup: &LearnerSetup, spec: &TaskSpec, rng: &mut Stream) -> Self {
-        let actor = stochastic_actor(setup, spec, rng);
-        let critic = value_critic(setup, spec, rng);
+        let mut pool = FeaturePool::default();
+        let actor = stochastic_actor(&mut pool, setup, spec, rng);
+        let critic = value_critic(&mut pool, setup, spec, rng);
         Differential { actor, critic, average: 0.0, eta: setup.average_step, beta: setup.entropy }
     }
 

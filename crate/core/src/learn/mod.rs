@@ -26,7 +26,7 @@ pub use setup::{
     joint_vars, Algo, Baseline, BehaviourConfig, BehaviourKind, LearnerSetup, ReplayConfig, SetupError,
 };
 
-use crate::approx::{build_approx, ApproxConfig, Obs};
+use crate::approx::{build_approx_in, ApproxConfig, FeaturePool, Obs};
 use crate::optim::Trainable;
 use crate::policy::StochasticPolicy;
 use crate::rng::Stream;
@@ -190,6 +190,7 @@ pub fn build_learner(setup: &LearnerSetup, spec: &TaskSpec) -> Result<Box<dyn Le
 /// An approximator over the task's state with `outputs` outputs and its
 /// optimizer, for a checked setup.
 pub(crate) fn state_net(
+    pool: &mut FeaturePool,
     setup: &LearnerSetup,
     spec: &TaskSpec,
     cfg: &ApproxConfig,
@@ -197,7 +198,8 @@ pub(crate) fn state_net(
     step: f64,
     rng: &mut Stream,
 ) -> Trainable {
-    let net = build_approx(
+    let net = build_approx_in(
+        pool,
         cfg,
         &setup.features_or_default(spec),
         &spec.state_vars,
@@ -212,22 +214,38 @@ pub(crate) fn state_net(
 
 /// The stochastic actor of a checked setup: softmax on discrete actions,
 /// squashed Gaussian on continuous ones.
-pub(crate) fn stochastic_actor(setup: &LearnerSetup, spec: &TaskSpec, rng: &mut Stream) -> StochasticPolicy {
+pub(crate) fn stochastic_actor(
+    pool: &mut FeaturePool,
+    setup: &LearnerSetup,
+    spec: &TaskSpec,
+    rng: &mut Stream,
+) -> StochasticPolicy {
     let actor = setup.actor_or_default();
     match &spec.actions {
-        ActionSpace::Discrete(names) => {
-            StochasticPolicy::softmax(state_net(setup, spec, &actor, names.len(), setup.actor_step, rng))
-        }
+        ActionSpace::Discrete(names) => StochasticPolicy::softmax(state_net(
+            pool,
+            setup,
+            spec,
+            &actor,
+            names.len(),
+            setup.actor_step,
+            rng,
+        )),
         ActionSpace::Continuous { low, high, .. } => {
-            let net = state_net(setup, spec, &actor, low.len(), setup.actor_step, rng);
+            let net = state_net(pool, setup, spec, &actor, low.len(), setup.actor_step, rng);
             StochasticPolicy::gaussian(net, &setup.policy, low, high, &setup.optimizer, setup.actor_step)
         }
     }
 }
 
 /// The state-value critic of a checked setup.
-pub(crate) fn value_critic(setup: &LearnerSetup, spec: &TaskSpec, rng: &mut Stream) -> Trainable {
-    state_net(setup, spec, &setup.critic_or_default(), 1, setup.critic_step, rng)
+pub(crate) fn value_critic(
+    pool: &mut FeaturePool,
+    setup: &LearnerSetup,
+    spec: &TaskSpec,
+    rng: &mut Stream,
+) -> Trainable {
+    state_net(pool, setup, spec, &setup.critic_or_default(), 1, setup.critic_step, rng)
 }
 
 /// Checks that a learner's numbers stay finite.

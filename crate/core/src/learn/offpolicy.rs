@@ -24,6 +24,7 @@ use super::{
     finite, stochastic_actor, value_critic, BehaviourKind, LearnError, Learner, LearnerSetup, StepDiag,
     Transition,
 };
+use crate::approx::FeaturePool;
 use crate::approx::Obs;
 use crate::learn::ActionBuf;
 use crate::optim::Trainable;
@@ -102,11 +103,12 @@ impl Sampled {
 impl OffPolicy {
     /// A learner for a checked setup.
     pub fn new(setup: &LearnerSetup, spec: &TaskSpec, rng: &mut Stream) -> Self {
-        let target = stochastic_actor(setup, spec, rng);
-        let critic = value_critic(setup, spec, rng);
+        let mut pool = FeaturePool::default();
+        let target = stochastic_actor(&mut pool, setup, spec, rng);
+        let critic = value_critic(&mut pool, setup, spec, rng);
         let snapshot = (setup.behaviour.kind == BehaviourKind::Snapshot).then(|| {
             // Same shape; the weights are copied from the target below.
-            stochastic_actor(setup, spec, &mut rng.clone())
+            stochastic_actor(&mut pool, setup, spec, &mut rng.clone())
         });
         let (n_actions, low, high) = match &spec.actions {
             ActionSpace::Discrete(n) => (n.len(), Vec::new(), Vec::new()),

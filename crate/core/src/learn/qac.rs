@@ -11,6 +11,7 @@
 //! comparison with A2C. Discrete actions only.
 
 use super::{finite, state_net, stochastic_actor, LearnError, Learner, LearnerSetup, StepDiag, Transition};
+use crate::approx::FeaturePool;
 use crate::approx::Obs;
 use crate::learn::ActionBuf;
 use crate::optim::Trainable;
@@ -31,8 +32,9 @@ impl Qac {
     /// A learner for a checked setup (uniform policy, zero values).
     pub fn new(setup: &LearnerSetup, spec: &TaskSpec, rng: &mut Stream) -> Self {
         let n = spec.actions.discrete_count().expect("a checked QAC setup has discrete actions");
-        let actor = stochastic_actor(setup, spec, rng);
-        let critic = state_net(setup, spec, &setup.critic_or_default(), n, setup.critic_step, rng);
+        let mut pool = FeaturePool::default();
+        let actor = stochastic_actor(&mut pool, setup, spec, rng);
+        let critic = state_net(&mut pool, setup, spec, &setup.critic_or_default(), n, setup.critic_step, rng);
         Qac { actor, critic, gamma: setup.discount_on(spec), beta: setup.entropy, onehot: vec![0.0; n] }
     }
 

@@ -27,6 +27,7 @@ use super::{
     action_dims, finite, stochastic_actor, value_critic, Baseline, LearnError, Learner, LearnerSetup,
     StepDiag, Trajectory, Transition,
 };
+use crate::approx::FeaturePool;
 use crate::approx::Obs;
 use crate::learn::ActionBuf;
 use crate::optim::{Grad, Trainable};
@@ -94,8 +95,9 @@ pub struct Reinforce {
 impl Reinforce {
     /// A learner for a checked setup.
     pub fn new(setup: &LearnerSetup, spec: &TaskSpec, rng: &mut Stream) -> Self {
-        let actor = stochastic_actor(setup, spec, rng);
-        let critic = (setup.baseline == Baseline::Value).then(|| value_critic(setup, spec, rng));
+        let mut pool = FeaturePool::default();
+        let actor = stochastic_actor(&mut pool, setup, spec, rng);
+        let critic = (setup.baseline == Baseline::Value).then(|| value_critic(&mut pool, setup, spec, rng));
         let estimate = (setup.baseline == Baseline::Optimal).then(|| EpisodeEstimate::new(actor.n_params()));
         Reinforce {
             actor,
@@ -345,7 +347,7 @@ mod tests {
             ..LearnerSetup::default()
         };
         let spec = task.spec().clone();
-        let mut pi = stochastic_actor(&setup, &spec, &mut Stream::from_seed(0));
+        let mut pi = stochastic_actor(&mut FeaturePool::default(), &setup, &spec, &mut Stream::from_seed(0));
         let w = pi.net.net.params_mut();
         let dim = w.len() / 2;
         for i in 0..dim {
