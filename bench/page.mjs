@@ -3,8 +3,10 @@
 // (bench/job-worker.mjs, the WebAssembly build in web/pkg); window.__bench.pool(configUrl,
 // workers) runs every job of a config through the page's own worker pool
 // (web/js/pool.js, chunk 2000 steps as the page uses) and times it wall to wall,
-// with the time to the first progress message (workers started, wasm loaded, one chunk).
+// with the time to the first progress message (workers started, wasm
+// instantiated from the module the page compiled, one chunk).
 import { Pool } from '../web/js/pool.js';
+import { loadWasm } from '../web/js/wasm.js';
 
 async function text(url) {
   const res = await fetch(url);
@@ -43,5 +45,8 @@ async function pool(configUrl, workers, chunk = 2000) {
   return { workers, jobs, steps, seconds, steps_per_sec: steps / seconds, first_progress_seconds: firstProgress, errors };
 }
 
+// As on the page, the module is loaded (and compiled) on the main thread
+// before any run, and the pool hands it to its workers.
+await loadWasm();
 window.__bench = { single, pool, cores: navigator.hardwareConcurrency };
 document.getElementById('out').textContent = 'ready';

@@ -55,6 +55,10 @@ test('rover preset: train 3 seeds × 3000 steps, curves drawn, summary filled', 
   await waitForRunEnd(page);
   const status = await page.evaluate(() => window.__critbox.state.run.status);
   assert.equal(status, 'done');
+  // The page compiled the module once; the training and results workers got
+  // the compiled module and did not fetch the .wasm again.
+  const wasmFetches = requests.filter((u) => u.endsWith('.wasm'));
+  assert.equal(wasmFetches.length, 1, wasmFetches.join(', '));
 
   assert.equal(await page.getAttribute('#progress', 'value'), '100');
   assert.equal((await page.textContent('#percent')).trim(), '100%');

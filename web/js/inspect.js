@@ -10,6 +10,7 @@
 // Draw functions take (ctx, data, options) and keep no state.
 
 import { makeWorker, wasmForWorker } from './platform.js';
+import { compiledModule } from './wasm.js';
 
 // ---------------------------------------------------------------- the probe
 
@@ -72,7 +73,7 @@ export class Probe {
     const wasm = wasmForWorker();
     return new Promise((resolve, reject) => {
       this.training = { resolve, reject };
-      this.worker.postMessage({ type: 'probe-train', runId: this.runId, config: configJson, jobId, steps, chunk: 5000, wasm }, wasm ? [wasm] : []);
+      this.worker.postMessage({ type: 'probe-train', runId: this.runId, config: configJson, jobId, steps, chunk: 5000, wasm, module: compiledModule() }, wasm ? [wasm] : []);
     });
   }
 
@@ -99,7 +100,7 @@ export class Probe {
       this.pending.set(qid, { resolve, reject });
       this.worker.postMessage({
         type: 'probe-variance', runId: this.runId, qid, config: configJson, variant, seed,
-        checkpoints: Float64Array.from(checkpoints), estimates, episodes, wasm,
+        checkpoints: Float64Array.from(checkpoints), estimates, episodes, wasm, module: compiledModule(),
       }, wasm ? [wasm] : []);
     });
     return JSON.parse(text);

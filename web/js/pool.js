@@ -15,7 +15,8 @@
 //   page → worker
 //     {type:'start',  runId, config: string /* config JSON */, jobIds: number[], chunk: number /* steps per job per chunk */,
 //        batch: number /* jobs trained at once */,
-//        wasm: ArrayBuffer | null /* the module's bytes in the single-file build (see platform.js) */}
+//        wasm: ArrayBuffer | null /* the module's bytes in the single-file build (see platform.js) */,
+//        module: WebAssembly.Module | null /* served: the module the page compiled (see wasm.js) */}
 //     {type:'pause',  runId}   stop after the chunk in progress
 //     {type:'resume', runId}   go on from where it paused
 //     {type:'cancel', runId}   stop and free the Run; answered by 'cancelled'
@@ -35,6 +36,7 @@
 //   reported through the same onError path by the pool itself.
 
 import { makeWorker, wasmForWorker } from './platform.js';
+import { compiledModule } from './wasm.js';
 
 let nextRunId = 1;
 
@@ -98,7 +100,9 @@ export class Pool {
       };
       worker.onmessageerror = () => this.#fail(slot, 'worker sent a message that could not be read');
       const wasm = wasmForWorker();
-      worker.postMessage({ type: 'start', runId: this.runId, config: configJson, jobIds, chunk, batch, wasm }, wasm ? [wasm] : []);
+      const module = compiledModule();
+      worker.postMessage({ type: 'start', runId: this.runId, config: configJson, jobIds, chunk, batch, wasm, module },
+        wasm ? [wasm] : []);
     }
     this.#checkDone();
   }

@@ -5,6 +5,7 @@
 // promises, in order.
 
 import { makeWorker, wasmForWorker } from './platform.js';
+import { compiledModule } from './wasm.js';
 
 export class ResultsClient {
   constructor() {
@@ -41,6 +42,8 @@ export class ResultsClient {
       this.sentWasm = true;
       const wasm = wasmForWorker();
       if (wasm) { msg.wasm = wasm; transfer = [...transfer, wasm]; }
+      const module = compiledModule();
+      if (module) msg.module = module;
     }
     this.worker.postMessage(msg, transfer);
   }

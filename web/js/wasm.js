@@ -11,10 +11,36 @@ const WASM_URL = bundle ? null : new URL('../pkg/critbox_wasm_bg.wasm', import.m
 
 let loading = null;
 let bytesGiven = null;
+let moduleGiven = null;
+let compiled = null;
 
 /** Single-file workers: the wasm bytes handed over by the page. */
 export function provideWasmBytes(buffer) {
   if (buffer && !bytesGiven) bytesGiven = buffer;
+}
+
+/** Served workers: the module the page compiled, so a worker instantiates
+ * it without fetching or compiling (the engine shares the compiled code,
+ * optimised functions included, between the page and its workers). */
+export function provideWasmModule(module) {
+  if (!moduleGiven && typeof WebAssembly === 'object' && module instanceof WebAssembly.Module) moduleGiven = module;
+}
+
+/** The compiled module this realm runs (served page only; null before the
+ * load or in the single-file build), to hand to workers. */
+export function compiledModule() {
+  return compiled;
+}
+
+/** Compile the package's .wasm: streaming when the server labels it
+ * application/wasm, from the bytes otherwise. */
+async function compileServed() {
+  const res = await fetch(WASM_URL);
+  if (!res.ok) throw new Error(`HTTP ${res.status}`);
+  if (WebAssembly.compileStreaming && (res.headers.get('Content-Type') || '').startsWith('application/wasm')) {
+    return WebAssembly.compileStreaming(res);
+  }
+  return WebAssembly.compile(await res.arrayBuffer());
 }
 
 async function loadBundled() {
@@ -42,7 +68,9 @@ export function loadWasm() {
         throw new Error(`could not load ${GLUE_URL.pathname}: ${messageOf(err)}`);
       }
       try {
-        await glue.default({ module_or_path: WASM_URL });
+        const module = moduleGiven || await compileServed();
+        await glue.default({ module_or_path: module });
+        compiled = module;
       } catch (err) {
         throw new Error(`could not start ${WASM_URL.pathname}: ${messageOf(err)}`);
       }

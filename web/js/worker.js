@@ -1,6 +1,9 @@
 // Training worker. Trains the job ids it is given in batches: one `Run`
 // handle over `batch` jobs at a time, advanced in chunks, posting progress and
-// episode records after every chunk; when a batch is finished its Run is freed
+// episode records after every chunk (the chunk starts at the page's size and
+// then adapts so that a chunk takes about CHUNK_MS: fast learners post a few
+// dozen messages a second instead of hundreds, which would keep the page's
+// main thread busy on a core the workers need); when a batch is finished its Run is freed
 // and the next batch starts. So jobs finish one batch after another (and a
 // page reload mid-run keeps every finished job), while each batch still holds
 // one seed of several variants, so all curves grow together. The message
@@ -41,7 +44,7 @@
 //   jobs in answers: [{id, steps, status, failed}]; any failure: {type:'res-error', qid, message}.
 // Every message may carry `wasm` (the module's bytes, single-file build).
 
-import { loadWasm, messageOf, provideWasmBytes } from './wasm.js';
+import { loadWasm, messageOf, provideWasmBytes, provideWasmModule } from './wasm.js';
 import { compress, decompress, toBase64Url, fromBase64Url } from './share.js';
 
 /** The current run in this worker, or null. */
@@ -75,6 +78,7 @@ self.onmessage = (event) => {
     default:
       if (typeof msg.type === 'string' && msg.type.startsWith('res-')) {
         if (msg.wasm) provideWasmBytes(msg.wasm);
+        if (msg.module) provideWasmModule(msg.module);
         resQueue = resQueue.then(() => resHandle(msg));
         break;
       }
@@ -85,6 +89,7 @@ self.onmessage = (event) => {
 async function start(msg) {
   if (current) finish();
   if (msg.wasm) provideWasmBytes(msg.wasm);
+  if (msg.module) provideWasmModule(msg.module);
   const ids = Array.isArray(msg.jobIds) ? msg.jobIds.slice() : [];
   const size = Math.max(1, Math.floor(msg.batch || ids.length || 1));
   const batches = [];
@@ -97,6 +102,7 @@ async function start(msg) {
     run: null,
     runIds: [],
     chunk: Math.max(1, Math.floor(msg.chunk || 2000)),
+    chunkNow: Math.max(1, Math.floor(msg.chunk || 2000)),
     paused: false,
     busy: false,
     scheduled: false,
@@ -139,6 +145,20 @@ function nextBatch(job) {
   return true;
 }
 
+/** Wall time a training chunk aims at: progress stays smooth and pause or
+ * cancel answer within a fraction of a second. */
+const CHUNK_MS = 40;
+const MAX_CHUNK = 1 << 20;
+
+/** The next chunk size after one of `steps` steps took `ms`: doubled while
+ * under half the target, halved while over twice it (chunk sizes never
+ * change the numbers, only how often progress is posted). */
+function adaptChunk(steps, ms) {
+  if (ms < CHUNK_MS / 2) return Math.min(MAX_CHUNK, steps * 2);
+  if (ms > CHUNK_MS * 2) return Math.max(1, Math.floor(steps / 2));
+  return steps;
+}
+
 // Yield to the event loop between chunks so pause/cancel messages are seen.
 const tick = new MessageChannel();
 tick.port1.onmessage = step;
@@ -157,7 +177,9 @@ function step(event) {
   let finished;
   job.busy = true;
   try {
-    finished = job.run.advance(job.chunk);
+    const t0 = performance.now();
+    finished = job.run.advance(job.chunkNow);
+    job.chunkNow = adaptChunk(job.chunkNow, performance.now() - t0);
     const progress = owned(job.run.progress());
     const episodes = owned(job.run.takeEpisodes());
     const failures = JSON.parse(job.run.failures());
@@ -225,6 +247,7 @@ async function probeTrain(msg) {
   probe = me;
   const fail = (message) => { if (probe === me) freeProbe(); post({ type: 'probe-error', runId: me.runId, message }); };
   if (msg.wasm) provideWasmBytes(msg.wasm);
+  if (msg.module) provideWasmModule(msg.module);
   let wasm;
   try {
     wasm = await loadWasm();
@@ -261,6 +284,7 @@ async function probeTrain(msg) {
 
 async function probeVariance(msg) {
   if (msg.wasm) provideWasmBytes(msg.wasm);
+  if (msg.module) provideWasmModule(msg.module);
   try {
     const wasm = await loadWasm();
     const text = wasm.probe(msg.config, msg.variant, msg.seed, msg.checkpoints, msg.estimates, msg.episodes);
