@@ -2,8 +2,9 @@
 // downloaded browser) on bench/page.html, served from the repository root by
 // `critbox serve` on 127.0.0.1. Prints one JSON object on stdout.
 // usage: node bench/chromium.mjs single CONFIG.json STEPS [RUNS]
-//        node bench/chromium.mjs pool CONFIG.json WORKERS [RUNS]
-// RUNS measurements (default 1) in one browser, printed as a JSON array.
+//        node bench/chromium.mjs pool CONFIG.json WORKERS[,WORKERS...] [RUNS]
+// RUNS measurements (default 1) in one browser, printed as a JSON array; for
+// pool, each run measures every listed worker count in turn (paired rounds).
 import path from 'node:path';
 import { spawn } from 'node:child_process';
 import { createRequire } from 'node:module';
@@ -47,9 +48,13 @@ try {
   const url = `${base}/${path.relative(root, path.resolve(configPath))}`;
   const out = [];
   for (let r = 0; r < runs; r++) {
-    out.push(mode === 'single'
-      ? await page.evaluate(([u, n]) => window.__bench.single(u, n), [url, Number(arg)])
-      : await page.evaluate(([u, n]) => window.__bench.pool(u, n), [url, Number(arg)]));
+    if (mode === 'single') {
+      out.push(await page.evaluate(([u, n]) => window.__bench.single(u, n), [url, Number(arg)]));
+    } else {
+      for (const workers of arg.split(',').map(Number)) {
+        out.push(await page.evaluate(([u, n]) => window.__bench.pool(u, n), [url, workers]));
+      }
+    }
   }
   if (pageErrors.length) throw new Error(`the bench page failed: ${pageErrors.join('; ')}`);
   console.log(JSON.stringify(out));
