@@ -147,7 +147,14 @@ fn backprop_step_portable(g: &[f64], c: &[f64], input: &[f64], m: &mut [f64], be
         }
         r += 4;
     }
-    for q in r..rows {
+    backprop_rows_from(r, g, c, input, m, below);
+}
+
+/// [`backprop_step`] one row at a time, for the rows from `first` on (the
+/// rows left after the blocks of four).
+fn backprop_rows_from(first: usize, g: &[f64], c: &[f64], input: &[f64], m: &mut [f64], below: &mut [f64]) {
+    let n = input.len();
+    for q in first..g.len() {
         let row = &mut m[q * n..(q + 1) * n];
         for i in 0..n {
             below[i] += g[q] * row[i];
@@ -362,13 +369,7 @@ mod simd {
             }
             r += 4;
         }
-        for q in r..rows {
-            let row = &mut m[q * n..(q + 1) * n];
-            for i in 0..n {
-                below[i] += g[q] * row[i];
-                row[i] += c[q] * input[i];
-            }
-        }
+        super::backprop_rows_from(r, g, c, input, m, below);
     }
 
     #[cfg(target_arch = "wasm32")]

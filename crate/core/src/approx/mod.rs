@@ -617,23 +617,10 @@ impl Default for ApproxConfig {
 /// for tabular features). A linear approximator without its own features
 /// uses `shared`. An MLP draws its initial weights from `rng`; a linear one
 /// starts at zero and draws nothing. Errors name the field relative to the
-/// approximator object.
-pub fn build_approx(
-    cfg: &ApproxConfig,
-    shared: &FeatureConfig,
-    vars: &[StateVar],
-    n_states: Option<usize>,
-    kind: &str,
-    outputs: usize,
-    rng: &mut Stream,
-) -> Result<Box<dyn Approx>, FeatureError> {
-    build_approx_in(&mut FeaturePool::default(), cfg, shared, vars, n_states, kind, outputs, rng)
-}
-
-/// [`build_approx`], with a linear approximator's feature cache taken from
-/// (and shared through) `pool`.
+/// approximator object. A linear approximator's feature cache comes from
+/// (and is shared through) `pool`.
 #[allow(clippy::too_many_arguments)]
-pub fn build_approx_in(
+pub fn build_approx(
     pool: &mut FeaturePool,
     cfg: &ApproxConfig,
     shared: &FeatureConfig,
@@ -677,6 +664,7 @@ pub fn build_approx_in(
 #[cfg(test)]
 mod tests {
     use super::*;
+    use std::sync::atomic::{AtomicUsize, Ordering};
 
     #[test]
     fn linear_value_and_update() {
@@ -690,26 +678,47 @@ mod tests {
         assert_eq!(l.w[5 + 1], 2.0);
     }
 
+    /// One-hot features on the state id that count how often they are computed.
+    struct Counting(Arc<AtomicUsize>);
+
+    impl Features for Counting {
+        fn dim(&self) -> usize {
+            10
+        }
+        fn max_active(&self) -> usize {
+            1
+        }
+        fn compute(&self, obs: Obs<'_>, out: &mut Sparse) {
+            self.0.fetch_add(1, Ordering::SeqCst);
+            Tabular::one_hot(obs.id.unwrap(), out);
+        }
+    }
+
+    #[test]
+    fn cache_computes_each_state_once_in_runner_order() {
+        // The runner acts at the next state before learning on the pair.
+        let n = Arc::new(AtomicUsize::new(0));
+        let mut c = FeatureCache::new(Box::new(Counting(n.clone())));
+        fn o(i: usize, v: &[f64; 1]) -> Obs<'_> {
+            Obs { values: &v[..], id: Some(i) }
+        }
+        let vals: Vec<[f64; 1]> = (0..6).map(|i| [i as f64]).collect();
+        c.get(o(0, &vals[0]));
+        for s in 0..5 {
+            c.get(o(s + 1, &vals[s + 1]));
+            let (a, b) = c.pair(o(s, &vals[s]), o(s + 1, &vals[s + 1]));
+            assert_eq!((a.idx[0], b.idx[0]), (s as u32, s as u32 + 1));
+        }
+        assert_eq!(n.load(Ordering::SeqCst), 6);
+    }
+
     #[test]
     fn actor_and_critic_share_one_feature_computation_per_state() {
         // Common practice, no source: through a shared cache, an actor and a
         // critic stepping in the runner's order (act at the next state, then
         // evaluate both states, update at the first) compute each state's
         // features once between them; a pool shares by settings and inputs.
-        struct Counting(Arc<std::sync::atomic::AtomicUsize>);
-        impl Features for Counting {
-            fn dim(&self) -> usize {
-                10
-            }
-            fn max_active(&self) -> usize {
-                1
-            }
-            fn compute(&self, obs: Obs<'_>, out: &mut Sparse) {
-                self.0.fetch_add(1, std::sync::atomic::Ordering::SeqCst);
-                Tabular::one_hot(obs.id.unwrap(), out);
-            }
-        }
-        let n = Arc::new(std::sync::atomic::AtomicUsize::new(0));
+        let n = Arc::new(AtomicUsize::new(0));
         let shared = SharedFeatures::new(Box::new(Counting(n.clone())));
         let (mut actor, mut critic) = (LinearFn::over(shared.clone(), 2), LinearFn::over(shared, 1));
         let vals: Vec<[f64; 1]> = (0..8).map(|i| [i as f64]).collect();
@@ -722,7 +731,7 @@ mod tests {
             critic.sgd_step(o(s), &[1.0], 0.1);
             actor.sgd_step(o(s), &[1.0, -1.0], 0.1);
         }
-        assert_eq!(n.load(std::sync::atomic::Ordering::SeqCst), 8);
+        assert_eq!(n.load(Ordering::SeqCst), 8);
 
         let vars = [StateVar { name: "a".into(), low: -1.0, high: 1.0 }];
         let other = [StateVar { name: "b".into(), low: -1.0, high: 1.0 }];

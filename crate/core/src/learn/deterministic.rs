@@ -125,7 +125,7 @@ impl Deterministic {
         let shared = setup.features_or_default(spec);
         let joint = joint_vars(spec);
         let make_critic = |rng: &mut Stream| {
-            build_approx(&critic_cfg, &shared, &joint, None, spec.kind, 1, rng)
+            build_approx(&mut FeaturePool::default(), &critic_cfg, &shared, &joint, None, spec.kind, 1, rng)
                 .expect("a checked setup's critic builds")
         };
         let actor_net =
@@ -133,9 +133,17 @@ impl Deterministic {
         let critic_net = make_critic(rng);
         let use_targets = setup.target_tau < 1.0;
         let actor_target = use_targets.then(|| {
-            let mut a =
-                build_approx(&actor_cfg, &shared, &spec.state_vars, spec.n_states, spec.kind, dims, rng)
-                    .expect("a checked setup's actor builds");
+            let mut a = build_approx(
+                &mut FeaturePool::default(),
+                &actor_cfg,
+                &shared,
+                &spec.state_vars,
+                spec.n_states,
+                spec.kind,
+                dims,
+                rng,
+            )
+            .expect("a checked setup's actor builds");
             a.params_mut().copy_from_slice(actor_net.net.params());
             a
         });

@@ -26,7 +26,7 @@ pub use setup::{
     joint_vars, Algo, Baseline, BehaviourConfig, BehaviourKind, LearnerSetup, ReplayConfig, SetupError,
 };
 
-use crate::approx::{build_approx_in, ApproxConfig, FeaturePool, Obs};
+use crate::approx::{build_approx, ApproxConfig, FeaturePool, Obs};
 use crate::optim::Trainable;
 use crate::policy::StochasticPolicy;
 use crate::rng::Stream;
@@ -198,7 +198,7 @@ pub(crate) fn state_net(
     step: f64,
     rng: &mut Stream,
 ) -> Trainable {
-    let net = build_approx_in(
+    let net = build_approx(
         pool,
         cfg,
         &setup.features_or_default(spec),
@@ -346,41 +346,5 @@ pub(crate) fn action_dims(spec: &TaskSpec) -> usize {
     match &spec.actions {
         ActionSpace::Discrete(_) => 0,
         ActionSpace::Continuous { low, .. } => low.len(),
-    }
-}
-
-#[cfg(test)]
-mod tests {
-    use super::*;
-    use crate::approx::{Features, Sparse, Tabular};
-
-    #[test]
-    fn cache_computes_each_state_once_in_runner_order() {
-        struct Counting(std::sync::Arc<std::sync::atomic::AtomicUsize>);
-        impl Features for Counting {
-            fn dim(&self) -> usize {
-                10
-            }
-            fn max_active(&self) -> usize {
-                1
-            }
-            fn compute(&self, obs: Obs<'_>, out: &mut Sparse) {
-                self.0.fetch_add(1, std::sync::atomic::Ordering::SeqCst);
-                Tabular::one_hot(obs.id.unwrap(), out);
-            }
-        }
-        let n = std::sync::Arc::new(std::sync::atomic::AtomicUsize::new(0));
-        let mut c = FeatureCache::new(Box::new(Counting(n.clone())));
-        fn o(i: usize, v: &[f64; 1]) -> Obs<'_> {
-            Obs { values: &v[..], id: Some(i) }
-        }
-        let vals: Vec<[f64; 1]> = (0..6).map(|i| [i as f64]).collect();
-        c.get(o(0, &vals[0]));
-        for s in 0..5 {
-            c.get(o(s + 1, &vals[s + 1])); // act at the next state
-            let (a, b) = c.pair(o(s, &vals[s]), o(s + 1, &vals[s + 1]));
-            assert_eq!((a.idx[0], b.idx[0]), (s as u32, s as u32 + 1));
-        }
-        assert_eq!(n.load(std::sync::atomic::Ordering::SeqCst), 6);
     }
 }

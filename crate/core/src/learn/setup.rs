@@ -11,7 +11,8 @@
 use serde::{Deserialize, Serialize};
 
 use crate::approx::{
-    build_approx, build_features, default_features, ApproxConfig, FeatureConfig, FeatureError, Obs,
+    build_approx, build_features, default_features, ApproxConfig, FeatureConfig, FeatureError, FeaturePool,
+    Obs,
 };
 use crate::optim::OptimizerConfig;
 use crate::policy::gaussian::PolicyConfig;
@@ -438,9 +439,16 @@ impl LearnerSetup {
         let uses_shared = |c: &ApproxConfig| matches!(c, ApproxConfig::Linear { features: None });
         let actor = self.actor_or_default();
         if shared_ok || !uses_shared(&actor) {
-            if let Err(FeatureError::Invalid(field, message)) =
-                build_approx(&actor, &shared, &spec.state_vars, spec.n_states, spec.kind, 1, &mut rng)
-            {
+            if let Err(FeatureError::Invalid(field, message)) = build_approx(
+                &mut FeaturePool::default(),
+                &actor,
+                &shared,
+                &spec.state_vars,
+                spec.n_states,
+                spec.kind,
+                1,
+                &mut rng,
+            ) {
                 let path = if uses_shared(&actor) { field } else { format!("actor.{field}") };
                 bad(&mut errs, &path, message);
             }
@@ -454,7 +462,16 @@ impl LearnerSetup {
             } else {
                 (&spec.state_vars[..], spec.n_states)
             };
-            match build_approx(&critic, &shared, vars, n_states, spec.kind, 1, &mut rng) {
+            match build_approx(
+                &mut FeaturePool::default(),
+                &critic,
+                &shared,
+                vars,
+                n_states,
+                spec.kind,
+                1,
+                &mut rng,
+            ) {
                 Err(FeatureError::Invalid(field, message)) => {
                     let path = if critic_uses_shared { field } else { format!("critic.{field}") };
                     bad(&mut errs, &path, message);
