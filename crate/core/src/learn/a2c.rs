@@ -109,13 +109,7 @@ impl Learner for A2c {
             let critic_norm = self.critic.ascend(t.obs, &[1.0], delta);
             let entropy = finite("policy entropy", self.actor.entropy(t.obs))?;
             let actor_norm = self.actor.ascend(t.obs, t.action, delta, self.beta);
-            return Ok(StepDiag {
-                td_error: delta,
-                entropy,
-                actor_grad_norm: actor_norm,
-                critic_grad_norm: critic_norm,
-                ..StepDiag::default()
-            });
+            return Ok(StepDiag::on_policy(delta, entropy, actor_norm, critic_norm));
         }
         let entropy = finite("policy entropy", self.actor.entropy(t.obs))?;
         let i = self.seg.push(t);
@@ -126,13 +120,7 @@ impl Learner for A2c {
             finite("actor update", actor_norm)?;
             finite("critic update", critic_norm)?;
         }
-        Ok(StepDiag {
-            td_error: delta,
-            entropy,
-            actor_grad_norm: actor_norm,
-            critic_grad_norm: critic_norm,
-            ..StepDiag::default()
-        })
+        Ok(StepDiag::on_policy(delta, entropy, actor_norm, critic_norm))
     }
 
     fn best_action(&mut self, obs: Obs<'_>, out: &mut ActionBuf) {

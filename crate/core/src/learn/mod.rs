@@ -117,6 +117,14 @@ pub struct StepDiag {
     pub weight_truncated: bool,
 }
 
+impl StepDiag {
+    /// The diagnostics of an on-policy step: TD error, entropy and the two
+    /// update norms (no importance weight).
+    pub fn on_policy(td_error: f64, entropy: f64, actor_grad_norm: f64, critic_grad_norm: f64) -> Self {
+        StepDiag { td_error, entropy, actor_grad_norm, critic_grad_norm, ..StepDiag::default() }
+    }
+}
+
 /// Why a learner stopped.
 #[derive(Clone, Debug, PartialEq)]
 pub enum LearnError {

@@ -72,13 +72,7 @@ impl Learner for Qac {
         self.onehot[a] = 0.0;
         let entropy = finite("policy entropy", self.actor.entropy(t.obs))?;
         let actor_norm = self.actor.ascend(t.obs, t.action, q, self.beta);
-        Ok(StepDiag {
-            td_error: delta,
-            entropy,
-            actor_grad_norm: actor_norm,
-            critic_grad_norm: critic_norm,
-            ..StepDiag::default()
-        })
+        Ok(StepDiag::on_policy(delta, entropy, actor_norm, critic_norm))
     }
 
     fn best_action(&mut self, obs: Obs<'_>, out: &mut ActionBuf) {
