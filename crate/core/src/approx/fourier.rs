@@ -119,7 +119,7 @@ mod tests {
     use super::*;
 
     fn vars(d: usize) -> Vec<StateVar> {
-        (0..d).map(|i| StateVar { name: format!("v{i}"), low: -2.0, high: 2.0 }).collect()
+        crate::approx::test_vars(d, -2.0, 2.0)
     }
 
     #[test]

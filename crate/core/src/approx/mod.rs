@@ -249,6 +249,12 @@ pub fn build_features_over(
     }
 }
 
+/// `d` state variables `v0, v1, …`, each over `[low, high]` (for tests).
+#[cfg(test)]
+pub(crate) fn test_vars(d: usize, low: f64, high: f64) -> Vec<StateVar> {
+    (0..d).map(|i| StateVar { name: format!("v{i}"), low, high }).collect()
+}
+
 /// The default features for a task: tabular where finite, tile coding otherwise.
 pub fn default_features(spec: &TaskSpec) -> FeatureConfig {
     if spec.n_states.is_some() {

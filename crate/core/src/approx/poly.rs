@@ -163,7 +163,7 @@ mod tests {
     use super::*;
 
     fn vars(d: usize) -> Vec<StateVar> {
-        (0..d).map(|i| StateVar { name: format!("v{i}"), low: -1.0, high: 1.0 }).collect()
+        crate::approx::test_vars(d, -1.0, 1.0)
     }
 
     #[test]

@@ -144,7 +144,7 @@ mod tests {
     use super::*;
 
     fn vars(d: usize) -> Vec<StateVar> {
-        (0..d).map(|i| StateVar { name: format!("v{i}"), low: 0.0, high: 4.0 }).collect()
+        crate::approx::test_vars(d, 0.0, 4.0)
     }
 
     #[test]

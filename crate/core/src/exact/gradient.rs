@@ -13,7 +13,7 @@
 //! `dᵀ P_π = dᵀ`, `Σ d = 1`, and the average reward is `Σ_s d(s) r_π(s)`
 //! (Sutton & Barto 2018, Section 10.3).
 
-use super::{evaluate, q_values, solve_dense, ExactError};
+use super::{check_policy, evaluate, q_values, solve_dense, ExactError};
 use crate::policy::softmax;
 use crate::task::FiniteModel;
 
@@ -47,9 +47,7 @@ pub fn linear_softmax_policy(m: &FiniteModel, phi: &[f64], dim: usize, theta: &[
 /// (0 at terminal states).
 pub fn visitation(m: &FiniteModel, pi: &[f64], gamma: f64) -> Result<Vec<f64>, ExactError> {
     let (n, na) = (m.n_states, m.n_actions);
-    if pi.len() != n * na {
-        return Err(ExactError::BadPolicy(format!("needs {} entries, has {}", n * na, pi.len())));
-    }
+    check_policy(m, pi)?;
     let mut a = vec![0.0; n * n];
     let mut b = vec![0.0; n];
     for s in 0..n {
@@ -133,9 +131,7 @@ pub fn policy_gradient_tabular(m: &FiniteModel, theta: &[f64], gamma: f64) -> Re
 /// recurrent class assumed; terminal states are not allowed).
 pub fn stationary(m: &FiniteModel, pi: &[f64]) -> Result<Vec<f64>, ExactError> {
     let (n, na) = (m.n_states, m.n_actions);
-    if pi.len() != n * na {
-        return Err(ExactError::BadPolicy(format!("needs {} entries, has {}", n * na, pi.len())));
-    }
+    check_policy(m, pi)?;
     if m.terminal.iter().any(|&t| t) {
         return Err(ExactError::BadPolicy(
             "a stationary distribution needs a model without terminal states".into(),

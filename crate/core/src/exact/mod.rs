@@ -101,13 +101,20 @@ pub fn solve_dense(a: &mut [f64], b: &mut [f64]) -> Option<Vec<f64>> {
     Some(x)
 }
 
+/// Checks that `pi` has one probability per state and action of `m`.
+pub(crate) fn check_policy(m: &FiniteModel, pi: &[f64]) -> Result<(), ExactError> {
+    let want = m.n_states * m.n_actions;
+    if pi.len() != want {
+        return Err(ExactError::BadPolicy(format!("needs {want} entries, has {}", pi.len())));
+    }
+    Ok(())
+}
+
 /// Exact state values of a stochastic policy `pi[s * n_actions + a]`:
 /// solves `(I − γ P_π) V = r_π` with `V = 0` at terminal states.
 pub fn evaluate(m: &FiniteModel, pi: &[f64], gamma: f64) -> Result<Vec<f64>, ExactError> {
     let (n, na) = (m.n_states, m.n_actions);
-    if pi.len() != n * na {
-        return Err(ExactError::BadPolicy(format!("needs {} entries, has {}", n * na, pi.len())));
-    }
+    check_policy(m, pi)?;
     let mut a = vec![0.0; n * n];
     let mut b = vec![0.0; n];
     for s in 0..n {
