@@ -39,12 +39,6 @@ fn hash_coords(tiling: u32, coords: impl Iterator<Item = u32>) -> u64 {
         h ^= u64::from(c);
         h = h.wrapping_mul(0x0000_0100_0000_01B3);
     }
-    mix(h)
-}
-
-/// The SplitMix64-style finish of [`hash_coords`].
-#[inline(always)]
-fn mix(mut h: u64) -> u64 {
     h ^= h >> 33;
     h = h.wrapping_mul(0xff51_afd7_ed55_8ccd);
     h ^= h >> 33;
@@ -137,15 +131,11 @@ impl Features for TileCoder {
         let pow2 = self.hash.is_power_of_two();
         if self.hash > 0 && (1..=STACK_VARS).contains(&d) {
             // The common case without per-coordinate bounds checks: the same
-            // coordinates and hash as `hash_coords` below.
+            // coordinates as `coord` below, zipped over the tiling's shifts.
             let u = &stack[..d];
             for (k, shifts) in (0u32..).zip(self.shift.chunks_exact(d)) {
-                let mut h: u64 = 0xcbf2_9ce4_8422_2325 ^ u64::from(k);
-                for (&ui, &si) in u.iter().zip(shifts) {
-                    h ^= u64::from(((ui + si) as u32).min(self.intervals));
-                    h = h.wrapping_mul(0x0000_0100_0000_01B3);
-                }
-                let h = mix(h);
+                let coords = u.iter().zip(shifts).map(|(&ui, &si)| ((ui + si) as u32).min(self.intervals));
+                let h = hash_coords(k, coords);
                 let index = if pow2 { h & u64::from(self.hash - 1) } else { h % u64::from(self.hash) };
                 out.push(index as u32, 1.0);
             }
