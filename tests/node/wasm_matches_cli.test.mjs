@@ -28,6 +28,7 @@ function runLikeThePage(json, workers, chunk) {
     busy = busy.filter((run) => {
       const done = run.advance(chunk);
       results.addEpisodes(run.takeEpisodes());
+      results.addEvaluations(run.takeEvaluations());
       const p = run.progress();
       for (let i = 0; i < p.length; i += 3) results.setSteps(p[i], p[i + 1]);
       for (const f of JSON.parse(run.failures())) results.markFailed(f.job, f.reason);

@@ -22,6 +22,10 @@ pub enum Purpose {
     Stats = 3,
     /// Anything else a caller needs (tests, probes).
     Other = 4,
+    /// Start states and transition noise of evaluation episodes.
+    EvalTask = 5,
+    /// Action sampling of the learned policy in evaluation episodes.
+    EvalAgent = 6,
 }
 
 /// A deterministic, portable source of random numbers.

@@ -179,7 +179,7 @@ fn potential_from_a_formula_keeps_the_policy() {
             formula: "3 * sin(2 * s) + f^2 / 4".into(),
             ..Default::default()
         };
-        let a = audit::audit_reward(&task, &reward, 0.95);
+        let a = audit::audit_reward(&task, &reward, audit::Objective::Discounted(0.95));
         assert!(a.potential_based);
         let c = a.exact.unwrap();
         assert!(c.differing.is_empty() && c.base_value_loss == 0.0, "case {case}: {:?}", c.differing);
@@ -212,7 +212,7 @@ fn a_non_potential_bonus_changes_the_policy_and_the_audit_says_so() {
         formula: "if action == stay then 2 else 0".into(),
         ..Default::default()
     };
-    let a = audit::audit_reward(&task, &reward, 0.9);
+    let a = audit::audit_reward(&task, &reward, audit::Objective::Discounted(0.9));
     assert!(!a.potential_based);
     let c = a.exact.clone().unwrap();
     assert_eq!(c.method, Method::ValueIteration);
@@ -228,7 +228,7 @@ fn a_non_potential_bonus_changes_the_policy_and_the_audit_says_so() {
     assert_eq!(j["differing_states"][0]["shaped_actions"], serde_json::json!(["stay"]));
     // With γ = 1 the shaped values are unbounded: the audit works over the
     // 50-step horizon instead: optimum −2, staying 50 steps −50, loss 48.
-    let a = audit::audit_reward(&task, &reward, 1.0);
+    let a = audit::audit_reward(&task, &reward, audit::Objective::Discounted(1.0));
     let c = a.exact.unwrap();
     assert_eq!(c.method, Method::FiniteHorizon(50));
     assert!(c.shaped_unbounded);
@@ -236,7 +236,7 @@ fn a_non_potential_bonus_changes_the_policy_and_the_audit_says_so() {
     assert!((c.base_value_loss - 48.0).abs() < 1e-9, "{}", c.base_value_loss);
     // The same bonus as a potential difference would keep the policy.
     let pot = RewardConfig { mode: Mode::Potential, formula: "2 * s".into(), ..Default::default() };
-    let c = audit::audit_reward(&task, &pot, 1.0).exact.unwrap();
+    let c = audit::audit_reward(&task, &pot, audit::Objective::Discounted(1.0)).exact.unwrap();
     assert!(c.differing.is_empty());
 }
 

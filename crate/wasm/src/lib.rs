@@ -364,6 +364,27 @@ impl Run {
         out
     }
 
+    /// Evaluation checkpoints taken since the last call, stride 5: job id,
+    /// checkpoint index, step, mean evaluation return, episodes evaluated
+    /// (empty when the plan does not evaluate).
+    #[wasm_bindgen(js_name = takeEvaluations)]
+    pub fn take_evaluations(&mut self) -> Vec<f64> {
+        let mut out = Vec::new();
+        for j in &mut self.jobs {
+            let id = j.id() as f64;
+            for e in j.take_new_evaluations() {
+                out.extend_from_slice(&[
+                    id,
+                    f64::from(e.checkpoint),
+                    e.step as f64,
+                    e.mean_return,
+                    f64::from(e.episodes),
+                ]);
+            }
+        }
+        out
+    }
+
     /// Failed jobs as JSON: `[{"job": id, "reason": text}]`.
     pub fn failures(&self) -> String {
         let list: Vec<serde_json::Value> = self
@@ -499,6 +520,59 @@ impl Results {
             );
         }
         Ok(())
+    }
+
+    /// Adds evaluation records, stride 5 as [`Run::take_evaluations`] gives them.
+    #[wasm_bindgen(js_name = addEvaluations)]
+    pub fn add_evaluations(&mut self, records: &[f64]) -> Result<(), JsError> {
+        if !records.len().is_multiple_of(5) {
+            return Err(JsError::new(&format!(
+                "evaluation records come in groups of 5; got {} numbers",
+                records.len()
+            )));
+        }
+        let n = self.inner.job_count();
+        let checkpoints = self.inner.checkpoints().len();
+        for r in records.chunks_exact(5) {
+            let ok = r.iter().all(|v| v.is_finite())
+                && r[0] >= 0.0
+                && (r[0] as usize) < n
+                && r[1] >= 0.0
+                && (r[1] as usize) < checkpoints
+                && r[2] >= 0.0
+                && r[4] >= 1.0;
+            if !ok {
+                return Err(JsError::new(&format!("invalid evaluation record {r:?}")));
+            }
+            self.inner.add_evaluation(
+                r[0] as usize,
+                experiment::EvalRecord {
+                    checkpoint: r[1] as u32,
+                    step: r[2] as u64,
+                    mean_return: r[3],
+                    episodes: r[4] as u32,
+                },
+            );
+        }
+        Ok(())
+    }
+
+    /// A variant's evaluation curve, stride 5 per checkpoint: step, mean,
+    /// lower and upper pointwise 95% bounds (NaN under 3 seeds), seeds with
+    /// data; empty when the plan does not evaluate.
+    #[wasm_bindgen(js_name = curveEval)]
+    pub fn curve_eval(&self, variant: u32) -> Result<Vec<f64>, JsError> {
+        if variant as usize >= self.variants {
+            return Err(JsError::new(&format!(
+                "variant {variant} is out of range ({} variants)",
+                self.variants
+            )));
+        }
+        let mut out = Vec::new();
+        for p in self.inner.eval_curve(variant as usize) {
+            out.extend_from_slice(&[p.step as f64, p.mean, p.lo, p.hi, p.n as f64]);
+        }
+        Ok(out)
     }
 
     /// Records a job's progress (so curves carry values only as far as it got).

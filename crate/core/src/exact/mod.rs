@@ -3,7 +3,9 @@
 //! Works on a task's [`FiniteModel`]: [`evaluate`] solves the Bellman
 //! equation of a fixed stochastic policy exactly (a dense linear solve),
 //! [`value_iteration`] finds optimal values and the greedy actions, and
-//! [`q_values`] gives action values from state values. Terminal states have
+//! [`q_values`] gives action values from state values;
+//! [`relative_value_iteration`] solves the average-reward optimality
+//! equation of a continuing model. Terminal states have
 //! value 0. With γ = 1 the model must be proper (every policy considered
 //! reaches a terminal state) or the solve reports it as singular.
 //! [`gradient`] adds the exact objective and policy gradient of softmax
@@ -186,6 +188,66 @@ pub fn optimal_values(
         }
         if residual < tol {
             return Ok(v);
+        }
+    }
+    Err(ExactError::NoConvergence { residual })
+}
+
+/// The optimal average reward of a continuing model and a bias (relative
+/// value) function: `(gain, h)` with `g + h(s) = max_a Σ p (r + h(s'))` and
+/// `h = 0` at the first state.
+#[derive(Clone, Debug, PartialEq)]
+pub struct AverageOptimal {
+    /// The optimal average reward per step.
+    pub gain: f64,
+    /// The bias of each state, relative to state 0.
+    pub bias: Vec<f64>,
+}
+
+/// Relative value iteration for the average-reward optimality equation
+/// (Puterman 1994, Section 8.5.5, from memory) on a unichain continuing
+/// model, after the aperiodicity transformation `P̃ = τ P + (1 − τ) I` with
+/// τ = ½ (Section 8.5.4), which keeps the optimal policies and the bias and
+/// halves the gain, so that the iteration converges on periodic models too.
+/// Stops when the span of one sweep's change is below `tol`, at most
+/// `max_sweeps` sweeps. Terminal states are not allowed (an episodic model
+/// has no average reward to optimise).
+pub fn relative_value_iteration(
+    m: &FiniteModel,
+    tol: f64,
+    max_sweeps: usize,
+) -> Result<AverageOptimal, ExactError> {
+    if m.terminal.iter().any(|&t| t) || m.n_states == 0 {
+        return Err(ExactError::BadPolicy("relative value iteration needs a continuing model".into()));
+    }
+    let tau = 0.5;
+    let mut h = vec![0.0; m.n_states];
+    let mut next = vec![0.0; m.n_states];
+    let mut residual = f64::INFINITY;
+    for _ in 0..max_sweeps {
+        for s in 0..m.n_states {
+            let best = (0..m.n_actions)
+                .map(|a| m.outcomes[s][a].iter().map(|o| o.prob * (o.reward + h[o.next])).sum::<f64>())
+                .fold(f64::NEG_INFINITY, f64::max);
+            next[s] = tau * best + (1.0 - tau) * h[s];
+        }
+        let (mut lo, mut hi) = (f64::INFINITY, f64::NEG_INFINITY);
+        for s in 0..m.n_states {
+            let d = next[s] - h[s];
+            lo = lo.min(d);
+            hi = hi.max(d);
+        }
+        residual = hi - lo;
+        let offset = next[0];
+        for s in 0..m.n_states {
+            h[s] = next[s] - offset;
+        }
+        if !residual.is_finite() {
+            break;
+        }
+        if residual < tol {
+            // The change per sweep of the transformed problem is its gain, τ g.
+            return Ok(AverageOptimal { gain: 0.5 * (lo + hi) / tau, bias: h });
         }
     }
     Err(ExactError::NoConvergence { residual })

@@ -1,119 +1,156 @@
 //! Scores per variant and comparisons between variants.
 //!
-//! From each seed's numbers (final return, area under its curve, steps to
-//! reach a threshold) this module makes the score table and, for every pair
-//! of variants, the comparison: difference of means with Welch's t-test and
-//! a percentile-bootstrap interval, the probability of improvement
-//! P(B > A) with its bootstrap interval (Agarwal et al. 2021, Section 4), a
-//! seeds advice (Colas, Sigaud & Oudeyer 2018) and a verdict in plain words
-//! that never claims more than the data show. Bootstrap draws come from
-//! streams derived from the master seed, so the numbers are reproducible.
+//! From each seed's number (on the scored measure: the final evaluation
+//! return or the final training return, the area under the curve) this
+//! module makes the score table ([`score`] → [`Score`]) and the comparisons
+//! ([`compare_all`] → [`Comparison`]): every pair of variants, or every
+//! variant against a reference. A comparison carries the difference of
+//! means with Welch's t-test and its 95% interval (the one interval of the
+//! difference, used by the table and the verdict alike), the p value
+//! adjusted for the number of comparisons by Holm's step-down method (Holm
+//! 1979), the probability of improvement P(B > A) (Agarwal et al. 2021,
+//! Section 4) with its interval, seeds advice, and a verdict in plain words
+//! that never claims more than the corrected test shows. A variant with
+//! failed seeds is judged on its other seeds and every verdict about it
+//! says so first. Bootstrap draws (the IQM's interval) come from streams
+//! derived from the master seed, so the numbers are reproducible.
 
-use serde_json::{json, Value};
+use serde::Serialize;
 
+use crate::report::{pair, Num, Pair};
 use crate::rng::{Purpose, Stream};
 use crate::stats;
 
 /// Resamples used by every bootstrap interval here.
 pub const RESAMPLES: usize = 2000;
 
+/// Significance level of the verdicts (two-sided, family-wise after Holm).
+pub const ALPHA: f64 = 0.05;
+
 /// A score over seeds: location and spread with their intervals.
-#[derive(Clone, Debug, PartialEq)]
+#[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct Score {
     /// Seeds with a value.
     pub n: usize,
     /// Mean over seeds.
-    pub mean: f64,
-    /// Student-t 95% interval of the mean (None with fewer than 2 seeds).
-    pub ci95: Option<(f64, f64)>,
-    /// Percentile-bootstrap 95% interval of the mean.
-    pub bootstrap_ci95: Option<(f64, f64)>,
+    pub mean: Num,
+    /// Student-t 95% interval of the mean (null with fewer than 2 seeds).
+    pub ci95: Pair,
     /// Interquartile mean (Agarwal et al. 2021).
-    pub iqm: f64,
-    /// Percentile-bootstrap 95% interval of the IQM.
-    pub iqm_ci95: Option<(f64, f64)>,
+    pub iqm: Num,
+    /// Percentile-bootstrap 95% interval of the IQM (seeds resampled).
+    pub iqm_ci95: Pair,
     /// Median.
-    pub median: f64,
+    pub median: Num,
     /// Sample standard deviation.
-    pub sd: f64,
+    pub sd: Num,
+    /// Seeds (indices) that have no value and did not fail: a run still
+    /// going, or no episode ended in the final share of the budget.
+    pub missing: Vec<usize>,
 }
 
-/// Scores `xs` (NaN-free) with bootstrap streams keyed by `(master, key, index)`.
-pub fn score(xs: &[f64], master: u64, key: u64, index: u64) -> Score {
+/// Scores `xs` (finite values) with bootstrap streams keyed by `(master, key, index)`;
+/// `missing` lists the seeds without a value that did not fail.
+pub fn score(xs: &[f64], missing: Vec<usize>, master: u64, key: u64, index: u64) -> Score {
     let s = stats::summarize(xs);
     let mut rng = Stream::derive(master, Purpose::Stats, key, index);
-    let boot = if xs.len() >= 2 { stats::bootstrap_mean_ci(xs, 0.95, RESAMPLES, &mut rng) } else { None };
     let iqm_ci =
         if xs.len() >= 2 { stats::bootstrap_ci(xs, 0.95, RESAMPLES, &mut rng, stats::iqm) } else { None };
     Score {
         n: xs.len(),
-        mean: if xs.is_empty() { f64::NAN } else { s.mean },
-        ci95: s.ci95,
-        bootstrap_ci95: boot,
-        iqm: stats::iqm(xs),
-        iqm_ci95: iqm_ci,
-        median: stats::median(xs),
-        sd: s.sd,
+        mean: Num(if xs.is_empty() { f64::NAN } else { s.mean }),
+        ci95: pair(s.ci95),
+        iqm: Num(stats::iqm(xs)),
+        iqm_ci95: pair(iqm_ci),
+        median: Num(stats::median(xs)),
+        sd: Num(s.sd),
+        missing,
     }
 }
 
-fn num(x: f64) -> Value {
-    if x.is_finite() {
-        json!(x)
-    } else {
-        Value::Null
-    }
+/// What the comparisons need of one variant.
+#[derive(Clone, Debug)]
+pub struct Entry<'a> {
+    /// Its label.
+    pub label: &'a str,
+    /// Per-seed values of the scored measure (failed and missing seeds left out).
+    pub values: Vec<f64>,
+    /// Seeds in the variant.
+    pub seeds: usize,
+    /// Failed seeds: (seed index, reason).
+    pub failed: Vec<(usize, String)>,
+    /// The learner explores with another policy than the one it learns
+    /// (off-policy or deterministic): its training return is the explorer's.
+    pub explores: bool,
 }
 
-fn pair(p: Option<(f64, f64)>) -> Value {
-    p.map_or(Value::Null, |(a, b)| json!([num(a), num(b)]))
+/// Welch's test of a comparison (`welch` in the summary).
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct WelchReport {
+    /// The t statistic of mean(b) − mean(a).
+    pub t: Num,
+    /// Welch–Satterthwaite degrees of freedom.
+    pub df: Num,
+    /// Two-sided p value of this comparison alone.
+    pub p: Num,
+    /// The p value adjusted by Holm's method over the experiment's family of
+    /// comparisons (null when `p` is undefined; such comparisons are left out
+    /// of the family).
+    pub p_holm: Num,
+    /// 95% interval of mean(b) − mean(a) (Welch; not adjusted).
+    pub ci95: Pair,
 }
 
-impl Score {
-    /// The JSON form used in summaries.
-    pub fn to_json(&self) -> Value {
-        json!({
-            "n": self.n,
-            "mean": num(self.mean),
-            "ci95": pair(self.ci95),
-            "bootstrap_ci95": pair(self.bootstrap_ci95),
-            "iqm": num(self.iqm),
-            "iqm_ci95": pair(self.iqm_ci95),
-            "median": num(self.median),
-            "sd": num(self.sd),
-        })
-    }
+/// P(B > A) and its interval (`prob_improvement`).
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct ProbImprovement {
+    /// The chance that a random seed of `b` beats a random seed of `a`, ties ½.
+    pub value: Num,
+    /// Its 95% interval.
+    pub ci95: Pair,
+    /// How the interval is made.
+    pub method: &'static str,
+}
+
+/// How many seeds a clear answer needs (`seeds_advice`).
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct SeedsAdvice {
+    /// The difference it is sized for.
+    pub difference: Num,
+    /// Seeds per variant (t-based, Welch df).
+    pub seeds_per_variant: usize,
+    /// The normal-approximation answer.
+    pub normal_approximation: usize,
 }
 
 /// A comparison of variant `b` against variant `a` on per-seed values.
-#[derive(Clone, Debug, PartialEq)]
+#[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct Comparison {
-    /// Index of the first variant.
-    pub a: usize,
-    /// Index of the second variant.
-    pub b: usize,
+    /// Label of the first variant.
+    pub a: String,
+    /// Label of the second variant.
+    pub b: String,
+    /// The measure compared (`"evaluation"` or `"training"`).
+    pub measure: &'static str,
     /// mean(b) − mean(a).
-    pub diff: f64,
-    /// Percentile-bootstrap 95% interval of the difference (seeds resampled
-    /// within each variant).
-    pub diff_ci95: Option<(f64, f64)>,
-    /// P(B > A): the chance a random seed of `b` beats a random seed of `a`,
-    /// ties counting ½.
-    pub prob_improvement: f64,
-    /// Percentile-bootstrap 95% interval of P(B > A).
-    pub prob_improvement_ci95: Option<(f64, f64)>,
-    /// Welch's t-test of equal means (None with fewer than 2 seeds in a
-    /// variant or no spread at all).
-    pub welch: Option<stats::Welch>,
-    /// The difference the seeds advice is for.
-    pub advice_for: f64,
-    /// Seeds per variant needed to detect `advice_for` at α = 0.05, power 0.8.
-    pub seeds_advice: Option<stats::SeedsAdvice>,
+    pub diff: Num,
+    /// Welch's t-test (null with fewer than 2 seeds in a variant or no spread at all).
+    pub welch: Option<WelchReport>,
+    /// P(B > A).
+    pub prob_improvement: ProbImprovement,
+    /// Seeds advice (null when it cannot be given).
+    pub seeds_advice: Option<SeedsAdvice>,
+    /// Warnings that qualify the verdict (failed seeds, the measure).
+    pub warnings: Vec<String>,
     /// The verdict in plain words.
     pub verdict: String,
 }
 
-fn fmt(x: f64) -> String {
+/// A number for a verdict: three decimals, or scientific notation.
+pub fn fmt(x: f64) -> String {
+    if !x.is_finite() {
+        return "undefined".into();
+    }
     if x == 0.0 || (x.abs() >= 0.01 && x.abs() < 1e5) {
         let s = format!("{x:.3}");
         let s = s.trim_end_matches('0').trim_end_matches('.');
@@ -127,130 +164,190 @@ fn fmt(x: f64) -> String {
     }
 }
 
-/// Compares per-seed values `ya` (variant `a`, labelled `la`) and `yb`.
-/// `detect` is the difference the seeds advice is sized for (default: the
-/// observed one).
-#[allow(clippy::too_many_arguments)]
-pub fn compare(
-    a: usize,
-    b: usize,
-    la: &str,
-    lb: &str,
-    ya: &[f64],
-    yb: &[f64],
-    master: u64,
-    detect: Option<f64>,
-) -> Comparison {
-    let key = 1000 + (a as u64) * 64 + b as u64;
-    let mut rng = Stream::derive(master, Purpose::Stats, key, 0);
-    let enough = ya.len() >= 2 && yb.len() >= 2;
-    let diff = stats::mean(yb) - stats::mean(ya);
-    let diff_ci95 = if enough { stats::bootstrap_diff_ci(yb, ya, 0.95, RESAMPLES, &mut rng) } else { None };
-    let prob_improvement = stats::prob_improvement(yb, ya);
-    let prob_improvement_ci95 =
-        if enough { stats::prob_improvement_ci(yb, ya, 0.95, RESAMPLES, &mut rng) } else { None };
-    let welch = if enough { stats::welch(yb, ya) } else { None };
-    let advice_for = detect.unwrap_or(diff.abs());
-    let seeds_advice = if enough && advice_for > 0.0 {
-        stats::seeds_needed(stats::sd(ya), stats::sd(yb), advice_for).ok()
+/// A p value for a verdict: below 1e-4 as "< 1e-4".
+fn fmt_p(p: f64) -> String {
+    if p < 1e-4 {
+        "< 1e-4".into()
     } else {
-        None
-    };
-    let (na, nb) = (ya.len(), yb.len());
-    let seeds = if na == nb { format!("{na} seeds each") } else { format!("{na} and {nb} seeds") };
-    let verdict = if !enough {
-        format!("not enough seeds to compare {lb} with {la}: each needs at least 2 seeds with a final return")
-    } else if let Some(w) = &welch {
-        let ci = w.ci95;
-        if w.p < 0.05 {
-            let (hi, lo) = if diff > 0.0 { (lb, la) } else { (la, lb) };
-            format!(
-                "{hi} ends higher than {lo} by {} (95% CI of {lb} − {la}: {} to {}; Welch p = {}; {seeds})",
-                fmt(diff.abs()),
-                fmt(ci.0),
-                fmt(ci.1),
-                fmt(w.p)
-            )
-        } else {
-            let mut s = format!(
-                "no detectable difference at {seeds} ({lb} − {la} = {}, 95% CI {} to {}; Welch p = {})",
-                fmt(diff),
-                fmt(ci.0),
-                fmt(ci.1),
-                fmt(w.p)
-            );
-            if let Some(adv) = &seeds_advice {
-                s.push_str(&format!(
-                    "; about {} seeds per variant would detect a difference of {}",
-                    adv.welch,
-                    fmt(advice_for)
-                ));
-            }
-            s
-        }
-    } else if diff == 0.0 {
-        format!("{lb} and {la} gave the same final return in every seed ({seeds})")
-    } else {
-        format!("{lb} − {la} = {} with no spread across seeds ({seeds})", fmt(diff))
-    };
-    Comparison {
-        a,
-        b,
-        diff,
-        diff_ci95,
-        prob_improvement,
-        prob_improvement_ci95,
-        welch,
-        advice_for,
-        seeds_advice,
-        verdict,
+        fmt(p)
     }
 }
 
-impl Comparison {
-    /// The JSON form used in summaries (`a`, `b` are labels).
-    pub fn to_json(&self, la: &str, lb: &str) -> Value {
-        json!({
-            "a": la,
-            "b": lb,
-            "diff": num(self.diff),
-            "diff_ci95": pair(self.diff_ci95),
-            "prob_improvement": {
-                "value": num(self.prob_improvement),
-                "ci95": pair(self.prob_improvement_ci95),
-            },
-            "welch": self.welch.as_ref().map_or(Value::Null, |w| json!({
-                "t": num(w.t), "df": num(w.df), "p": num(w.p), "ci95": pair(Some(w.ci95)),
-            })),
-            "seeds_advice": self.seeds_advice.as_ref().map_or(Value::Null, |s| json!({
-                "difference": num(self.advice_for),
-                "seeds_per_variant": s.welch,
-                "normal_approximation": s.normal,
-            })),
-            "verdict": self.verdict,
-        })
+/// The pairs to compare: every pair `(a, b)` with `a < b`, or with a
+/// reference variant `r`, `(r, v)` for every other `v`.
+pub fn pairs(k: usize, reference: Option<usize>) -> Vec<(usize, usize)> {
+    match reference {
+        Some(r) => (0..k).filter(|&v| v != r).map(|v| (r, v)).collect(),
+        None => (0..k).flat_map(|a| (a + 1..k).map(move |b| (a, b))).collect(),
     }
+}
+
+/// Holm's step-down adjustment (Holm 1979) of the finite p values in
+/// `p`; NaN entries stay NaN and are not counted in the family.
+fn holm(p: &[f64]) -> Vec<f64> {
+    let mut order: Vec<usize> = (0..p.len()).filter(|&i| p[i].is_finite()).collect();
+    order.sort_by(|&i, &j| p[i].total_cmp(&p[j]));
+    let m = order.len();
+    let mut out = vec![f64::NAN; p.len()];
+    let mut running = 0.0_f64;
+    for (rank, &i) in order.iter().enumerate() {
+        running = running.max(((m - rank) as f64 * p[i]).min(1.0));
+        out[i] = running;
+    }
+    out
+}
+
+/// "k of n seeds of X failed (reason)" for a variant with failed seeds.
+fn failure_note(e: &Entry<'_>) -> Option<String> {
+    let (_, first) = e.failed.first()?;
+    let more = if e.failed.len() > 1 { format!("; the first: {first}") } else { format!(": {first}") };
+    Some(format!("{} of {} seeds of {} failed and are left out{more}", e.failed.len(), e.seeds, e.label))
+}
+
+/// Compares the variants of `entries` over `pairs` on the measure named
+/// `measure`. `detect` is the difference the seeds advice is sized for
+/// (default: each pair's observed one).
+pub fn compare_all(
+    entries: &[Entry<'_>],
+    pairs: &[(usize, usize)],
+    measure: &'static str,
+    master: u64,
+    detect: Option<f64>,
+) -> Vec<Comparison> {
+    let tests: Vec<Option<stats::Welch>> = pairs
+        .iter()
+        .map(|&(a, b)| {
+            let (ya, yb) = (&entries[a].values, &entries[b].values);
+            if ya.len() >= 2 && yb.len() >= 2 {
+                stats::welch(yb, ya)
+            } else {
+                None
+            }
+        })
+        .collect();
+    let raw: Vec<f64> = tests.iter().map(|w| w.as_ref().map_or(f64::NAN, |w| w.p)).collect();
+    let adjusted = holm(&raw);
+    let family = raw.iter().filter(|p| p.is_finite()).count();
+    pairs
+        .iter()
+        .zip(&tests)
+        .zip(&adjusted)
+        .map(|((&(a, b), welch), &p_holm)| {
+            let (ea, eb) = (&entries[a], &entries[b]);
+            let (ya, yb) = (&ea.values, &eb.values);
+            let key = 1000 + (a as u64) * 64 + b as u64;
+            let mut rng = Stream::derive(master, Purpose::Stats, key, 0);
+            let enough = ya.len() >= 2 && yb.len() >= 2;
+            let diff = if ya.is_empty() || yb.is_empty() { f64::NAN } else { stats::mean(yb) - stats::mean(ya) };
+            let pi = if ya.is_empty() || yb.is_empty() { f64::NAN } else { stats::prob_improvement(yb, ya) };
+            let pi_ci = if enough { stats::prob_improvement_ci(yb, ya, 0.95, RESAMPLES, &mut rng) } else { None };
+            let advice_for = detect.unwrap_or(diff.abs());
+            let seeds_advice = if enough && advice_for > 0.0 {
+                stats::seeds_needed(stats::sd(ya), stats::sd(yb), advice_for).ok().map(|s| SeedsAdvice {
+                    difference: Num(advice_for),
+                    seeds_per_variant: s.welch,
+                    normal_approximation: s.normal,
+                })
+            } else {
+                None
+            };
+            let mut warnings: Vec<String> = [failure_note(ea), failure_note(eb)].into_iter().flatten().collect();
+            if measure == "training" && (ea.explores || eb.explores) {
+                let who = match (ea.explores, eb.explores) {
+                    (true, true) => "both are such learners".to_string(),
+                    (true, false) => format!("{} is one", ea.label),
+                    _ => format!("{} is one", eb.label),
+                };
+                warnings.push(format!(
+                    "measured on training returns, which for an off-policy or deterministic learner are its \
+                     exploring behaviour's, not its learned policy's ({who}); turn on evaluation episodes to judge \
+                     the learned policies"
+                ));
+            }
+            let (na, nb) = (ya.len(), yb.len());
+            let seeds = if na == nb { format!("{na} seeds each") } else { format!("{na} and {nb} seeds") };
+            let (la, lb) = (ea.label, eb.label);
+            let corrected = |p: f64, q: f64| {
+                if family > 1 {
+                    format!("Welch p = {}, Holm-adjusted over {family} comparisons {}", fmt_p(p), fmt_p(q))
+                } else {
+                    format!("Welch p = {}", fmt_p(p))
+                }
+            };
+            let main = if !enough {
+                format!("not enough seeds to compare {lb} with {la}: each needs at least 2 seeds with a value")
+            } else if let Some(w) = welch {
+                let ci = w.ci95;
+                if p_holm < ALPHA {
+                    let (hi, lo) = if diff > 0.0 { (lb, la) } else { (la, lb) };
+                    format!(
+                        "{hi} ends higher than {lo} by {} (95% CI of {lb} − {la}: {} to {}; {}; {seeds})",
+                        fmt(diff.abs()),
+                        fmt(ci.0),
+                        fmt(ci.1),
+                        corrected(w.p, p_holm)
+                    )
+                } else {
+                    format!(
+                        "no detectable difference at {seeds} ({lb} − {la} = {}, 95% CI {} to {}; {})",
+                        fmt(diff),
+                        fmt(ci.0),
+                        fmt(ci.1),
+                        corrected(w.p, p_holm)
+                    )
+                }
+            } else if diff == 0.0 {
+                format!("{lb} and {la} gave the same value in every seed ({seeds})")
+            } else {
+                format!("{lb} − {la} = {} with no spread across seeds ({seeds}): no test applies", fmt(diff))
+            };
+            let verdict = if warnings.is_empty() { main } else { format!("{}. {main}", warnings.join(". ")) };
+            Comparison {
+                a: la.to_string(),
+                b: lb.to_string(),
+                measure,
+                diff: Num(diff),
+                welch: welch.as_ref().map(|w| WelchReport {
+                    t: Num(w.t),
+                    df: Num(w.df),
+                    p: Num(w.p),
+                    p_holm: Num(p_holm),
+                    ci95: pair(Some(w.ci95)),
+                }),
+                prob_improvement: ProbImprovement {
+                    value: Num(pi),
+                    ci95: pair(pi_ci),
+                    method: "percentile bootstrap",
+                },
+                seeds_advice,
+                warnings,
+                verdict,
+            }
+        })
+        .collect()
 }
 
 #[cfg(test)]
 mod tests {
     use super::*;
 
+    fn entry<'a>(label: &'a str, values: &[f64]) -> Entry<'a> {
+        Entry { label, values: values.to_vec(), seeds: values.len(), failed: Vec::new(), explores: false }
+    }
+
     #[test]
     fn clear_difference_is_called_and_noise_is_not() {
-        let a = [10.0, 11.0, 9.5, 10.2, 10.8, 9.9];
-        let b = [14.0, 15.1, 13.7, 14.4, 15.0, 14.2];
-        let c = compare(0, 1, "A", "B", &a, &b, 1, None);
+        let a = entry("A", &[10.0, 11.0, 9.5, 10.2, 10.8, 9.9]);
+        let b = entry("B", &[14.0, 15.1, 13.7, 14.4, 15.0, 14.2]);
+        let c = &compare_all(&[a, b], &[(0, 1)], "training", 1, None)[0];
         assert!(c.verdict.starts_with("B ends higher than A by 4.167"), "{}", c.verdict);
-        assert_eq!(c.prob_improvement, 1.0);
-        let (lo, hi) = c.diff_ci95.unwrap();
-        assert!(lo > 3.0 && hi < 5.5);
-        let n = [10.0, 12.0, 9.0, 11.0];
-        let m = [11.0, 10.0, 12.5, 9.5];
-        let c = compare(0, 1, "A", "B", &n, &m, 1, None);
+        assert_eq!(c.prob_improvement.value, Num(1.0));
+        let n = entry("A", &[10.0, 12.0, 9.0, 11.0]);
+        let m = entry("B", &[11.0, 10.0, 12.5, 9.5]);
+        let c = &compare_all(&[n, m.clone()], &[(0, 1)], "training", 1, None)[0];
         assert!(c.verdict.starts_with("no detectable difference at 4 seeds each"), "{}", c.verdict);
-        assert!(c.verdict.contains("seeds per variant would detect"), "{}", c.verdict);
-        let c = compare(0, 1, "A", "B", &[1.0], &m, 1, None);
+        let one = entry("A", &[1.0]);
+        let c = &compare_all(&[one, m], &[(0, 1)], "training", 1, None)[0];
         assert!(c.verdict.starts_with("not enough seeds"));
         assert!(c.welch.is_none());
     }
@@ -259,11 +356,14 @@ mod tests {
     fn welch_numbers_pass_through() {
         // R's t.test(extra ~ group, data = sleep) (Student 1908 data): t = −1.8608,
         // df = 17.776, p = 0.07939 for group 1 minus group 2; here B = group 1.
-        let g1 = [0.7, -1.6, -0.2, -1.2, -0.1, 3.4, 3.7, 0.8, 0.0, 2.0];
-        let g2 = [1.9, 0.8, 1.1, 0.1, -0.1, 4.4, 5.5, 1.6, 4.6, 3.4];
-        let c = compare(0, 1, "g2", "g1", &g2, &g1, 1, None);
-        let w = c.welch.unwrap();
-        assert!((w.t + 1.8608).abs() < 5e-5 && (w.df - 17.776).abs() < 5e-4 && (w.p - 0.07939).abs() < 5e-6);
+        let g1 = entry("g1", &[0.7, -1.6, -0.2, -1.2, -0.1, 3.4, 3.7, 0.8, 0.0, 2.0]);
+        let g2 = entry("g2", &[1.9, 0.8, 1.1, 0.1, -0.1, 4.4, 5.5, 1.6, 4.6, 3.4]);
+        let c = &compare_all(&[g2, g1], &[(0, 1)], "training", 1, None)[0];
+        let w = c.welch.as_ref().unwrap();
+        assert!(
+            (w.t.0 + 1.8608).abs() < 5e-5 && (w.df.0 - 17.776).abs() < 5e-4 && (w.p.0 - 0.07939).abs() < 5e-6
+        );
+        assert_eq!(w.p_holm, w.p);
         assert!(
             c.verdict.starts_with("no detectable difference at 10 seeds each (g1 − g2 = -1.58"),
             "{}",

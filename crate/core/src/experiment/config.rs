@@ -149,6 +149,140 @@ pub struct Config {
     /// Default absent.
     #[serde(default)]
     pub detect_difference: Option<f64>,
+    /// Evaluation episodes of the learned policy (see [`Evaluation`]).
+    /// Default: on when any variant is off-policy or deterministic.
+    #[serde(default, skip_serializing_if = "Evaluation::is_auto")]
+    pub evaluation: Evaluation,
+    /// Which measure scores, comparisons, the threshold and the seeds advice
+    /// use: `"evaluation"` (the learned policy's evaluation return) or
+    /// `"training"` (the return earned while learning). Default:
+    /// evaluation when evaluation episodes are on, training otherwise.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub score_on: Option<Measure>,
+    /// The label of a reference variant: only the comparisons of every other
+    /// variant against it are made (and corrected for multiplicity), instead
+    /// of every pair. Default absent (every pair).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub reference: Option<String>,
+}
+
+/// The two measures of a variant's performance.
+#[derive(Clone, Copy, Debug, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum Measure {
+    /// The return of the episodes the learner ran while learning (for
+    /// off-policy learners the behaviour's, for the deterministic learner
+    /// the noisy actor's).
+    Training,
+    /// The mean return of evaluation episodes of the frozen learned policy.
+    Evaluation,
+}
+
+impl Measure {
+    /// The config name.
+    pub fn name(self) -> &'static str {
+        match self {
+            Measure::Training => "training",
+            Measure::Evaluation => "evaluation",
+        }
+    }
+}
+
+/// How evaluation episodes pick actions.
+#[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize)]
+#[serde(rename_all = "snake_case")]
+pub enum EvalPolicy {
+    /// Actions drawn from the learned policy (the deterministic learner's
+    /// actor is noise-free either way).
+    #[default]
+    Sampled,
+    /// The learned policy's most probable action (a softmax's first largest
+    /// preference, a Gaussian's squashed mean).
+    Greedy,
+}
+
+/// The settings of evaluation episodes (the `evaluation` object).
+#[derive(Clone, Debug, Default, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct EvaluationConfig {
+    /// Environment steps between checkpoints, in [1, steps]. Default: the
+    /// budget / 20, rounded to a whole step (at least 1).
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub every: Option<u64>,
+    /// Episodes per checkpoint, in [1, 1000]. Default 10.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub episodes: Option<u32>,
+    /// `"sampled"` (default) or `"greedy"`.
+    #[serde(default)]
+    pub policy: EvalPolicy,
+}
+
+/// Whether a run evaluates its learned policies: the `evaluation` key is
+/// absent (automatic: on when any variant is off-policy or deterministic),
+/// `false` (off), `true` (on, default settings) or an object of settings.
+#[derive(Clone, Debug, Default, PartialEq)]
+pub enum Evaluation {
+    /// On when any variant is off-policy or deterministic.
+    #[default]
+    Auto,
+    /// Off.
+    Off,
+    /// On with these settings.
+    On(EvaluationConfig),
+}
+
+impl Evaluation {
+    fn is_auto(&self) -> bool {
+        *self == Evaluation::Auto
+    }
+}
+
+impl Serialize for Evaluation {
+    fn serialize<S: serde::Serializer>(&self, s: S) -> Result<S::Ok, S::Error> {
+        match self {
+            Evaluation::Auto => s.serialize_none(),
+            Evaluation::Off => s.serialize_bool(false),
+            Evaluation::On(c) => c.serialize(s),
+        }
+    }
+}
+
+impl<'de> Deserialize<'de> for Evaluation {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        use serde::de::Error;
+        match Value::deserialize(d)? {
+            Value::Null => Ok(Evaluation::Auto),
+            Value::Bool(false) => Ok(Evaluation::Off),
+            Value::Bool(true) => Ok(Evaluation::On(EvaluationConfig::default())),
+            v @ Value::Object(_) => serde_json::from_value(v).map(Evaluation::On).map_err(D::Error::custom),
+            other => Err(D::Error::custom(format!(
+                "must be true, false or an object {{\"every\", \"episodes\", \"policy\"}}, got {other}"
+            ))),
+        }
+    }
+}
+
+/// Evaluation episodes as a plan runs them.
+#[derive(Clone, Debug, PartialEq)]
+pub struct EvalPlan {
+    /// Steps between checkpoints.
+    pub every: u64,
+    /// Episodes per checkpoint.
+    pub episodes: u32,
+    /// Greedy (most probable) actions instead of sampled ones.
+    pub greedy: bool,
+    /// The checkpoints' step counts: 0, every, 2·every, … and the budget.
+    pub checkpoints: Vec<u64>,
+}
+
+impl EvalPlan {
+    /// The checkpoints of a budget: step 0, every multiple of `every` below
+    /// the budget, and the budget itself.
+    pub fn checkpoints_of(steps: u64, every: u64) -> Vec<u64> {
+        let mut c: Vec<u64> = (0..).map(|k| k * every).take_while(|&s| s < steps).collect();
+        c.push(steps);
+        c
+    }
 }
 
 /// One problem in a config: where and what.
@@ -217,6 +351,12 @@ pub struct Plan {
     pub spec: TaskSpec,
     /// The variants, resolved.
     pub variants: Vec<VariantPlan>,
+    /// Evaluation episodes, when on.
+    pub evaluation: Option<EvalPlan>,
+    /// The measure that scores and comparisons use.
+    pub score_on: Measure,
+    /// The reference variant's index, when comparisons are made against one.
+    pub reference: Option<usize>,
 }
 
 impl Plan {
@@ -428,7 +568,7 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
         }
         let reward = v.reward.clone().unwrap_or_else(|| config.reward.clone());
         if let (Some(spec), Some(_)) = (&spec, &v.reward) {
-            for p in reward.check(spec, setup.discount.unwrap_or(spec.default_discount)) {
+            for p in reward.check(spec, setup.shaping_discount(spec)) {
                 bad(format!("variants[{i}].reward.{}", p.field), p.message);
             }
         }
@@ -441,8 +581,102 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
         return Err(ConfigError { problems });
     }
     let spec = spec.expect("no problems means the task built");
-    Ok(Plan { config, spec, variants })
+    let (evaluation, score_on, reference) = resolve_scoring(&config, &variants)?;
+    Ok(Plan { config, spec, variants, evaluation, score_on, reference })
 }
+
+/// Resolves the evaluation settings, the scored measure and the reference
+/// variant of a config whose other parts are valid.
+fn resolve_scoring(
+    config: &Config,
+    variants: &[VariantPlan],
+) -> Result<(Option<EvalPlan>, Measure, Option<usize>), ConfigError> {
+    use crate::learn::Algo;
+    let mut problems = Vec::new();
+    let explores = variants.iter().any(|v| matches!(v.setup.algo, Algo::OffPolicy | Algo::Deterministic));
+    let settings = match &config.evaluation {
+        Evaluation::Auto => explores.then(EvaluationConfig::default),
+        Evaluation::Off => None,
+        Evaluation::On(c) => Some(c.clone()),
+    };
+    let evaluation = settings.map(|c| {
+        let every = c.every.unwrap_or(((config.steps as f64 / 20.0).round() as u64).max(1));
+        if !(1..=config.steps).contains(&every) {
+            problems.push(Problem {
+                path: "evaluation.every".into(),
+                message: format!("must be in [1, {}] (the step budget), got {every}", config.steps),
+            });
+        }
+        let episodes = c.episodes.unwrap_or(10);
+        if !(1..=1000).contains(&episodes) {
+            problems.push(Problem {
+                path: "evaluation.episodes".into(),
+                message: format!("must be in [1, 1000], got {episodes}"),
+            });
+        }
+        let every = every.max(1);
+        EvalPlan {
+            every,
+            episodes,
+            greedy: c.policy == EvalPolicy::Greedy,
+            checkpoints: EvalPlan::checkpoints_of(config.steps, every),
+        }
+    });
+    if evaluation.as_ref().is_some_and(|e| e.checkpoints.len() > MAX_CHECKPOINTS) {
+        problems.push(Problem {
+            path: "evaluation.every".into(),
+            message: format!(
+                "gives {} checkpoints; at most {MAX_CHECKPOINTS} are allowed (raise `every`)",
+                evaluation.as_ref().map_or(0, |e| e.checkpoints.len())
+            ),
+        });
+    }
+    let score_on = match (config.score_on, &evaluation) {
+        (Some(Measure::Evaluation), None) => {
+            problems.push(Problem {
+                path: "score_on".into(),
+                message: "\"evaluation\" needs evaluation episodes, which are off: set `evaluation` to true \
+                          or an object, or score on \"training\""
+                    .into(),
+            });
+            Measure::Training
+        }
+        (Some(m), _) => m,
+        (None, Some(_)) => Measure::Evaluation,
+        (None, None) => Measure::Training,
+    };
+    let reference = match &config.reference {
+        None => None,
+        Some(label) => {
+            let at = variants.iter().position(|v| &v.label == label);
+            if at.is_none() {
+                let labels: Vec<String> = variants.iter().map(|v| format!("{:?}", v.label)).collect();
+                problems.push(Problem {
+                    path: "reference".into(),
+                    message: format!(
+                        "{label:?} is not a variant's label (the labels: {})",
+                        labels.join(", ")
+                    ),
+                });
+            }
+            if variants.len() < 2 {
+                problems.push(Problem {
+                    path: "reference".into(),
+                    message: "needs at least two variants to compare".into(),
+                });
+            }
+            at
+        }
+    };
+    if problems.is_empty() {
+        Ok((evaluation, score_on, reference))
+    } else {
+        Err(ConfigError { problems })
+    }
+}
+
+/// Most evaluation checkpoints per job.
+pub const MAX_CHECKPOINTS: usize = 1001;
 
 #[cfg(test)]
 mod tests {

@@ -1,21 +1,22 @@
 //! Export and import of results.
 //!
-//! [`tidy_csv`] writes one row per (variant, seed, step bin, metric) with the
+//! [`tidy_csv`] writes one row per (variant, seed, step, metric) with the
 //! columns `variant,label,seed,step,metric,value`, ready for a data-frame
 //! library; numbers use Rust's shortest round-trip form, so reading them back
 //! gives the same `f64` bits. [`save`] writes a results file (the config with
-//! defaults filled in, every job's episode records, and the summary) and
-//! [`load`] rebuilds the [`Results`] from it without re-running, checking
-//! every field it reads.
+//! defaults filled in, every job's episode and evaluation records, and the
+//! summary) and [`load`] rebuilds the [`Results`] from it without re-running,
+//! checking every field it reads. Files of version 1 (before evaluation
+//! records) still load; a plan that evaluates then has no evaluation data.
 
 use serde_json::{json, Value};
 
 use crate::experiment::config::{validate_value, Plan};
 use crate::experiment::results::Results;
-use crate::experiment::runner::EpisodeRecord;
+use crate::experiment::runner::{EpisodeRecord, EvalRecord};
 
-/// Version of the results file format.
-pub const RESULTS_VERSION: u32 = 1;
+/// Version of the results file format this build writes (it reads 1 and 2).
+pub const RESULTS_VERSION: u32 = 2;
 
 fn csv_field(s: &str) -> String {
     if s.contains([',', '"', '\n', '\r']) {
@@ -34,26 +35,41 @@ fn csv_num(x: f64) -> String {
 }
 
 /// The tidy CSV of a results set. Metrics: `base_return` (the seed's binned
-/// curve value, one row per bin where it has data), `final_return` and `auc`
-/// (one row per seed, at the budget's last step).
+/// training curve value, one row per bin where it has data), `eval_return`
+/// (one row per evaluation checkpoint, at its step), `final_return` (final
+/// training return), `final_eval_return` and `auc` (of the scored measure),
+/// one row per seed at the budget's last step.
 pub fn tidy_csv(r: &Results) -> String {
     let mut out = String::from("variant,label,seed,step,metric,value\n");
     let edges = r.bin_edges();
+    let checkpoints = r.checkpoints();
     for (v, label) in r.labels().iter().enumerate() {
         let label = csv_field(label);
         let finals = r.final_per_seed(v);
+        let evals = r.eval_final_per_seed(v);
         let aucs = r.auc_per_seed(v);
+        let mut row = |s: usize, step: u64, metric: &str, value: f64| {
+            out.push_str(&format!("{v},{label},{s},{step},{metric},{}\n", csv_num(value)));
+        };
         for s in 0..r.seeds() {
             for (b, value) in r.seed_curve(v, s).into_iter().enumerate() {
                 if !value.is_nan() {
-                    out.push_str(&format!("{v},{label},{s},{},base_return,{}\n", edges[b], csv_num(value)));
+                    row(s, edges[b], "base_return", value);
+                }
+            }
+            for (k, value) in r.seed_eval_curve(v, s).into_iter().enumerate() {
+                if !value.is_nan() {
+                    row(s, checkpoints[k], "eval_return", value);
                 }
             }
             if let Some(f) = finals[s] {
-                out.push_str(&format!("{v},{label},{s},{},final_return,{}\n", r.steps(), csv_num(f)));
+                row(s, r.steps(), "final_return", f);
+            }
+            if let Some(f) = evals[s] {
+                row(s, r.steps(), "final_eval_return", f);
             }
             if let Some(a) = aucs[s] {
-                out.push_str(&format!("{v},{label},{s},{},auc,{}\n", r.steps(), csv_num(a)));
+                row(s, r.steps(), "auc", a);
             }
         }
     }
@@ -64,12 +80,13 @@ pub fn tidy_csv(r: &Results) -> String {
 pub fn save(plan: &Plan, r: &Results) -> Value {
     let jobs: Vec<Value> = (0..r.job_count())
         .map(|id| {
-            let (eps, steps_done, failed) = r.job_record(id);
+            let (eps, evals, steps_done, failed) = r.job_record(id);
             json!({
                 "id": id,
                 "steps_done": steps_done,
                 "failed": failed,
                 "episodes": eps.iter().map(|e| json!([e.end_step, e.base_return, e.shaped_return, e.length, e.truncated])).collect::<Vec<_>>(),
+                "evaluations": evals.iter().map(|e| json!([e.checkpoint, e.step, e.mean_return, e.episodes])).collect::<Vec<_>>(),
             })
         })
         .collect();
@@ -109,9 +126,12 @@ pub fn load(text: &str) -> Result<(Plan, Results), LoadError> {
     let v: Value = serde_json::from_str(text).map_err(|e| LoadError::Json(e.to_string()))?;
     let field = |p: &str, m: &str| LoadError::Field(p.into(), m.into());
     match v.get("critbox_results").and_then(Value::as_u64) {
-        Some(1) => {}
+        Some(1 | 2) => {}
         Some(n) => {
-            return Err(field("critbox_results", &format!("version {n} is not one this build reads (1)")))
+            return Err(field(
+                "critbox_results",
+                &format!("version {n} is not one this build reads (1 or 2); open it with a newer critbox"),
+            ))
         }
         None => return Err(field("critbox_results", "missing: this is not a critbox results file")),
     }
@@ -155,6 +175,30 @@ pub fn load(text: &str) -> Result<(Plan, Results), LoadError> {
                 i,
                 EpisodeRecord { end_step, base_return: base, shaped_return: shaped, length, truncated },
             );
+        }
+        let checkpoints = r.checkpoints().to_vec();
+        let evals = match j.get("evaluations") {
+            None | Some(Value::Null) => &[][..],
+            Some(Value::Array(a)) => &a[..],
+            Some(_) => return Err(field(&at("evaluations"), "must be a list")),
+        };
+        for (k, e) in evals.iter().enumerate() {
+            let bad = || {
+                field(
+                    &format!("jobs[{i}].evaluations[{k}]"),
+                    "must be [checkpoint, step, mean_return, episodes] with the step of one of the plan's \
+                     checkpoints, reached by the job",
+                )
+            };
+            let a = e.as_array().filter(|a| a.len() == 4).ok_or_else(bad)?;
+            let checkpoint = a[0].as_u64().filter(|&c| (c as usize) < checkpoints.len()).ok_or_else(bad)?;
+            let step = a[1]
+                .as_u64()
+                .filter(|&s| s == checkpoints[checkpoint as usize] && s <= steps_done)
+                .ok_or_else(bad)?;
+            let mean_return = a[2].as_f64().ok_or_else(bad)?;
+            let episodes = a[3].as_u64().filter(|&n| (1..=1000).contains(&n)).ok_or_else(bad)? as u32;
+            r.add_evaluation(i, EvalRecord { checkpoint: checkpoint as u32, step, mean_return, episodes });
         }
         r.set_steps(i, steps_done);
         match j.get("failed") {
@@ -204,6 +248,7 @@ mod tests {
                     n_final += 1;
                 }
                 "auc" => assert_eq!(value.to_bits(), r.auc_per_seed(v)[seed].unwrap().to_bits()),
+                "eval_return" | "final_eval_return" => panic!("evaluation is off in this plan"),
                 "base_return" => {
                     let curve = r.seed_curve(v, seed);
                     let b = r.curve(v).iter().position(|p| p.step == step).unwrap();

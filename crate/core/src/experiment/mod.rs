@@ -5,19 +5,24 @@
 //! the CLI. [`config::parse`] turns text into a [`config::Plan`] or into
 //! problems that name the field. A plan is a list of jobs, one per
 //! (variant, seed); [`runner::Job`] advances one of them in chunks of any
-//! size with identical results. [`results::Results`] bins episode returns on
-//! environment steps and summarises them across seeds.
+//! size with identical results, and evaluates its frozen learned policy at
+//! checkpoints when the plan asks. [`results::Results`] bins training
+//! returns on environment steps, collects the evaluation returns, and
+//! summarises both across seeds; [`compare`] makes the scores and the
+//! comparisons, [`hacking`] the reward-hacking signal, [`export`] the CSV
+//! and results files.
 
 pub mod compare;
 pub mod config;
 pub mod export;
+pub mod hacking;
 pub mod probe;
 pub mod results;
 pub mod runner;
 
-pub use config::{parse, Config, ConfigError, Plan, Problem, VariantPlan, SCHEMA};
+pub use config::{parse, Config, ConfigError, Measure, Plan, Problem, VariantPlan, SCHEMA};
 pub use results::{CurvePoint, Results};
-pub use runner::{EpisodeRecord, Job, JobStatus};
+pub use runner::{EpisodeRecord, EvalRecord, Job, JobStatus};
 
 /// Runs every job of a plan to the end and collects the results (the CLI's
 /// path; the page spreads the same jobs over workers).
@@ -28,6 +33,9 @@ pub fn run_all(plan: &Plan) -> Results {
         job.advance(u64::MAX);
         for rec in job.take_new_episodes() {
             results.add_episode(id, *rec);
+        }
+        for rec in job.take_new_evaluations() {
+            results.add_evaluation(id, *rec);
         }
         results.set_steps(id, job.steps_done());
         if let JobStatus::Failed(reason) = job.status() {

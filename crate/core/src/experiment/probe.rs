@@ -9,9 +9,14 @@
 //! `g` over the K estimates and the norm of their mean. The options:
 //! `none` (b = 0), `average` (the mean return of a separate warm-up batch),
 //! `value` (the learner's own state-value estimate, where it keeps one) and
-//! `optimal` (the variance-minimising constant b* = E[‖s‖² G] / E[‖s‖²] of
-//! Greensmith, Bartlett & Baxter 2004, estimated on the warm-up batch,
-//! with `s` the score). The return `G_t` is the discounted training
+//! `optimal` (the variance-minimising constant b* = E[S·A] / E[‖S‖²] of
+//! Greensmith, Bartlett & Baxter 2004 in trajectory form, estimated on the
+//! warm-up batch, with `S = Σ_t ∇log π(a_t|s_t)` and `A = Σ_t G_t ∇log
+//! π(a_t|s_t)` per episode; the learner's `"optimal"` baseline uses the same
+//! [`crate::learn::reinforce::optimal_constant`]). The probe's episodes come
+//! from a stream keyed by (master seed, seed index, checkpoint), not by the
+//! variant, so probes of different variants at the same seed index sample
+//! their frozen policies with the same random numbers. The return `G_t` is the discounted training
 //! (shaped) return from t to the end of the episode; an episode cut by the
 //! time limit is not bootstrapped. Scores are taken in the linear-softmax
 //! parameterisation over the variant's features, `∇_{θ_b} log π(a|s) = x(s)
@@ -83,7 +88,6 @@ struct Sample {
     action: usize,
     ret: f64,
     value: f64,
-    score_sq: f64,
 }
 
 /// Samples one episode of the frozen policy; returns its steps with the
@@ -122,16 +126,7 @@ fn episode(
             terminal: step.terminated,
             t: u64::from(t),
         });
-        let coef_sq: f64 = (0..n_act).map(|b| (if a == b { 1.0 } else { 0.0 } - probs[b]).powi(2)).sum();
-        out.push(Sample {
-            idx: feat.idx.clone(),
-            val: feat.val.clone(),
-            score_sq: coef_sq * feat.norm_sq(),
-            probs,
-            action: a,
-            ret: 0.0,
-            value,
-        });
+        out.push(Sample { idx: feat.idx.clone(), val: feat.val.clone(), probs, action: a, ret: 0.0, value });
         rewards.push(r);
         if step.terminated {
             break;
@@ -174,19 +169,27 @@ pub fn measure(
     let n_act = task.spec().actions.discrete_count().unwrap_or(0);
     let dim = features.dim();
     let mut feat = Sparse::with_capacity(features.max_active());
-    // Warm-up batch for the constant baselines.
-    let (mut sum_g, mut n_g, mut num, mut den) = (0.0, 0.0, 0.0, 0.0);
-    for _ in 0..(estimates * episodes).max(20) {
+    // Warm-up batch for the constant baselines: per episode S = Σ score and
+    // A = Σ G · score, whose products S·A and S·S estimate Greensmith's b*.
+    let len = dim * n_act;
+    let (mut sum_g, mut n_g, mut sum_sa, mut sum_ss) = (0.0, 0.0, 0.0, 0.0);
+    let (mut s_vec, mut a_vec) = (vec![0.0; len], vec![0.0; len]);
+    let warm = (estimates * episodes).max(20);
+    for _ in 0..warm {
+        s_vec.iter_mut().for_each(|x| *x = 0.0);
+        a_vec.iter_mut().for_each(|x| *x = 0.0);
         for s in episode(task, learner, features, shaper, gamma, rng, &mut feat) {
             sum_g += s.ret;
             n_g += 1.0;
-            num += s.score_sq * s.ret;
-            den += s.score_sq;
+            add_score(&mut s_vec, &s, dim, 1.0);
+            add_score(&mut a_vec, &s, dim, s.ret);
         }
+        sum_sa += s_vec.iter().zip(&a_vec).map(|(x, y)| x * y).sum::<f64>();
+        sum_ss += s_vec.iter().map(|x| x * x).sum::<f64>();
     }
     let average = if n_g > 0.0 { sum_g / n_g } else { 0.0 };
-    let optimal = if den > 0.0 { num / den } else { average };
-    let len = dim * n_act;
+    let w = f64::from(warm);
+    let optimal = crate::learn::reinforce::optimal_constant(sum_sa / w, sum_ss / w).unwrap_or(average);
     let mut sums = vec![vec![0.0; len]; OPTIONS.len()];
     let mut sums_sq = vec![vec![0.0; len]; OPTIONS.len()];
     let mut g = vec![vec![0.0; len]; OPTIONS.len()];
@@ -285,7 +288,7 @@ pub fn probe(plan: &Plan, variant: usize, seed: usize, s: &ProbeSettings) -> Res
         }
     };
     let features = build_features(&feats, spec).map_err(|e| ProbeError::Unsupported(e.to_string()))?;
-    let gamma = v.setup.discount.unwrap_or(spec.default_discount);
+    let gamma = v.setup.shaping_discount(spec);
     let mut shaper = Shaper::new(&v.reward, spec, gamma)
         .map_err(|_| ProbeError::Unsupported("the variant's reward does not compile".into()))?;
     let id = variant * cfg.seeds as usize + seed;
@@ -297,7 +300,7 @@ pub fn probe(plan: &Plan, variant: usize, seed: usize, s: &ProbeSettings) -> Res
     for &c in &checkpoints {
         job.advance(c - job.steps_done().min(c));
         let mut task = plan.make_task();
-        let mut rng = Stream::derive(cfg.master_seed, Purpose::Other, id as u64, c);
+        let mut rng = Stream::derive(cfg.master_seed, Purpose::Other, seed as u64, c);
         let results = measure(
             task.as_mut(),
             job.learner_mut(),
@@ -331,7 +334,7 @@ pub fn probe(plan: &Plan, variant: usize, seed: usize, s: &ProbeSettings) -> Res
 #[cfg(test)]
 mod tests {
     use super::*;
-    use crate::approx::Tabular;
+    use crate::approx::{Features, Sparse, Tabular};
     use crate::learn::{ActionBuf, LearnError, StepDiag, Transition};
     use crate::reward::RewardConfig;
     use crate::task::finite::FiniteTask;
@@ -345,6 +348,9 @@ mod tests {
         }
         fn learn(&mut self, _: &Transition<'_>, _: &mut Stream) -> Result<StepDiag, LearnError> {
             Ok(StepDiag::default())
+        }
+        fn act_learned(&mut self, obs: Obs<'_>, rng: &mut Stream, out: &mut ActionBuf) {
+            self.act(obs, rng, out);
         }
         fn best_action(&mut self, _: Obs<'_>, out: &mut ActionBuf) {
             *out = ActionBuf::Index(0);
@@ -392,6 +398,81 @@ mod tests {
         for o in [&none, &avg, &opt] {
             assert!((o.mean_norm - 0.16 * 2f64.sqrt()).abs() < 0.02, "{}: {}", o.baseline, o.mean_norm);
         }
+    }
+
+    /// One feature, the same in every state (the agent cannot tell states apart).
+    struct Constant;
+    impl Features for Constant {
+        fn dim(&self) -> usize {
+            1
+        }
+        fn max_active(&self) -> usize {
+            1
+        }
+        fn compute(&self, _: Obs<'_>, out: &mut Sparse) {
+            out.clear();
+            out.push(0, 1.0);
+        }
+    }
+
+    #[test]
+    fn the_optimal_constant_counts_the_products_between_steps() {
+        // Greensmith, Bartlett & Baxter (2004), trajectory form: b* = E[S·A]/E[‖S‖²]
+        // with S = Σ_t s_t, A = Σ_t G_t s_t (s_t the score). Derived by hand for a
+        // two-step task in which the second step pays 1 when it repeats the first
+        // action (γ = 1, π = ½ everywhere, one shared feature): ‖s_t‖² = ½,
+        // s_1·s_2 = ±½, so S = 0 when the actions differ and ‖S‖² = 2, G = 1 when
+        // they agree. Hence E[S·A] = E[‖S‖²] = 1 and b* = 1, at which every
+        // episode's estimate (G − b)S is exactly 0: zero variance. The per-step
+        // weighting Σ E[‖s_t‖² G_t] / Σ E[‖s_t‖²] would give E[G] = ½ instead,
+        // with variance E[(G − ½)² ‖S‖²] = ¼ per episode and coordinate pair.
+        let to =
+            |next: usize, reward: f64, terminal: bool| vec![Outcome { next, prob: 1.0, reward, terminal }];
+        let model = FiniteModel {
+            n_states: 4,
+            n_actions: 2,
+            start: vec![1.0, 0.0, 0.0, 0.0],
+            terminal: vec![false, false, false, true],
+            outcomes: vec![
+                vec![to(1, 0.0, false), to(2, 0.0, false)],
+                vec![to(3, 1.0, true), to(3, 0.0, true)],
+                vec![to(3, 0.0, true), to(3, 1.0, true)],
+                vec![vec![], vec![]],
+            ],
+        };
+        let mut task = FiniteTask::new(model, "repeat", 1.0, 10, false).unwrap();
+        let spec = task.spec().clone();
+        let mut shaper = Shaper::new(&RewardConfig::default(), &spec, 1.0).unwrap();
+        let mut learner = Fixed(vec![0.5, 0.5]);
+        let r =
+            measure(&mut task, &mut learner, &Constant, &mut shaper, 1.0, 500, 2, &mut Stream::from_seed(4));
+        let by = |name: &str| r.iter().find(|o| o.baseline == name).unwrap().clone();
+        let (none, avg, opt) = (by("none"), by("average"), by("optimal"));
+        assert_eq!(opt.constant, Some(1.0));
+        assert!(opt.trace_cov < 1e-20, "b* removes all variance here: {}", opt.trace_cov);
+        assert!((avg.constant.unwrap() - 0.5).abs() < 0.05, "{:?}", avg.constant);
+        // Per episode, the trace of Cov((G − b)S) is E[(G − b)²‖S‖²] (E[S] = 0):
+        // (1 − b)² with M = 2 episodes per estimate halving it.
+        assert!((avg.trace_cov - 0.25 / 2.0).abs() < 0.03, "{}", avg.trace_cov);
+        assert!((none.trace_cov - 0.5).abs() < 0.1, "{}", none.trace_cov);
+    }
+
+    #[test]
+    fn probes_of_different_variants_share_their_episodes() {
+        // Common random numbers (common practice, no source): two variants probed
+        // at the same seed index before any learning hold the same policy (linear
+        // actors start at zero; their training draws differ by variant) and must
+        // measure it on the same episodes, so their numbers agree exactly.
+        let plan = crate::experiment::parse(
+            r#"{"schema": 1, "task": {"kind": "corridor"}, "steps": 3000, "seeds": 2,
+                "base": {"algo": "reinforce", "actor_step": 0.003},
+                "variants": [{"label": "one"}, {"label": "two", "learner": {"baseline": "average"}}]}"#,
+        )
+        .unwrap();
+        let s = ProbeSettings { checkpoints: vec![0], estimates: 20, episodes: 3 };
+        let (a, b) = (probe(&plan, 0, 1, &s).unwrap(), probe(&plan, 1, 1, &s).unwrap());
+        assert_eq!(a["checkpoints"], b["checkpoints"]);
+        assert_ne!(a["checkpoints"], probe(&plan, 0, 0, &s).unwrap()["checkpoints"]);
     }
 
     #[test]

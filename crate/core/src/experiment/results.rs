@@ -1,40 +1,53 @@
-//! Aggregation of episode records into curves and summaries.
+//! Aggregation of episode and evaluation records into curves and summaries.
 //!
-//! Curves are binned on environment steps (never on episodes: variants
-//! differ in episode length). A seed's value in a bin is the mean base return
-//! of the episodes that ended in it; a bin where no episode ended carries the
-//! last value forward (up to the seed's progress), and is empty before the
-//! first episode. Across seeds each bin gives the mean with a
-//! percentile-bootstrap 95% interval over seeds, the IQM and the median; the
-//! bootstrap draws come from a stream keyed by (master seed, variant, bin),
-//! and a bin's numbers are cached until its per-seed values change, so live
-//! redraws stay cheap. A seed's final return is the mean base return of episodes that
-//! ended in the last `final_fraction` of the budget (or, if none did, of its
-//! last episode); a failed (diverged) seed has none and is listed apart. [`Results::summary`] is the JSON the CLI prints and the page
-//! shows, so both give the same numbers.
+//! Two measures per variant. The **training return** is what the learner
+//! earned while learning (for an off-policy learner, its behaviour's
+//! episodes; for the deterministic learner, the noisy actor's). Its curve is
+//! binned on environment steps (never on episodes: variants differ in
+//! episode length): a seed's value in a bin is the mean base return of the
+//! episodes that ended in it; a bin where no episode ended carries the last
+//! value forward (up to the seed's progress), and is empty before the first
+//! episode. The **evaluation return** is the mean base return of the frozen
+//! learned policy's evaluation episodes at each checkpoint (see
+//! [`crate::experiment::runner`]); its curve has one point per checkpoint.
+//! Across seeds each point gives the mean with a pointwise Student-t 95%
+//! interval (none under 3 seeds), the IQM, the median and the number of
+//! seeds it averages.
+//!
+//! A seed's final training return is the mean base return of the episodes
+//! that ended in the last `final_fraction` of the budget (missing, and
+//! flagged, if none did); its final evaluation return is the mean over the
+//! checkpoints in that share (which always holds the last one). The plan's
+//! `score_on` measure feeds the scores, the area under the curve, steps to
+//! the threshold, the comparisons and the seeds advice. One rule for a
+//! failed (diverged) seed everywhere: left out of means and tests, counted
+//! as never reaching the threshold, its curve stopped where it failed, and
+//! named in every verdict about its variant. [`Results::summary`] is the
+//! report the CLI prints and the page shows, so both give the same numbers.
 
-use std::cell::RefCell;
+use serde::Serialize;
 
-use serde_json::{json, Value};
-
-use crate::experiment::compare::{compare, score};
-use crate::experiment::config::{Plan, SCHEMA};
-use crate::experiment::runner::{bin_edges, bin_of, EpisodeRecord};
-use crate::rng::{Purpose, Stream};
+use crate::experiment::compare::{compare_all, pairs, score, Comparison, Entry, Score};
+use crate::experiment::config::{Measure, Plan, SCHEMA};
+use crate::experiment::hacking::{trend, Hacking};
+use crate::experiment::runner::{bin_edges, bin_of, EpisodeRecord, EvalRecord};
+use crate::learn::Algo;
+use crate::report::{nums, Num};
 use crate::stats;
 
 /// One point of a curve.
 #[derive(Clone, Copy, Debug, PartialEq)]
 pub struct CurvePoint {
-    /// Upper step edge of the bin.
+    /// Upper step edge of the bin (or the checkpoint's step).
     pub step: u64,
     /// Mean over the seeds with data (NaN when none).
     pub mean: f64,
-    /// Lower end of the bootstrap 95% interval of the mean (NaN with fewer than two seeds).
+    /// Lower end of the pointwise Student-t 95% interval of the mean (NaN
+    /// with fewer than [`BAND_MIN_SEEDS`] seeds).
     pub lo: f64,
-    /// Upper end of the bootstrap 95% interval of the mean (NaN with fewer than two seeds).
+    /// Upper end of that interval.
     pub hi: f64,
-    /// Seeds with data in this bin.
+    /// Seeds with data at this point.
     pub n: usize,
     /// Interquartile mean over seeds (NaN when none).
     pub iqm: f64,
@@ -42,21 +55,49 @@ pub struct CurvePoint {
     pub median: f64,
 }
 
-/// Resamples of the per-bin bootstrap interval of the curves.
-pub const CURVE_RESAMPLES: usize = 1000;
+/// Fewest seeds for which a curve point gets an interval: with 2 seeds a
+/// Student-t interval has 1 degree of freedom and says almost nothing.
+pub const BAND_MIN_SEEDS: usize = 3;
 
-/// A cached curve bin: the per-seed values it was computed from, and the point.
-#[derive(Clone, Debug)]
-struct CachedBin {
-    values: Vec<f64>,
-    point: CurvePoint,
+/// A point of a curve over the per-seed values `xs` (finite).
+fn point(step: u64, xs: &[f64]) -> CurvePoint {
+    let (lo, hi) = if xs.len() >= BAND_MIN_SEEDS {
+        stats::mean_ci_t(xs, 0.95).unwrap_or((f64::NAN, f64::NAN))
+    } else {
+        (f64::NAN, f64::NAN)
+    };
+    CurvePoint {
+        step,
+        mean: if xs.is_empty() { f64::NAN } else { stats::mean(xs) },
+        lo,
+        hi,
+        n: xs.len(),
+        iqm: stats::iqm(xs),
+        median: stats::median(xs),
+    }
 }
 
 #[derive(Clone, Debug, Default)]
 struct JobResults {
     episodes: Vec<EpisodeRecord>,
+    evals: Vec<EvalRecord>,
     steps_done: u64,
     failed: Option<String>,
+}
+
+/// The evaluation settings a summary reports.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct EvaluationInfo {
+    /// Steps between checkpoints.
+    pub every: u64,
+    /// Episodes per checkpoint.
+    pub episodes: u32,
+    /// `"sampled"` or `"greedy"`.
+    pub policy: &'static str,
+    /// The checkpoints' steps.
+    pub checkpoints: Vec<u64>,
+    /// What an evaluation episode is on this task.
+    pub episode: &'static str,
 }
 
 /// Results of an experiment, possibly still running.
@@ -65,6 +106,7 @@ pub struct Results {
     title: String,
     task: &'static str,
     labels: Vec<String>,
+    families: Vec<Algo>,
     seeds: usize,
     steps: u64,
     master_seed: u64,
@@ -72,18 +114,186 @@ pub struct Results {
     threshold: Option<f64>,
     detect: Option<f64>,
     edges: Vec<u64>,
+    evaluation: Option<EvaluationInfo>,
+    score_on: Measure,
+    reference: Option<usize>,
     jobs: Vec<JobResults>,
-    cache: RefCell<Vec<Vec<Option<CachedBin>>>>,
+}
+
+/// A curve as the summary reports it.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct CurveReport {
+    /// Step of each point.
+    pub step: Vec<u64>,
+    /// Mean over seeds.
+    pub mean: Vec<Num>,
+    /// Lower end of the pointwise 95% interval (null under 3 seeds).
+    pub lo: Vec<Num>,
+    /// Upper end of the pointwise 95% interval.
+    pub hi: Vec<Num>,
+    /// Interquartile mean.
+    pub iqm: Vec<Num>,
+    /// Median.
+    pub median: Vec<Num>,
+    /// Seeds averaged at each point.
+    pub n: Vec<usize>,
+}
+
+impl CurveReport {
+    fn of(points: &[CurvePoint]) -> Self {
+        let col = |f: fn(&CurvePoint) -> f64| -> Vec<Num> { points.iter().map(|p| Num(f(p))).collect() };
+        CurveReport {
+            step: points.iter().map(|p| p.step).collect(),
+            mean: col(|p| p.mean),
+            lo: col(|p| p.lo),
+            hi: col(|p| p.hi),
+            iqm: col(|p| p.iqm),
+            median: col(|p| p.median),
+            n: points.iter().map(|p| p.n).collect(),
+        }
+    }
+}
+
+/// The shaped-return curve of the summary (no step column: the training
+/// curve's bins).
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct ShapedCurveReport {
+    /// Mean over seeds.
+    pub mean: Vec<Num>,
+    /// Lower end of the pointwise 95% interval.
+    pub lo: Vec<Num>,
+    /// Upper end.
+    pub hi: Vec<Num>,
+    /// Seeds averaged.
+    pub n: Vec<usize>,
+}
+
+/// The area under the scored measure's curve.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct AucReport {
+    /// The score of the seeds' areas.
+    #[serde(flatten)]
+    pub score: Score,
+    /// First step of the common range every seed is averaged over.
+    pub from_step: u64,
+    /// Last step of that range.
+    pub to_step: u64,
+}
+
+/// Steps to reach the threshold on the scored measure.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct ThresholdReport {
+    /// The threshold.
+    pub threshold: f64,
+    /// Seeds that reached it.
+    pub reached: usize,
+    /// Seeds that never did (failed seeds included).
+    pub never: usize,
+    /// Mean steps, only when every seed reached it (otherwise null: the
+    /// mean of the seeds that did would be biased low).
+    pub mean: Num,
+    /// Median steps, the seeds that never reached it counted as above the
+    /// budget; null when half or more never did.
+    pub median: Num,
+    /// Half or more of the seeds never reached it: the median is above the budget.
+    pub median_above_budget: bool,
+    /// Steps per seed (null: never).
+    pub per_seed: Vec<Option<u64>>,
+}
+
+/// A failed seed.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct FailedSeed {
+    /// Seed index.
+    pub seed: usize,
+    /// Why (step and quantity).
+    pub reason: String,
+}
+
+/// One variant of the summary.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct VariantReport {
+    /// Its label.
+    pub label: String,
+    /// The learner family.
+    pub family: &'static str,
+    /// Final training return.
+    pub final_return: Score,
+    /// Final evaluation return (null when evaluation is off).
+    pub eval_return: Option<Score>,
+    /// Each seed's final training return (null: failed or missing).
+    pub per_seed_final: Vec<Num>,
+    /// Each seed's final evaluation return (null: failed, missing, or evaluation off).
+    pub per_seed_eval: Vec<Num>,
+    /// Area under the scored measure's curve.
+    pub auc: AucReport,
+    /// Steps to the threshold (null without a threshold).
+    pub steps_to_threshold: Option<ThresholdReport>,
+    /// Training episodes finished.
+    pub episodes: usize,
+    /// Failed seeds.
+    pub failed: Vec<FailedSeed>,
+    /// The reward-hacking signal (training returns).
+    pub hacking: Hacking,
+    /// The shaped training return's curve.
+    pub curve_shaped: ShapedCurveReport,
+    /// The base training return's curve.
+    pub curve: CurveReport,
+    /// The evaluation return's curve (null when evaluation is off).
+    pub eval_curve: Option<CurveReport>,
+}
+
+/// The summary (what `critbox run` prints).
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct Summary {
+    /// Config schema.
+    pub schema: u32,
+    /// Title.
+    pub title: String,
+    /// Task kind.
+    pub task: &'static str,
+    /// Steps per job.
+    pub steps: u64,
+    /// Seeds per variant.
+    pub seeds: usize,
+    /// Master seed.
+    pub master_seed: u64,
+    /// Final share of the budget.
+    pub final_fraction: f64,
+    /// The measure scores and comparisons use.
+    pub score_on: &'static str,
+    /// Evaluation settings (null when off).
+    pub evaluation: Option<EvaluationInfo>,
+    /// How the comparisons' p values are corrected.
+    pub correction: &'static str,
+    /// The reference variant's label, when comparisons are made against one.
+    pub reference: Option<String>,
+    /// The variants.
+    pub variants: Vec<VariantReport>,
+    /// The comparisons.
+    pub comparisons: Vec<Comparison>,
 }
 
 impl Results {
     /// Empty results for a plan.
     pub fn new(plan: &Plan) -> Self {
         let c = &plan.config;
+        let evaluation = plan.evaluation.as_ref().map(|e| EvaluationInfo {
+            every: e.every,
+            episodes: e.episodes,
+            policy: if e.greedy { "greedy" } else { "sampled" },
+            checkpoints: e.checkpoints.clone(),
+            episode: if plan.spec.continuing {
+                "one window of the task's max_steps steps from a fresh start, scored as mean reward per step"
+            } else {
+                "from a fresh start to a terminal state or the task's max_steps"
+            },
+        });
         Results {
             title: c.title.clone(),
             task: plan.spec.kind,
             labels: plan.variants.iter().map(|v| v.label.clone()).collect(),
+            families: plan.variants.iter().map(|v| v.setup.algo).collect(),
             seeds: c.seeds as usize,
             steps: c.steps,
             master_seed: c.master_seed,
@@ -91,8 +301,10 @@ impl Results {
             threshold: c.threshold,
             detect: c.detect_difference,
             edges: bin_edges(c.steps, c.curve_points),
+            evaluation,
+            score_on: plan.score_on,
+            reference: plan.reference,
             jobs: vec![JobResults::default(); plan.job_count()],
-            cache: RefCell::new(vec![vec![None; c.curve_points as usize]; plan.variants.len()]),
         }
     }
 
@@ -106,6 +318,18 @@ impl Results {
         if let Some(j) = self.jobs.get_mut(job) {
             j.steps_done = j.steps_done.max(rec.end_step);
             j.episodes.push(rec);
+        }
+    }
+
+    /// Adds an evaluation checkpoint of a job (ignored for an unknown job
+    /// id, or when evaluation is off).
+    pub fn add_evaluation(&mut self, job: usize, rec: EvalRecord) {
+        if self.evaluation.is_none() {
+            return;
+        }
+        if let Some(j) = self.jobs.get_mut(job) {
+            j.steps_done = j.steps_done.max(rec.step);
+            j.evals.push(rec);
         }
     }
 
@@ -143,22 +367,36 @@ impl Results {
         &self.edges
     }
 
-    /// A job's episodes, progress and failure reason.
-    pub fn job_record(&self, id: usize) -> (&[EpisodeRecord], u64, Option<&str>) {
+    /// The evaluation checkpoints' steps (empty when evaluation is off).
+    pub fn checkpoints(&self) -> &[u64] {
+        self.evaluation.as_ref().map_or(&[], |e| &e.checkpoints)
+    }
+
+    /// The measure that scores and comparisons use.
+    pub fn score_on(&self) -> Measure {
+        self.score_on
+    }
+
+    /// A job's episodes, evaluations, progress and failure reason.
+    pub fn job_record(&self, id: usize) -> (&[EpisodeRecord], &[EvalRecord], u64, Option<&str>) {
         let j = &self.jobs[id];
-        (&j.episodes, j.steps_done, j.failed.as_deref())
+        (&j.episodes, &j.evals, j.steps_done, j.failed.as_deref())
     }
 
     fn job(&self, variant: usize, seed: usize) -> &JobResults {
         &self.jobs[variant * self.seeds + seed]
     }
 
-    /// Per-bin values of one seed (NaN where it has no data yet).
+    fn failed(&self, variant: usize, seed: usize) -> bool {
+        self.job(variant, seed).failed.is_some()
+    }
+
+    /// Per-bin training values of one seed (NaN where it has no data yet).
     pub fn seed_curve(&self, variant: usize, seed: usize) -> Vec<f64> {
         self.seed_curve_of(variant, seed, false)
     }
 
-    /// Per-bin base (or, with `shaped`, shaped) returns of one seed.
+    /// Per-bin base (or, with `shaped`, shaped) training returns of one seed.
     pub fn seed_curve_of(&self, variant: usize, seed: usize, shaped: bool) -> Vec<f64> {
         let j = self.job(variant, seed);
         let mut sums = vec![0.0; self.edges.len()];
@@ -182,116 +420,63 @@ impl Results {
         out
     }
 
-    /// The learning curve of a variant: per bin, the mean over seeds with a
-    /// percentile-bootstrap 95% interval, the IQM and the median.
+    /// Per-checkpoint evaluation returns of one seed (NaN where it has none;
+    /// empty when evaluation is off).
+    pub fn seed_eval_curve(&self, variant: usize, seed: usize) -> Vec<f64> {
+        let mut out = vec![f64::NAN; self.checkpoints().len()];
+        for r in &self.job(variant, seed).evals {
+            if let Some(slot) = out.get_mut(r.checkpoint as usize) {
+                *slot = r.mean_return;
+            }
+        }
+        out
+    }
+
+    fn across_seeds(&self, per_seed: &[Vec<f64>], steps: &[u64]) -> Vec<CurvePoint> {
+        let mut xs = Vec::with_capacity(per_seed.len());
+        steps
+            .iter()
+            .enumerate()
+            .map(|(b, &step)| {
+                xs.clear();
+                xs.extend(per_seed.iter().map(|c| c[b]).filter(|v| v.is_finite()));
+                point(step, &xs)
+            })
+            .collect()
+    }
+
+    /// The training curve of a variant: per bin, the mean over seeds with a
+    /// pointwise Student-t 95% interval, the IQM and the median.
     pub fn curve(&self, variant: usize) -> Vec<CurvePoint> {
         let per_seed: Vec<Vec<f64>> = (0..self.seeds).map(|s| self.seed_curve(variant, s)).collect();
-        let mut cache = self.cache.borrow_mut();
-        let mut xs = Vec::with_capacity(self.seeds);
-        self.edges
-            .iter()
-            .enumerate()
-            .map(|(b, &step)| {
-                xs.clear();
-                xs.extend(per_seed.iter().map(|c| c[b]).filter(|v| !v.is_nan()));
-                if let Some(hit) = &cache[variant][b] {
-                    if hit.values.len() == xs.len()
-                        && hit.values.iter().zip(&xs).all(|(a, b)| a.to_bits() == b.to_bits())
-                    {
-                        return hit.point;
-                    }
-                }
-                let mut rng = Stream::derive(self.master_seed, Purpose::Stats, variant as u64, b as u64);
-                let (lo, hi) = if xs.len() >= 2 {
-                    stats::bootstrap_mean_ci(&xs, 0.95, CURVE_RESAMPLES, &mut rng)
-                        .unwrap_or((f64::NAN, f64::NAN))
-                } else {
-                    (f64::NAN, f64::NAN)
-                };
-                let point = CurvePoint {
-                    step,
-                    mean: if xs.is_empty() { f64::NAN } else { stats::mean(&xs) },
-                    lo,
-                    hi,
-                    n: xs.len(),
-                    iqm: stats::iqm(&xs),
-                    median: stats::median(&xs),
-                };
-                cache[variant][b] = Some(CachedBin { values: xs.clone(), point });
-                point
-            })
-            .collect()
+        self.across_seeds(&per_seed, &self.edges)
     }
 
-    /// The curve of the shaped return (what the learner was trained on):
-    /// per bin the mean over seeds with a Student-t 95% interval (cheaper
-    /// than the bootstrap of [`Results::curve`]), the IQM and the median.
+    /// The curve of the shaped training return (what the learner was trained on).
     pub fn shaped_curve(&self, variant: usize) -> Vec<CurvePoint> {
         let per_seed: Vec<Vec<f64>> = (0..self.seeds).map(|s| self.seed_curve_of(variant, s, true)).collect();
-        let mut xs = Vec::with_capacity(self.seeds);
-        self.edges
-            .iter()
-            .enumerate()
-            .map(|(b, &step)| {
-                xs.clear();
-                xs.extend(per_seed.iter().map(|c| c[b]).filter(|v| !v.is_nan()));
-                let s = stats::summarize(&xs);
-                let (lo, hi) = s.ci95.unwrap_or((f64::NAN, f64::NAN));
-                CurvePoint {
-                    step,
-                    mean: s.mean,
-                    lo,
-                    hi,
-                    n: xs.len(),
-                    iqm: stats::iqm(&xs),
-                    median: stats::median(&xs),
-                }
-            })
-            .collect()
+        self.across_seeds(&per_seed, &self.edges)
     }
 
-    /// The reward-hacking signal of a variant (see
-    /// [`crate::reward::audit::trend`]): per seed, whether the shaped return
-    /// rose while the base return fell (or rose by less than half as much)
-    /// between the start and the end of the run; `flag` when more than half
-    /// of the seeds say so.
-    pub fn hacking(&self, variant: usize) -> Value {
+    /// The evaluation curve of a variant: one point per checkpoint (empty
+    /// when evaluation is off).
+    pub fn eval_curve(&self, variant: usize) -> Vec<CurvePoint> {
+        let per_seed: Vec<Vec<f64>> = (0..self.seeds).map(|s| self.seed_eval_curve(variant, s)).collect();
+        self.across_seeds(&per_seed, self.checkpoints())
+    }
+
+    /// The reward-hacking signal of a variant (see [`crate::experiment::hacking`]).
+    pub fn hacking(&self, variant: usize) -> Hacking {
         let trends: Vec<_> = (0..self.seeds)
-            .map(|s| {
-                crate::reward::audit::trend(&self.job(variant, s).episodes, self.steps, self.final_fraction)
-            })
+            .filter(|&s| !self.failed(variant, s))
+            .map(|s| trend(&self.job(variant, s).episodes, self.steps, self.final_fraction))
             .collect();
-        crate::reward::audit::hacking_json(&trends)
+        Hacking::of(&trends)
     }
 
-    /// Each seed's area under its curve, as the mean of its binned values
-    /// over the bins it has data for (equal-width bins, so this is the
-    /// normalised area); None without data or for a failed seed.
-    pub fn auc_per_seed(&self, variant: usize) -> Vec<Option<f64>> {
-        (0..self.seeds)
-            .map(|s| {
-                if self.job(variant, s).failed.is_some() {
-                    return None;
-                }
-                let c: Vec<f64> = self.seed_curve(variant, s).into_iter().filter(|v| !v.is_nan()).collect();
-                (!c.is_empty()).then(|| c.iter().sum::<f64>() / c.len() as f64)
-            })
-            .collect()
-    }
-
-    /// Each seed's steps to reach `threshold`: the upper edge of the first
-    /// bin whose value is at least the threshold (None if never reached).
-    pub fn steps_to_threshold(&self, variant: usize, threshold: f64) -> Vec<Option<u64>> {
-        (0..self.seeds)
-            .map(|s| {
-                let c = self.seed_curve(variant, s);
-                c.iter().position(|&v| v >= threshold).map(|b| self.edges[b])
-            })
-            .collect()
-    }
-
-    /// Each seed's final return (None when the seed finished no episode, or
-    /// failed: a diverged run has no final performance to report).
+    /// Each seed's final training return: the mean base return of the
+    /// episodes that ended in the last `final_fraction` of the budget. None
+    /// for a failed seed, or when no episode ended there.
     pub fn final_per_seed(&self, variant: usize) -> Vec<Option<f64>> {
         let from = self.steps as f64 * (1.0 - self.final_fraction);
         (0..self.seeds)
@@ -300,92 +485,239 @@ impl Results {
                 if job.failed.is_some() {
                     return None;
                 }
-                let eps = &job.episodes;
                 let tail: Vec<f64> =
-                    eps.iter().filter(|e| e.end_step as f64 > from).map(|e| e.base_return).collect();
-                if tail.is_empty() {
-                    eps.last().map(|e| e.base_return)
-                } else {
-                    Some(tail.iter().sum::<f64>() / tail.len() as f64)
-                }
+                    job.episodes.iter().filter(|e| e.end_step as f64 > from).map(|e| e.base_return).collect();
+                (!tail.is_empty()).then(|| tail.iter().sum::<f64>() / tail.len() as f64)
             })
             .collect()
     }
 
-    /// The summary JSON (what `critbox run` prints).
-    pub fn summary(&self) -> Value {
-        let num = |x: f64| if x.is_finite() { json!(x) } else { Value::Null };
-        let finals: Vec<Vec<f64>> =
-            (0..self.labels.len()).map(|v| self.final_per_seed(v).into_iter().flatten().collect()).collect();
-        let variants: Vec<Value> = (0..self.labels.len())
-            .map(|v| {
-                let per_seed = self.final_per_seed(v);
-                let fin = score(&finals[v], self.master_seed, 100 + v as u64, 0);
-                let auc: Vec<f64> = self.auc_per_seed(v).into_iter().flatten().collect();
-                let auc = score(&auc, self.master_seed, 200 + v as u64, 0);
-                let curve = self.curve(v);
-                let shaped = self.shaped_curve(v);
-                let failed: Vec<Value> = (0..self.seeds)
-                    .filter_map(|s| self.job(v, s).failed.as_ref().map(|r| json!({"seed": s, "reason": r})))
+    /// Each seed's final evaluation return: the mean over the checkpoints in
+    /// the last `final_fraction` of the budget (always at least the last
+    /// checkpoint). None for a failed seed, one that has not reached the
+    /// last checkpoint, or when evaluation is off.
+    pub fn eval_final_per_seed(&self, variant: usize) -> Vec<Option<f64>> {
+        let cps = self.checkpoints();
+        let from = self.steps as f64 * (1.0 - self.final_fraction);
+        (0..self.seeds)
+            .map(|s| {
+                if cps.is_empty() || self.failed(variant, s) {
+                    return None;
+                }
+                let c = self.seed_eval_curve(variant, s);
+                let tail: Vec<f64> = cps
+                    .iter()
+                    .zip(&c)
+                    .filter(|(&step, _)| step as f64 > from || step == self.steps)
+                    .map(|(_, &v)| v)
                     .collect();
-                let episodes: usize = (0..self.seeds).map(|s| self.job(v, s).episodes.len()).sum();
-                let reach = self.threshold.map_or(Value::Null, |t| {
-                    let steps = self.steps_to_threshold(v, t);
-                    let got: Vec<f64> = steps.iter().flatten().map(|&s| s as f64).collect();
-                    json!({
-                        "threshold": t,
-                        "reached": got.len(),
-                        "never": steps.len() - got.len(),
-                        "mean_steps": if got.is_empty() { Value::Null } else { num(stats::mean(&got)) },
-                        "median_steps": if got.is_empty() { Value::Null } else { num(stats::median(&got)) },
-                        "per_seed": steps,
-                    })
-                });
-                json!({
-                    "label": self.labels[v],
-                    "final_return": fin.to_json(),
-                    "per_seed_final": per_seed.iter().map(|f| f.map_or(Value::Null, num)).collect::<Vec<_>>(),
-                    "auc": auc.to_json(),
-                    "steps_to_threshold": reach,
-                    "episodes": episodes,
-                    "failed": failed,
-                    "hacking": self.hacking(v),
-                    "curve_shaped": {
-                        "mean": shaped.iter().map(|p| num(p.mean)).collect::<Vec<_>>(),
-                        "lo": shaped.iter().map(|p| num(p.lo)).collect::<Vec<_>>(),
-                        "hi": shaped.iter().map(|p| num(p.hi)).collect::<Vec<_>>(),
-                        "n": shaped.iter().map(|p| p.n).collect::<Vec<_>>(),
-                    },
-                    "curve": {
-                        "step": curve.iter().map(|p| p.step).collect::<Vec<_>>(),
-                        "mean": curve.iter().map(|p| num(p.mean)).collect::<Vec<_>>(),
-                        "lo": curve.iter().map(|p| num(p.lo)).collect::<Vec<_>>(),
-                        "hi": curve.iter().map(|p| num(p.hi)).collect::<Vec<_>>(),
-                        "iqm": curve.iter().map(|p| num(p.iqm)).collect::<Vec<_>>(),
-                        "median": curve.iter().map(|p| num(p.median)).collect::<Vec<_>>(),
-                        "n": curve.iter().map(|p| p.n).collect::<Vec<_>>(),
-                    },
-                })
+                tail.iter().all(|v| v.is_finite()).then(|| tail.iter().sum::<f64>() / tail.len() as f64)
             })
-            .collect();
-        let mut comparisons = Vec::new();
-        for a in 0..self.labels.len() {
-            for b in a + 1..self.labels.len() {
-                let (la, lb) = (&self.labels[a], &self.labels[b]);
-                let c = compare(a, b, la, lb, &finals[a], &finals[b], self.master_seed, self.detect);
-                comparisons.push(c.to_json(la, lb));
+            .collect()
+    }
+
+    /// Each seed's final value on the scored measure.
+    pub fn scored_per_seed(&self, variant: usize) -> Vec<Option<f64>> {
+        match self.score_on {
+            Measure::Training => self.final_per_seed(variant),
+            Measure::Evaluation => self.eval_final_per_seed(variant),
+        }
+    }
+
+    /// The common range of the scored measure's curve points that every
+    /// seed is averaged over for the area under the curve: on the training
+    /// curve from the first bin by which every seed of every variant that
+    /// has not failed has finished an episode, to the last bin; on the
+    /// evaluation curve every checkpoint. `(first, last)` indices.
+    fn auc_range(&self) -> (usize, usize) {
+        match self.score_on {
+            Measure::Evaluation => (0, self.checkpoints().len().saturating_sub(1)),
+            Measure::Training => {
+                let mut first = 0;
+                for v in 0..self.labels.len() {
+                    for s in (0..self.seeds).filter(|&s| !self.failed(v, s)) {
+                        let c = self.seed_curve(v, s);
+                        if let Some(b) = c.iter().position(|x| x.is_finite()) {
+                            first = first.max(b);
+                        }
+                    }
+                }
+                (first, self.edges.len() - 1)
             }
         }
-        json!({
-            "schema": SCHEMA,
-            "title": self.title,
-            "task": self.task,
-            "steps": self.steps,
-            "seeds": self.seeds,
-            "master_seed": self.master_seed,
-            "final_fraction": self.final_fraction,
-            "variants": variants,
-            "comparisons": comparisons,
-        })
+    }
+
+    /// Each seed's area under its scored curve: the mean of its values over
+    /// the common range (equal-width bins, so this is the normalised area).
+    /// None for a failed seed or one without data over the whole range.
+    pub fn auc_per_seed(&self, variant: usize) -> Vec<Option<f64>> {
+        let (first, last) = self.auc_range();
+        (0..self.seeds)
+            .map(|s| {
+                if self.failed(variant, s) {
+                    return None;
+                }
+                let c = match self.score_on {
+                    Measure::Training => self.seed_curve(variant, s),
+                    Measure::Evaluation => self.seed_eval_curve(variant, s),
+                };
+                let part = c.get(first..=last)?;
+                part.iter().all(|v| v.is_finite()).then(|| part.iter().sum::<f64>() / part.len() as f64)
+            })
+            .collect()
+    }
+
+    /// Each seed's steps to reach `threshold` on the scored measure: the
+    /// step of the first curve point at or above it (None if never reached,
+    /// and for a failed seed).
+    pub fn steps_to_threshold(&self, variant: usize, threshold: f64) -> Vec<Option<u64>> {
+        (0..self.seeds)
+            .map(|s| {
+                if self.failed(variant, s) {
+                    return None;
+                }
+                let (c, steps) = match self.score_on {
+                    Measure::Training => (self.seed_curve(variant, s), &self.edges[..]),
+                    Measure::Evaluation => (self.seed_eval_curve(variant, s), self.checkpoints()),
+                };
+                c.iter().position(|&v| v >= threshold).map(|b| steps[b])
+            })
+            .collect()
+    }
+
+    fn threshold_report(&self, variant: usize, t: f64) -> ThresholdReport {
+        let per_seed = self.steps_to_threshold(variant, t);
+        let reached = per_seed.iter().flatten().count();
+        let never = per_seed.len() - reached;
+        let mut sorted: Vec<f64> =
+            per_seed.iter().map(|s| s.map_or(f64::INFINITY, |s| s as f64)).collect::<Vec<_>>();
+        sorted.sort_by(f64::total_cmp);
+        let above = 2 * never >= per_seed.len() && never > 0;
+        let median = if above || sorted.is_empty() { f64::NAN } else { stats::quantile_sorted(&sorted, 0.5) };
+        let mean = if never == 0 && !sorted.is_empty() { stats::mean(&sorted) } else { f64::NAN };
+        ThresholdReport {
+            threshold: t,
+            reached,
+            never,
+            mean: Num(mean),
+            median: Num(median),
+            median_above_budget: above,
+            per_seed,
+        }
+    }
+
+    fn missing(&self, variant: usize, values: &[Option<f64>]) -> Vec<usize> {
+        (0..self.seeds).filter(|&s| values[s].is_none() && !self.failed(variant, s)).collect()
+    }
+
+    fn failed_seeds(&self, variant: usize) -> Vec<FailedSeed> {
+        (0..self.seeds)
+            .filter_map(|s| {
+                self.job(variant, s).failed.as_ref().map(|r| FailedSeed { seed: s, reason: r.clone() })
+            })
+            .collect()
+    }
+
+    /// The comparisons of the scored measure's final values.
+    pub fn comparisons(&self) -> Vec<Comparison> {
+        let entries: Vec<Entry<'_>> = (0..self.labels.len())
+            .map(|v| Entry {
+                label: &self.labels[v],
+                values: self.scored_per_seed(v).into_iter().flatten().collect(),
+                seeds: self.seeds,
+                failed: self.failed_seeds(v).into_iter().map(|f| (f.seed, f.reason)).collect(),
+                explores: matches!(self.families[v], Algo::OffPolicy | Algo::Deterministic),
+            })
+            .collect();
+        let pairs = pairs(self.labels.len(), self.reference);
+        compare_all(&entries, &pairs, self.score_on.name(), self.master_seed, self.detect)
+    }
+
+    fn variant_report(&self, v: usize) -> VariantReport {
+        let finals = self.final_per_seed(v);
+        let fin = score(
+            &finals.iter().flatten().copied().collect::<Vec<_>>(),
+            self.missing(v, &finals),
+            self.master_seed,
+            100 + v as u64,
+            0,
+        );
+        let evals = self.eval_final_per_seed(v);
+        let eval_return = self.evaluation.as_ref().map(|_| {
+            score(
+                &evals.iter().flatten().copied().collect::<Vec<_>>(),
+                self.missing(v, &evals),
+                self.master_seed,
+                300 + v as u64,
+                0,
+            )
+        });
+        let aucs = self.auc_per_seed(v);
+        let (first, last) = self.auc_range();
+        let steps_of = |i: usize| match self.score_on {
+            Measure::Training => (if i == 0 { 0 } else { self.edges[i - 1] }, self.edges[last]),
+            Measure::Evaluation => {
+                let c = self.checkpoints();
+                (c.get(i).copied().unwrap_or(0), c.get(last).copied().unwrap_or(0))
+            }
+        };
+        let (from_step, to_step) = steps_of(first);
+        let auc = AucReport {
+            score: score(
+                &aucs.iter().flatten().copied().collect::<Vec<_>>(),
+                self.missing(v, &aucs),
+                self.master_seed,
+                200 + v as u64,
+                0,
+            ),
+            from_step,
+            to_step,
+        };
+        let shaped = self.shaped_curve(v);
+        VariantReport {
+            label: self.labels[v].clone(),
+            family: self.families[v].name(),
+            final_return: fin,
+            eval_return,
+            per_seed_final: finals.iter().map(|f| Num(f.unwrap_or(f64::NAN))).collect(),
+            per_seed_eval: evals.iter().map(|f| Num(f.unwrap_or(f64::NAN))).collect(),
+            auc,
+            steps_to_threshold: self.threshold.map(|t| self.threshold_report(v, t)),
+            episodes: (0..self.seeds).map(|s| self.job(v, s).episodes.len()).sum(),
+            failed: self.failed_seeds(v),
+            hacking: self.hacking(v),
+            curve_shaped: ShapedCurveReport {
+                mean: nums(&shaped.iter().map(|p| p.mean).collect::<Vec<_>>()),
+                lo: nums(&shaped.iter().map(|p| p.lo).collect::<Vec<_>>()),
+                hi: nums(&shaped.iter().map(|p| p.hi).collect::<Vec<_>>()),
+                n: shaped.iter().map(|p| p.n).collect(),
+            },
+            curve: CurveReport::of(&self.curve(v)),
+            eval_curve: self.evaluation.as_ref().map(|_| CurveReport::of(&self.eval_curve(v))),
+        }
+    }
+
+    /// The summary report (what `critbox run` prints).
+    pub fn report(&self) -> Summary {
+        Summary {
+            schema: SCHEMA,
+            title: self.title.clone(),
+            task: self.task,
+            steps: self.steps,
+            seeds: self.seeds,
+            master_seed: self.master_seed,
+            final_fraction: self.final_fraction,
+            score_on: self.score_on.name(),
+            evaluation: self.evaluation.clone(),
+            correction: "holm",
+            reference: self.reference.map(|r| self.labels[r].clone()),
+            variants: (0..self.labels.len()).map(|v| self.variant_report(v)).collect(),
+            comparisons: self.comparisons(),
+        }
+    }
+
+    /// The summary as JSON.
+    pub fn summary(&self) -> serde_json::Value {
+        crate::report::to_value(&self.report())
     }
 }

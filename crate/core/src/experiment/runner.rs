@@ -34,6 +34,21 @@ pub struct EpisodeRecord {
     pub truncated: bool,
 }
 
+/// One evaluation checkpoint: the learned policy, frozen, run for the
+/// plan's evaluation episodes.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct EvalRecord {
+    /// Index of the checkpoint in the plan's list.
+    pub checkpoint: u32,
+    /// Job steps done when it was taken (0 before any learning).
+    pub step: u64,
+    /// Mean base return of its episodes (on a continuing task, of the mean
+    /// reward per step over each window).
+    pub mean_return: f64,
+    /// Episodes run.
+    pub episodes: u32,
+}
+
 /// Where a job stands.
 #[derive(Clone, Debug, PartialEq)]
 pub enum JobStatus {
@@ -125,6 +140,24 @@ pub struct Job {
     unread: usize,
     bin_edges: Vec<u64>,
     diag: Vec<DiagSums>,
+    eval: Option<Evaluator>,
+}
+
+/// What a job needs to run evaluation episodes: its own copy of the task (so
+/// the training episode in progress is untouched) and buffers.
+struct Evaluator {
+    task: Box<dyn Task>,
+    checkpoints: Vec<u64>,
+    next: usize,
+    episodes: u32,
+    greedy: bool,
+    master: u64,
+    seed: u64,
+    obs: Vec<f64>,
+    next_obs: Vec<f64>,
+    action: ActionBuf,
+    records: Vec<EvalRecord>,
+    unread: usize,
 }
 
 /// The upper step edges of `points` equal bins over `steps` steps: bin `b`
@@ -150,11 +183,25 @@ impl Job {
         let mut agent_rng = Stream::derive(cfg.master_seed, Purpose::Agent, variant as u64, seed as u64);
         let learner = build_learner_with(&plan.variants[variant].setup, &spec, &mut agent_rng)
             .expect("a validated plan's learner builds");
-        let gamma = plan.variants[variant].setup.discount.unwrap_or(spec.default_discount);
+        let gamma = plan.variants[variant].setup.shaping_discount(&spec);
         let shaper = Shaper::new(&plan.variants[variant].reward, &spec, gamma)
             .expect("a validated plan's reward compiles");
         let n_obs = spec.state_vars.len();
         let edges = bin_edges(cfg.steps, cfg.curve_points);
+        let eval = plan.evaluation.as_ref().map(|e| Evaluator {
+            task: plan.make_task(),
+            checkpoints: e.checkpoints.clone(),
+            next: 0,
+            episodes: e.episodes,
+            greedy: e.greedy,
+            master: cfg.master_seed,
+            seed: seed as u64,
+            obs: vec![0.0; n_obs],
+            next_obs: vec![0.0; n_obs],
+            action: ActionBuf::for_spec(&spec),
+            records: Vec::new(),
+            unread: 0,
+        });
         Job {
             id,
             task,
@@ -180,6 +227,7 @@ impl Job {
             unread: 0,
             diag: vec![DiagSums::default(); edges.len()],
             bin_edges: edges,
+            eval,
         }
     }
 
@@ -214,6 +262,25 @@ impl Job {
         &self.episodes
     }
 
+    /// Evaluation checkpoints taken since the last call (the records the
+    /// previous call returned are dropped first, as with
+    /// [`Job::take_new_episodes`]); empty when evaluation is off.
+    pub fn take_new_evaluations(&mut self) -> &[EvalRecord] {
+        match &mut self.eval {
+            None => &[],
+            Some(e) => {
+                e.records.drain(..e.unread);
+                e.unread = e.records.len();
+                &e.records
+            }
+        }
+    }
+
+    /// The evaluation checkpoints the job still holds.
+    pub fn evaluations(&self) -> &[EvalRecord] {
+        self.eval.as_ref().map_or(&[], |e| &e.records)
+    }
+
     /// Diagnostic sums per curve bin.
     pub fn diagnostics(&self) -> &[DiagSums] {
         &self.diag
@@ -228,22 +295,54 @@ impl Job {
     /// learner fails); returns the steps taken.
     pub fn advance(&mut self, n: u64) -> u64 {
         let start = self.steps_done;
-        while self.steps_done - start < n {
-            if self.status != JobStatus::Running {
+        while self.status == JobStatus::Running {
+            // A checkpoint is taken as soon as its step count is reached,
+            // whatever the chunk size: evaluation changes nothing the
+            // training depends on, so when it runs cannot matter.
+            if let Err(reason) = self.evaluate_due() {
+                self.status = JobStatus::Failed(reason);
                 break;
             }
             if self.steps_done >= self.budget {
                 self.status = JobStatus::Done;
                 break;
             }
+            if self.steps_done - start >= n {
+                break;
+            }
             if let Err(reason) = self.step() {
                 self.status = JobStatus::Failed(format!("step {}: {reason}", self.steps_done));
             }
         }
-        if self.status == JobStatus::Running && self.steps_done >= self.budget {
-            self.status = JobStatus::Done;
-        }
         self.steps_done - start
+    }
+
+    /// Runs the evaluation of the next checkpoint if the job has reached it.
+    fn evaluate_due(&mut self) -> Result<(), String> {
+        let Some(e) = &mut self.eval else { return Ok(()) };
+        if e.next >= e.checkpoints.len() || e.checkpoints[e.next] != self.steps_done {
+            return Ok(());
+        }
+        let k = e.next;
+        e.next += 1;
+        let mut total = 0.0;
+        for ep in 0..e.episodes {
+            let r = evaluation_episode(e, self.learner.as_mut(), k as u64, u64::from(ep), self.continuing);
+            if !r.is_finite() {
+                return Err(format!(
+                    "evaluation at step {}: episode {ep} of the learned policy returned {r}",
+                    self.steps_done
+                ));
+            }
+            total += r;
+        }
+        e.records.push(EvalRecord {
+            checkpoint: k as u32,
+            step: self.steps_done,
+            mean_return: total / f64::from(e.episodes),
+            episodes: e.episodes,
+        });
+        Ok(())
     }
 
     fn step(&mut self) -> Result<(), String> {
@@ -261,6 +360,9 @@ impl Job {
             self.ep_shaped = 0.0;
         }
         let outcome = self.task.step(self.action.as_action(), &mut self.task_rng, &mut self.next_obs);
+        if !outcome.reward.is_finite() {
+            return Err(format!("the task's own reward was {} (check the task's settings)", outcome.reward));
+        }
         let next_id = self.task.state_id();
         self.steps_done += 1;
         self.ep_len += 1;
@@ -330,6 +432,49 @@ impl Job {
             self.obs_id = next_id;
         }
         Ok(())
+    }
+}
+
+/// One evaluation episode of the frozen learned policy at checkpoint `k`;
+/// returns its base return (on a continuing task, the mean reward per step
+/// over one window of `max_steps` steps). The task and action streams are
+/// derived from (master seed, seed index, checkpoint, episode) and not from
+/// the variant, so every variant's episode `ep` at checkpoint `k` of a seed
+/// index starts from the same state and draws the same task noise for as
+/// long as the steps line up.
+fn evaluation_episode(
+    e: &mut Evaluator,
+    learner: &mut dyn Learner,
+    k: u64,
+    ep: u64,
+    continuing: bool,
+) -> f64 {
+    let key = (k << 20) | ep;
+    let mut task_rng = Stream::derive(e.master, Purpose::EvalTask, key, e.seed);
+    let mut agent_rng = Stream::derive(e.master, Purpose::EvalAgent, key, e.seed);
+    let max_len = e.task.spec().max_steps;
+    e.task.reset(&mut task_rng, &mut e.obs);
+    let mut total = 0.0;
+    let mut len = 0u32;
+    while len < max_len {
+        let obs = Obs { values: &e.obs, id: e.task.state_id() };
+        if e.greedy {
+            learner.best_action(obs, &mut e.action);
+        } else {
+            learner.act_learned(obs, &mut agent_rng, &mut e.action);
+        }
+        let out = e.task.step(e.action.as_action(), &mut task_rng, &mut e.next_obs);
+        total += out.reward;
+        len += 1;
+        if out.terminated {
+            break;
+        }
+        std::mem::swap(&mut e.obs, &mut e.next_obs);
+    }
+    if continuing {
+        total / f64::from(len.max(1))
+    } else {
+        total
     }
 }
 

@@ -123,6 +123,10 @@ impl Learner for A2c {
         Ok(StepDiag::on_policy(delta, entropy, actor_norm, critic_norm))
     }
 
+    fn act_learned(&mut self, obs: Obs<'_>, rng: &mut Stream, out: &mut ActionBuf) {
+        self.actor.sample(obs, rng, out);
+    }
+
     fn best_action(&mut self, obs: Obs<'_>, out: &mut ActionBuf) {
         self.actor.best_action(obs, out);
     }

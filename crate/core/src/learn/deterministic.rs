@@ -15,7 +15,8 @@
 //! Options after Lillicrap et al. (2016, DDPG): a replay buffer of the last
 //! `replay.capacity` transitions, from which `replay.batch` are drawn
 //! uniformly at every step once the buffer holds a batch (one optimizer
-//! step per batch for the critic, then for the actor); and target copies
+//! step per batch for the critic, then for the actor, each along the mean
+//! of the batch's directions); and target copies
 //! `Q'`, `μ'` soft-updated by `θ' ← τ θ + (1 − τ) θ'` after each step
 //! (`target_tau = 1` means no copies: `Q' = Q`, `μ' = μ`). Without replay
 //! each transition is learned from once, as it comes.
@@ -200,10 +201,14 @@ impl Deterministic {
         self.critic.eval(Obs { values: &self.joint, id: None })[0]
     }
 
-    /// One critic step and one actor step over the transitions `picks` of `buf`.
+    /// One critic step and one actor step over the transitions `picks` of
+    /// `buf`, each along the *mean* of the batch's directions (as in
+    /// minibatch DPG, Lillicrap et al. 2016, Algorithm 1), so the step
+    /// sizes mean the same whatever the batch size.
     fn update(&mut self, from_replay: bool) -> Result<(f64, f64, f64), LearnError> {
         let buf = if from_replay { self.replay.as_ref().expect("replay") } else { &self.current };
         let n = self.n_obs;
+        let inv = 1.0 / self.picks.len() as f64;
         let mut td_sum = 0.0;
         for k in 0..self.picks.len() {
             let i = self.picks[k];
@@ -232,7 +237,7 @@ impl Deterministic {
             let joint = Obs { values: &self.joint, id: None };
             let delta = finite("TD error", target - self.critic.eval(joint)[0])?;
             td_sum += delta;
-            self.critic.accumulate(joint, &[1.0], delta);
+            self.critic.accumulate(joint, &[1.0], delta * inv);
         }
         let critic_norm = finite("critic update", self.critic.apply())?;
         for k in 0..self.picks.len() {
@@ -242,6 +247,9 @@ impl Deterministic {
             self.joint[..n].copy_from_slice(s.values);
             self.joint[n..].copy_from_slice(&self.mu);
             self.critic.net.input_grad(Obs { values: &self.joint, id: None }, &[1.0], &mut self.dq);
+            for d in &mut self.dq[n..] {
+                *d *= inv;
+            }
             self.actor.accumulate(s, &self.dq[n..]);
         }
         let actor_norm = finite("actor update", self.actor.net.apply())?;
@@ -300,6 +308,11 @@ impl Learner for Deterministic {
         })
     }
 
+    /// The actor's action `clip(μ(s))`, without exploration noise.
+    fn act_learned(&mut self, obs: Obs<'_>, _rng: &mut Stream, out: &mut ActionBuf) {
+        self.best_action(obs, out);
+    }
+
     fn best_action(&mut self, obs: Obs<'_>, out: &mut ActionBuf) {
         if let ActionBuf::Vector(a) = out {
             self.actor.mean_into(obs, a);
@@ -313,5 +326,52 @@ impl Learner for Deterministic {
         let q = self.q(obs, &mu);
         self.mu = mu;
         Some(q)
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::learn::ReplayConfig;
+    use crate::task::lqr::{Lqr, LqrConfig};
+    use crate::task::Task;
+
+    fn learner(capacity: u32, batch: u32) -> Deterministic {
+        let task = Lqr::new(LqrConfig::default()).unwrap();
+        let setup = LearnerSetup {
+            algo: crate::learn::Algo::Deterministic,
+            replay: ReplayConfig { capacity, batch },
+            ..LearnerSetup::default()
+        };
+        Deterministic::new(&setup, task.spec(), &mut Stream::from_seed(3))
+    }
+
+    #[test]
+    fn a_batch_of_copies_moves_the_weights_as_one_transition_does() {
+        // Minibatch DPG (Lillicrap et al. 2016, Algorithm 1) follows the mean of
+        // the batch's gradients: a batch of 16 copies of one transition must give
+        // the same step as that transition alone (summing would give 16 times it).
+        let (obs, next, a) = ([1.5], [0.7], [0.4]);
+        let t = Transition {
+            obs: Obs { values: &obs, id: None },
+            action: Action::Vector(&a),
+            reward: -2.41,
+            next: Obs { values: &next, id: None },
+            next_action: None,
+            terminated: false,
+            truncated: false,
+        };
+        let mut one = learner(1, 1);
+        let mut many = learner(16, 16);
+        let mut rng = Stream::from_seed(9);
+        one.learn(&t, &mut rng).unwrap();
+        for _ in 0..16 {
+            many.learn(&t, &mut rng).unwrap();
+        }
+        let close =
+            |x: &[f64], y: &[f64]| x.iter().zip(y).all(|(p, q)| (p - q).abs() <= 1e-12 * (1.0 + p.abs()));
+        assert!(close(one.actor.net.net.params(), many.actor.net.net.params()));
+        assert!(close(one.critic.net.params(), many.critic.net.params()));
+        assert!(one.critic.net.params().iter().any(|&w| w != 0.0), "the step moved the critic");
     }
 }

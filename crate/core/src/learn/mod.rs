@@ -151,6 +151,13 @@ pub trait Learner: Send {
     fn act(&mut self, obs: Obs<'_>, rng: &mut Stream, out: &mut ActionBuf);
     /// Learns from one transition.
     fn learn(&mut self, t: &Transition<'_>, rng: &mut Stream) -> Result<StepDiag, LearnError>;
+    /// Samples an action of the learned policy at `obs` into `out`, for
+    /// evaluation episodes: the target policy of an off-policy learner, the
+    /// actor without exploration noise for the deterministic learner, the
+    /// policy itself for the others. It changes nothing the learner's own
+    /// steps depend on (no stored samples, no learning state), so evaluating
+    /// between two training steps leaves training exactly as it was.
+    fn act_learned(&mut self, obs: Obs<'_>, rng: &mut Stream, out: &mut ActionBuf);
     /// The action the learned (target) policy prefers at `obs`, without
     /// exploration: the most probable action, the squashed Gaussian mean, or
     /// the clipped deterministic action.

@@ -263,6 +263,10 @@ impl Learner for OffPolicy {
         self.learn_weighted(t, log_pi, log_b)
     }
 
+    fn act_learned(&mut self, obs: Obs<'_>, rng: &mut Stream, out: &mut ActionBuf) {
+        self.target.sample(obs, rng, out);
+    }
+
     fn best_action(&mut self, obs: Obs<'_>, out: &mut ActionBuf) {
         self.target.best_action(obs, out);
     }

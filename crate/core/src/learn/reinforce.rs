@@ -3,14 +3,20 @@
 //! Williams (1992); Sutton & Barto (2018), Sections 13.3 and 13.4. The
 //! learner stores the episode (the buffer holds the task's `max_steps`
 //! steps; a longer episode driven from outside is cut there and treated as
-//! truncated). At the episode's end it computes the returns
-//! `G_t = r_t + γ G_{t+1}` (with `G_T = 0` after a termination, or the
-//! critic's `V(s_T)` after a truncation when a learned value exists) and
+//! truncated). At the episode's end it computes the returns-to-go
+//! `G_t = r_t + γ G_{t+1}` with `G_T = 0`, after a termination *and* after a
+//! time-limit cut, whatever the baseline: every baseline then estimates the
+//! same objective (the discounted return over at most `max_steps` steps),
+//! so a baseline comparison changes only the variance, never the target. It
 //! takes one actor step along `Σ_t (G_t − b_t) ∇ log π(a_t|s_t)`, plus an
-//! optional entropy bonus. As in the other learners the `γ^t` factor is
-//! left out. Baselines ([`Baseline`]):
+//! optional entropy bonus. As in the other learners the `γ^t` factor of the
+//! discounted policy gradient (Sutton & Barto 2018, Section 13.3) is left
+//! out. Baselines ([`Baseline`]):
 //! - `none`: `b_t = 0`;
-//! - `average`: an exponentially weighted average of past returns `G_t`;
+//! - `average`: a constant, the exponentially weighted average over past
+//!   episodes (rate `baseline_rate`, one update per episode) of each
+//!   episode's mean return-to-go `(1/T) Σ_t G_t`: the average of `G_t` over
+//!   the steps of recent episodes, each episode weighted alike;
 //! - `value`: a learned `V(s_t)`, fitted to the returns by one critic step
 //!   along `Σ_t (G_t − V(s_t)) ∇V(s_t)` per episode;
 //! - `optimal`: the constant that minimises the variance of the episode's
@@ -77,6 +83,16 @@ impl EpisodeEstimate {
     }
 }
 
+/// Greensmith, Bartlett & Baxter's (2004) variance-minimising constant
+/// baseline `b* = E[S·A] / E[‖S‖²]` from estimates of the two expectations
+/// over episodes (each episode's `S·A` and `S·S`, with `S = Σ_t ∇log π_t`
+/// and `A = Σ_t G_t ∇log π_t`: the trajectory form, whose cross terms
+/// between steps count). `None` while `E[‖S‖²]` is not positive. The
+/// learner and the gradient-variance probe both use it.
+pub fn optimal_constant(mean_sa: f64, mean_ss: f64) -> Option<f64> {
+    (mean_ss > 0.0).then(|| mean_sa / mean_ss)
+}
+
 /// REINFORCE with a baseline.
 pub struct Reinforce {
     actor: StochasticPolicy,
@@ -122,15 +138,15 @@ impl Reinforce {
     pub fn constant_baseline(&self) -> f64 {
         match self.baseline {
             Baseline::Average => self.average,
-            Baseline::Optimal if self.mean_ss > 0.0 => self.mean_sa / self.mean_ss,
+            Baseline::Optimal => optimal_constant(self.mean_sa, self.mean_ss).unwrap_or(0.0),
             _ => 0.0,
         }
     }
 
     /// The update at an episode's end; returns (mean of G − b, actor norm, critic norm).
-    fn finish(&mut self, bootstrap: f64) -> Result<(f64, f64, f64), LearnError> {
+    fn finish(&mut self) -> Result<(f64, f64, f64), LearnError> {
         let len = self.episode.len();
-        let mut g = bootstrap;
+        let mut g = 0.0;
         for t in (0..len).rev() {
             g = self.episode.reward[t] + self.gamma * g;
             self.episode.y[t] = g;
@@ -167,10 +183,9 @@ impl Reinforce {
             critic_norm = c.apply();
         }
         let actor_norm = self.actor.apply();
-        if self.baseline == Baseline::Average {
-            for t in 0..len {
-                self.average += self.rate * (self.episode.y[t] - self.average);
-            }
+        if self.baseline == Baseline::Average && len > 0 {
+            let mean_g = self.episode.y[..len].iter().sum::<f64>() / len as f64;
+            self.average += self.rate * (mean_g - self.average);
         }
         self.episode.clear();
         Ok((adv_sum / len.max(1) as f64, actor_norm, critic_norm))
@@ -188,11 +203,7 @@ impl Learner for Reinforce {
         if !(t.terminated || t.truncated || self.episode.is_full()) {
             return Ok(StepDiag { entropy, ..StepDiag::default() });
         }
-        let bootstrap = match (&mut self.critic, t.terminated) {
-            (Some(c), false) => c.eval(t.next)[0],
-            _ => 0.0,
-        };
-        let (adv, actor_norm, critic_norm) = self.finish(bootstrap)?;
+        let (adv, actor_norm, critic_norm) = self.finish()?;
         Ok(StepDiag {
             td_error: finite("advantage", adv)?,
             entropy,
@@ -200,6 +211,10 @@ impl Learner for Reinforce {
             critic_grad_norm: critic_norm,
             ..StepDiag::default()
         })
+    }
+
+    fn act_learned(&mut self, obs: Obs<'_>, rng: &mut Stream, out: &mut ActionBuf) {
+        self.actor.sample(obs, rng, out);
     }
 
     fn best_action(&mut self, obs: Obs<'_>, out: &mut ActionBuf) {
@@ -269,6 +284,83 @@ mod tests {
             let var = p[0] * x[0] * x[0] + p[1] * x[1] * x[1] - mean * mean;
             assert!((mean - 0.16).abs() < 1e-12, "b = {b}: mean {mean}");
             assert!((var - want_var).abs() < 1e-12, "b = {b}: variance {var}");
+        }
+    }
+
+    /// A corridor learner (Sutton & Barto 2018, Example 13.1) with `baseline`
+    /// and an episode limit of `max_steps`.
+    fn corridor_learner(baseline: Baseline, max_steps: u32) -> (ShortCorridor, Reinforce) {
+        let task = ShortCorridor::new(CorridorConfig { max_steps }).unwrap();
+        let setup = LearnerSetup {
+            algo: Algo::Reinforce,
+            baseline,
+            baseline_rate: 1.0,
+            actor_step: 1e-3,
+            critic_step: 1e-3,
+            ..LearnerSetup::default()
+        };
+        let l = Reinforce::new(&setup, task.spec(), &mut Stream::from_seed(0));
+        (task, l)
+    }
+
+    /// Feeds the learner one episode of `rewards` at the corridor's one
+    /// observation; the last step is a termination or a time-limit cut.
+    fn feed(l: &mut Reinforce, rewards: &[f64], terminated: bool) {
+        let obs = [1.0];
+        let o = Obs { values: &obs, id: None };
+        let mut rng = Stream::from_seed(1);
+        for (t, &r) in rewards.iter().enumerate() {
+            let last = t + 1 == rewards.len();
+            let tr = Transition {
+                obs: o,
+                action: Action::Index(1),
+                reward: r,
+                next: o,
+                next_action: (!(last && terminated)).then_some(Action::Index(1)),
+                terminated: last && terminated,
+                truncated: last && !terminated,
+            };
+            l.learn(&tr, &mut rng).unwrap();
+        }
+    }
+
+    #[test]
+    fn the_average_baseline_weights_each_episode_alike() {
+        // The documented rule (common practice, no source): one update per
+        // episode towards its mean return-to-go. With γ = 1 and rewards −1, −1, −1,
+        // −1 the returns-to-go are −4, −3, −2, −1 with mean −2.5; at rate 1 the
+        // baseline is exactly that. A per-step update in time order would end at
+        // the last step's −1.
+        let (_, mut l) = corridor_learner(Baseline::Average, 1000);
+        l.gamma = 1.0;
+        feed(&mut l, &[-1.0; 4], true);
+        assert_eq!(l.constant_baseline(), -2.5);
+        feed(&mut l, &[-1.0; 2], true);
+        assert_eq!(l.constant_baseline(), -1.5);
+    }
+
+    #[test]
+    fn every_baseline_uses_the_same_return_at_a_time_limit() {
+        // A baseline changes the variance of the estimate, never its target
+        // (Greensmith, Bartlett & Baxter 2004, Section 3): the returns-to-go after
+        // a time-limit cut must not depend on whether the learner keeps a value.
+        // With a critic that is far from 0, a bootstrap from V(s_T) would show.
+        let rewards = [-1.0, -1.0, -1.0];
+        let mut ys = Vec::new();
+        for baseline in [Baseline::None, Baseline::Average, Baseline::Value, Baseline::Optimal] {
+            let (_, mut l) = corridor_learner(baseline, 3);
+            if let Some(c) = &mut l.critic {
+                c.net.params_mut().iter_mut().for_each(|w| *w = -50.0);
+            }
+            feed(&mut l, &rewards, false);
+            ys.push(l.episode.y[..3].to_vec());
+        }
+        // The corridor's discount is 1.
+        let want = [-3.0, -2.0, -1.0];
+        for y in &ys {
+            for (a, b) in y.iter().zip(want) {
+                assert!((a - b).abs() < 1e-12, "{ys:?}");
+            }
         }
     }
 

@@ -59,7 +59,8 @@ pub enum Baseline {
     /// No baseline.
     #[default]
     None,
-    /// A running (exponentially weighted) average of past returns.
+    /// A constant: the exponentially weighted average, over past episodes,
+    /// of each episode's mean return-to-go (one update per episode).
     Average,
     /// A learned state value (the critic), fitted to the returns.
     Value,
@@ -337,6 +338,18 @@ impl LearnerSetup {
     /// The discount on `spec`.
     pub fn discount_on(&self, spec: &TaskSpec) -> f64 {
         self.discount.unwrap_or(spec.default_discount)
+    }
+
+    /// The discount of potential shaping `γΦ(s') − Φ(s)` and of `gamma` in
+    /// reward formulas: the learner's own, except 1 for `"differential"`,
+    /// which optimises the average reward (with γ < 1 the shaping term would
+    /// add `−(1 − γ)·E[Φ]` per step, which depends on the policy).
+    pub fn shaping_discount(&self, spec: &TaskSpec) -> f64 {
+        if self.algo == Algo::Differential {
+            1.0
+        } else {
+            self.discount_on(spec)
+        }
     }
 
     /// Checks ranges and fit to the task; returns every problem found.

@@ -235,6 +235,31 @@ impl StochasticPolicy {
         }
     }
 
+    /// Samples an action at `obs` into `out` like [`StochasticPolicy::act`],
+    /// but remembers nothing: the Gaussian's record of recent samples (which
+    /// lets a learner recover the pre-squash value of the action it is about
+    /// to learn from) is left alone. Evaluation episodes use it, so they
+    /// cannot change what the learner does next.
+    pub fn sample(&mut self, obs: Obs<'_>, rng: &mut Stream, out: &mut ActionBuf) {
+        match &mut self.kind {
+            Kind::Softmax => {
+                let prefs = self.net.eval(obs);
+                softmax(prefs, &mut self.probs);
+                *out = ActionBuf::Index(rng.categorical(&self.probs));
+            }
+            Kind::Gaussian(g) => {
+                let mu = self.net.net.eval(obs);
+                let ActionBuf::Vector(a) = out else {
+                    panic!("a Gaussian policy needs a continuous action buffer");
+                };
+                for j in 0..a.len() {
+                    let u = mu[j] + libm::exp(g.log_std[j]) * rng.normal();
+                    a[j] = g.squash.squash(j, u);
+                }
+            }
+        }
+    }
+
     /// The most likely action: the first of the largest preferences, or the
     /// squashed mean.
     pub fn best_action(&mut self, obs: Obs<'_>, out: &mut ActionBuf) {

@@ -18,16 +18,13 @@
 //! many steps to go, and the policy's expected base return over that many
 //! steps. The report says which method it used.
 //!
-//! On every task, [`trend`] gives the reward-hacking signal of a run: between
-//! the start and the end of the run the shaped return rose while the base
-//! return fell, or rose by less than half as much (most of the gain is
-//! reward the task does not pay).
+//! The run's reward-hacking signal, which applies on every task, is the
+//! experiment's ([`crate::experiment::hacking`]).
 
 use serde_json::{json, Value};
 
 use super::{Mode, RewardConfig, Shaper, StepInput};
 use crate::exact;
-use crate::experiment::runner::EpisodeRecord;
 use crate::experiment::Plan;
 use crate::learn::LearnerSetup;
 use crate::task::{Action, FiniteModel, Task};
@@ -60,6 +57,9 @@ pub enum Method {
     ValueIteration,
     /// Values over the given number of steps.
     FiniteHorizon(u32),
+    /// Average reward per step and bias (relative values), for a learner
+    /// that optimises the average reward; the values are gains.
+    RelativeValueIteration,
 }
 
 /// The exact comparison of two models with the same states and transitions.
@@ -275,6 +275,31 @@ pub fn compare(base: &FiniteModel, shaped: &FiniteModel, gamma: f64, horizon: u3
     )
 }
 
+/// Compares the average-reward-optimal policies of a continuing model under
+/// its base and its shaped rewards ([`exact::relative_value_iteration`]): the
+/// states whose greedy action sets (with respect to the bias) differ, and the
+/// base average reward lost by following the shaped-optimal policy (uniform
+/// over its greedy actions), [`exact::average_reward`]. Potential-based
+/// shaping with γ = 1, `Φ(s') − Φ(s)`, sums to zero around every loop, so
+/// it changes no policy's average reward and keeps the optimal policies.
+/// `Err` when relative value iteration does not settle (say, a model that is
+/// not unichain).
+pub fn compare_average(base: &FiniteModel, shaped: &FiniteModel) -> Result<Comparison, String> {
+    let scale = reward_scale(base).max(reward_scale(shaped));
+    let tol = 1e-11 * scale;
+    let sweeps = (300_000_000 / work_per_sweep(base)).clamp(2_000, 200_000);
+    let solve = |m: &FiniteModel| {
+        exact::relative_value_iteration(m, tol, sweeps)
+            .map_err(|e| format!("the average-reward audit found no solution ({e}); is the model unichain?"))
+    };
+    let (ob, os) = (solve(base)?, solve(shaped)?);
+    let base_greedy = greedy_sets(base, &exact::q_values(base, &ob.bias, 1.0));
+    let shaped_greedy = greedy_sets(shaped, &exact::q_values(shaped, &os.bias, 1.0));
+    let pi = uniform_policy(base, &shaped_greedy);
+    let g_pi = exact::average_reward(base, &pi).map_err(|e| format!("the shaped-optimal policy: {e}"))?;
+    Ok(finish(base, Method::RelativeValueIteration, base_greedy, shaped_greedy, ob.gain, g_pi, false, scale))
+}
+
 #[allow(clippy::too_many_arguments)]
 fn finish(
     m: &FiniteModel,
@@ -363,7 +388,7 @@ pub struct RewardAudit {
     pub mode: Mode,
     /// The formula in canonical form.
     pub formula: String,
-    /// The discount the audit used (the learner's).
+    /// The discount the audit used (the learner's; 1 for the average reward).
     pub discount: f64,
     /// Whether the reward keeps the optimal policies by construction.
     pub potential_based: bool,
@@ -371,8 +396,38 @@ pub struct RewardAudit {
     pub exact: Result<Comparison, String>,
 }
 
-/// Audits a reward on a task with a learner's discount.
-pub fn audit_reward(task: &dyn Task, reward: &RewardConfig, gamma: f64) -> RewardAudit {
+/// What a learner optimises, for the audit.
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub enum Objective {
+    /// The discounted return with this discount.
+    Discounted(f64),
+    /// The average reward per step (shaping then uses γ = 1).
+    AverageReward,
+}
+
+impl Objective {
+    /// The objective of a learner setup on a task.
+    pub fn of(setup: &LearnerSetup, spec: &crate::task::TaskSpec) -> Self {
+        if setup.algo == crate::learn::Algo::Differential {
+            Objective::AverageReward
+        } else {
+            Objective::Discounted(setup.discount_on(spec))
+        }
+    }
+
+    /// The discount that potential shaping and the `gamma` of formulas use
+    /// (as [`LearnerSetup::shaping_discount`]).
+    pub fn shaping_discount(self) -> f64 {
+        match self {
+            Objective::Discounted(g) => g,
+            Objective::AverageReward => 1.0,
+        }
+    }
+}
+
+/// Audits a reward on a task for a learner's objective.
+pub fn audit_reward(task: &dyn Task, reward: &RewardConfig, objective: Objective) -> RewardAudit {
+    let gamma = objective.shaping_discount();
     let spec = task.spec();
     let exact = (|| {
         let Some(m) = task.model() else {
@@ -388,7 +443,13 @@ pub fn audit_reward(task: &dyn Task, reward: &RewardConfig, gamma: f64) -> Rewar
         let mut shaper = Shaper::new(reward, spec, gamma)
             .map_err(|p| p.iter().map(|x| x.to_string()).collect::<Vec<_>>().join("; "))?;
         let shaped = shaped_model(task, &m, &mut shaper)?;
-        Ok(compare(&m, &shaped, gamma, spec.max_steps))
+        match objective {
+            Objective::Discounted(_) => Ok(compare(&m, &shaped, gamma, spec.max_steps)),
+            Objective::AverageReward if spec.continuing => compare_average(&m, &shaped),
+            Objective::AverageReward => {
+                Err("the average-reward learner runs on continuing tasks; this one ends episodes".into())
+            }
+        }
     })();
     RewardAudit {
         mode: reward.mode,
@@ -468,6 +529,7 @@ impl RewardAudit {
                 let (method, horizon) = match c.method {
                     Method::ValueIteration => ("value_iteration", Value::Null),
                     Method::FiniteHorizon(h) => ("finite_horizon", json!(h)),
+                    Method::RelativeValueIteration => ("relative_value_iteration", Value::Null),
                 };
                 o.insert("method".into(), json!(method));
                 o.insert("horizon".into(), horizon);
@@ -486,14 +548,14 @@ pub fn audit_plan(plan: &Plan) -> Value {
     let task = plan.make_task();
     let spec = task.spec();
     let base_setup: LearnerSetup = serde_json::from_value(plan.config.base.clone()).unwrap_or_default();
-    let gamma = base_setup.discount.unwrap_or(spec.default_discount);
-    let mut top = audit_reward(task.as_ref(), &plan.config.reward, gamma).to_json(task.as_ref());
+    let objective = Objective::of(&base_setup, spec);
+    let mut top = audit_reward(task.as_ref(), &plan.config.reward, objective).to_json(task.as_ref());
     let variants: Vec<Value> = plan
         .variants
         .iter()
         .map(|v| {
-            let g = v.setup.discount.unwrap_or(spec.default_discount);
-            let mut a = audit_reward(task.as_ref(), &v.reward, g).to_json(task.as_ref());
+            let o = Objective::of(&v.setup, spec);
+            let mut a = audit_reward(task.as_ref(), &v.reward, o).to_json(task.as_ref());
             a["label"] = json!(v.label);
             a
         })
@@ -503,71 +565,4 @@ pub fn audit_plan(plan: &Plan) -> Value {
     o.insert("finite".into(), json!(task.model().is_some()));
     o.insert("variants".into(), Value::Array(variants));
     top
-}
-
-/// How returns moved over one run.
-#[derive(Clone, Copy, Debug, PartialEq)]
-pub struct Trend {
-    /// Mean base return at the end minus at the start.
-    pub base_change: f64,
-    /// Mean shaped return at the end minus at the start.
-    pub shaped_change: f64,
-    /// The shaped return rose (by more than 5% of its size, at least 0.05)
-    /// while the base return fell, or rose by less than half as much: most
-    /// of the gain is reward the task does not pay, a reward-hacking signal.
-    pub flagged: bool,
-}
-
-/// The trend of one run: the mean returns of the episodes that ended in the
-/// first `fraction` of the `steps` budget (or the first episode) against
-/// those that ended in the last `fraction` (or the last episode). `None`
-/// with fewer than two episodes.
-pub fn trend(episodes: &[EpisodeRecord], steps: u64, fraction: f64) -> Option<Trend> {
-    if episodes.len() < 2 {
-        return None;
-    }
-    let early_to = steps as f64 * fraction;
-    let late_from = steps as f64 * (1.0 - fraction);
-    let mean = |eps: &[&EpisodeRecord]| -> (f64, f64) {
-        let n = eps.len() as f64;
-        (
-            eps.iter().map(|e| e.base_return).sum::<f64>() / n,
-            eps.iter().map(|e| e.shaped_return).sum::<f64>() / n,
-        )
-    };
-    let mut early: Vec<&EpisodeRecord> = episodes.iter().filter(|e| e.end_step as f64 <= early_to).collect();
-    if early.is_empty() {
-        early.push(&episodes[0]);
-    }
-    let mut late: Vec<&EpisodeRecord> = episodes.iter().filter(|e| e.end_step as f64 > late_from).collect();
-    if late.is_empty() {
-        late.push(episodes.last().expect("two or more episodes"));
-    }
-    let (b0, s0) = mean(&early);
-    let (b1, s1) = mean(&late);
-    let (db, ds) = (b1 - b0, s1 - s0);
-    let rose = ds > 0.05 * s0.abs().max(s1.abs()).max(1.0);
-    Some(Trend { base_change: db, shaped_change: ds, flagged: rose && db < 0.5 * ds })
-}
-
-/// The hacking summary of a variant's runs: how many seeds are flagged, the
-/// mean changes, and `flag` when more than half of the seeds with a trend are.
-pub fn hacking_json(trends: &[Option<Trend>]) -> Value {
-    let ts: Vec<&Trend> = trends.iter().flatten().collect();
-    let flagged = ts.iter().filter(|t| t.flagged).count();
-    let n = ts.len();
-    let mean = |f: fn(&Trend) -> f64| {
-        if n == 0 {
-            Value::Null
-        } else {
-            num(ts.iter().map(|t| f(t)).sum::<f64>() / n as f64)
-        }
-    };
-    json!({
-        "flag": n > 0 && 2 * flagged > n,
-        "seeds_flagged": flagged,
-        "seeds": n,
-        "base_change": mean(|t| t.base_change),
-        "shaped_change": mean(|t| t.shaped_change),
-    })
 }
