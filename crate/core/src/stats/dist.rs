@@ -6,7 +6,10 @@
 //! ([`normal_pdf`], [`normal_cdf`], [`normal_sf`], [`normal_quantile`]) rests on
 //! `libm::erfc` and Wichura's algorithm AS 241. For many degrees of freedom
 //! the t CDF switches to the large-shape expansion of DiDonato & Morris
-//! (1992), which keeps it accurate to about 1e-13 up to df = 10¹⁰. Every
+//! (1992), which keeps it accurate to about 1e-13 up to df = 10¹⁰. t² is
+//! never formed where it would overflow (|t| > 1.3e154), so the t functions
+//! stay exact out to `f64::MAX` (checked against mpmath; SciPy's own t CDF
+//! returns 0 there). Every
 //! transcendental call goes
 //! through `libm`, so native and WebAssembly builds give the same bits.
 //!
@@ -26,7 +29,7 @@ const CF_MAX_ITER: usize = 200_000;
 /// Remainder of Stirling's series, `ln Γ(x) − [(x − ½) ln x − x + ln √(2π)]`,
 /// for `x ≥ 10`, where eight terms reach full double precision (the ninth
 /// term is below 2e-18 at x = 10). Coefficients are B₂ₖ / (2k(2k − 1)).
-fn stirling_remainder(x: f64) -> f64 {
+pub(super) fn stirling_remainder(x: f64) -> f64 {
     const C: [f64; 8] = [
         1.0 / 12.0,
         -1.0 / 360.0,
@@ -114,7 +117,7 @@ fn inc_beta_direct(a: f64, b: f64, x: f64, y: f64) -> f64 {
 }
 
 /// I_x(a, b) given both `x` and `y = 1 − x` (see [`inc_beta`]).
-fn inc_beta_xy(a: f64, b: f64, x: f64, y: f64) -> f64 {
+pub(super) fn inc_beta_xy(a: f64, b: f64, x: f64, y: f64) -> f64 {
     if x <= 0.0 {
         return 0.0;
     }
@@ -225,23 +228,35 @@ fn t_lower_tail(s: f64, df: f64) -> f64 {
     if s.is_infinite() {
         return 0.0;
     }
+    // s² overflows beyond |t| ≈ 1.3e154; below that it is exact enough.
     let s2 = s * s;
-    if df >= T_DF_ASYMPTOTIC {
+    if df >= T_DF_ASYMPTOTIC && s2.is_finite() {
         let w0 = log1p(s2 / df);
         if w0 <= 1.0 {
             return 0.5 * inc_beta_large_a_half_b(0.5 * df, w0);
         }
     }
-    // x = df/(df + s²) and y = s²/(df + s²), each computed without cancellation.
+    // x = df/(df + s²) and y = s²/(df + s²), each computed without cancellation
+    // and without forming s² when it would overflow.
     let (x, y) = if s2 < df {
         let r = s2 / df;
         (1.0 / (1.0 + r), r / (1.0 + r))
     } else {
-        let r = df / s2;
+        let r = (df / s) / s;
+        if r < TINY_BETA_X {
+            // I_x(a, ½) = x^a (1 + O(x)) / (a B(a, ½)) for tiny x; ln x = ln df − 2 ln s
+            // stays exact where x itself would underflow.
+            let a = 0.5 * df;
+            return 0.5 * exp(a * (log(df) - 2.0 * log(s)) - log(a) - ln_beta(a, 0.5));
+        }
         (r / (1.0 + r), 1.0 / (1.0 + r))
     };
     0.5 * inc_beta_xy(0.5 * df, 0.5, x, y)
 }
+
+/// Below this x the incomplete beta I_x(a, ½) is its leading term to full
+/// precision (the next term is O(x) relative).
+const TINY_BETA_X: f64 = 1e-30;
 
 /// Density of Student's t distribution with `df` degrees of freedom
 /// (`df = +∞` gives the standard normal density). NaN for NaN input or
@@ -253,7 +268,10 @@ pub fn t_pdf(t: f64, df: f64) -> f64 {
     if df.is_infinite() {
         return normal_pdf(t);
     }
-    exp(-0.5 * (df + 1.0) * log1p(t * t / df) - 0.5 * log(df) - ln_beta(0.5 * df, 0.5))
+    // ln(1 + t²/df) without forming t², which overflows beyond |t| ≈ 1.3e154.
+    let a = t.abs();
+    let l = if a > 1e150 { 2.0 * log(a) - log(df) + log1p((df / a) / a) } else { log1p(t * t / df) };
+    exp(-0.5 * (df + 1.0) * l - 0.5 * log(df) - ln_beta(0.5 * df, 0.5))
 }
 
 /// Cumulative distribution function P(T ≤ t) of Student's t distribution

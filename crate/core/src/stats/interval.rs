@@ -28,20 +28,18 @@ pub(crate) fn level_ok(level: f64) -> bool {
 /// mean ± t_{(1+level)/2, n−1} · sd/√n. With zero spread it is the point
 /// (mean, mean).
 ///
-/// `None` when there are fewer than 2 values or `level` is not strictly
-/// between 0 and 1. NaN values must be rejected by the caller (checked by a
-/// debug assertion only).
+/// `None` when there are fewer than 2 values, any value is NaN or
+/// infinite, or `level` is not strictly between 0 and 1.
 pub fn mean_ci_t(xs: &[f64], level: f64) -> Option<(f64, f64)> {
-    debug_assert!(
-        xs.iter().all(|x| !x.is_nan()),
-        "stats::mean_ci_t: NaN in the sample; the caller must reject NaN values first"
-    );
-    if xs.len() < 2 || !level_ok(level) {
+    if xs.len() < 2 || !level_ok(level) || xs.iter().any(|x| !x.is_finite()) {
         return None;
     }
     let n = xs.len() as f64;
     let m = mean(xs);
-    let half = t_quantile(0.5 * (1.0 + level), n - 1.0) * sd(xs) / n.sqrt();
+    let half = t_quantile(0.5 * (1.0 + level), n - 1.0) * (sd(xs) / n.sqrt());
+    if !(m.is_finite() && half.is_finite()) {
+        return None;
+    }
     Some((m - half, m + half))
 }
 
@@ -49,13 +47,12 @@ pub fn mean_ci_t(xs: &[f64], level: f64) -> Option<(f64, f64)> {
 /// 95% interval of the mean (see [`Summary`] for the values given when the
 /// sample is empty or has one value).
 ///
-/// NaN values must be rejected by the caller before this is called (a debug
-/// assertion checks it; in release builds a NaN makes the summary NaN).
+/// When any value is NaN or infinite the summary is undefined: `mean` and
+/// `sd` are NaN and `ci95` is `None` (`n` still counts every value).
 pub fn summarize(xs: &[f64]) -> Summary {
-    debug_assert!(
-        xs.iter().all(|x| !x.is_nan()),
-        "stats::summarize: NaN in the sample; the caller must reject NaN values first"
-    );
+    if xs.iter().any(|x| !x.is_finite()) {
+        return Summary { n: xs.len(), mean: f64::NAN, sd: f64::NAN, ci95: None };
+    }
     Summary { n: xs.len(), mean: mean(xs), sd: sd(xs), ci95: mean_ci_t(xs, 0.95) }
 }
 
@@ -78,6 +75,17 @@ mod tests {
         assert!(mean_ci_t(&[1.0, 2.0], 1.0).is_none());
         assert!(mean_ci_t(&[1.0, 2.0], 0.0).is_none());
         assert!(mean_ci_t(&[1.0, 2.0], f64::NAN).is_none());
+    }
+
+    #[test]
+    fn non_finite_values_make_the_summary_undefined() {
+        // Issue 12: NaN or infinite input gives NaN / None, never a number.
+        for bad in [f64::NAN, f64::INFINITY, f64::NEG_INFINITY] {
+            let s = summarize(&[1.0, bad, 2.0]);
+            assert_eq!(s.n, 3);
+            assert!(s.mean.is_nan() && s.sd.is_nan() && s.ci95.is_none(), "{bad}: {s:?}");
+            assert!(mean_ci_t(&[bad, 1.0, 2.0], 0.9).is_none());
+        }
     }
 
     #[test]

@@ -24,33 +24,35 @@ pub struct Welch {
 /// Welch's two-sample t-test (Welch 1947) of `a` against `b`, as R's
 /// `t.test(a, b)` computes it by default.
 ///
-/// `None` when either sample has fewer than 2 values (no variance estimate)
-/// or when both sample variances are zero (the statistic is undefined).
-/// NaN values must be rejected by the caller (checked by a debug assertion
-/// only).
+/// `None` when the test is undefined: either sample has fewer than 2
+/// values (no variance estimate), any value is NaN or infinite, both sample
+/// variances are zero, or the statistic, its degrees of freedom, the
+/// p-value or the interval would not be finite (a NaN p is never turned
+/// into 1).
 pub fn welch(a: &[f64], b: &[f64]) -> Option<Welch> {
-    debug_assert!(
-        a.iter().chain(b).all(|x| !x.is_nan()),
-        "stats::welch: NaN in a sample; the caller must reject NaN values first"
-    );
-    if a.len() < 2 || b.len() < 2 {
+    if a.len() < 2 || b.len() < 2 || a.iter().chain(b).any(|x| !x.is_finite()) {
         return None;
     }
     let (na, nb) = (a.len() as f64, b.len() as f64);
     let va = variance(a) / na;
     let vb = variance(b) / nb;
     let v = va + vb;
-    // NaN only from NaN input, which the caller should have rejected.
-    if v.is_nan() || v <= 0.0 {
+    if !(v > 0.0 && v.is_finite()) {
         return None;
     }
     let se = v.sqrt();
     let diff = mean(a) - mean(b);
     let t = diff / se;
-    let df = v * v / (va * va / (na - 1.0) + vb * vb / (nb - 1.0));
-    let p = (2.0 * t_sf(t.abs(), df)).min(1.0);
+    // Written as ratios so that the squares of tiny or huge variances do not
+    // underflow or overflow.
+    let df = 1.0 / ((va / v) * (va / v) / (na - 1.0) + (vb / v) * (vb / v) / (nb - 1.0));
+    let p = 2.0 * t_sf(t.abs(), df);
     let half = t_quantile(0.975, df) * se;
-    Some(Welch { t, df, p, diff, ci95: (diff - half, diff + half) })
+    let ci95 = (diff - half, diff + half);
+    if !(t.is_finite() && df.is_finite() && p.is_finite() && ci95.0.is_finite() && ci95.1.is_finite()) {
+        return None;
+    }
+    Some(Welch { t, df, p: p.min(1.0), diff, ci95 })
 }
 
 #[cfg(test)]
@@ -63,6 +65,34 @@ mod tests {
         assert!(welch(&[1.0], &[1.0, 2.0]).is_none());
         assert!(welch(&[1.0, 2.0], &[]).is_none());
         assert!(welch(&[1.0, 1.0], &[3.0, 3.0, 3.0]).is_none());
+    }
+
+    #[test]
+    fn non_finite_input_gives_none() {
+        // Issue 12: Welch is undefined for non-finite input, never p = 1.
+        for bad in [f64::NAN, f64::INFINITY, f64::NEG_INFINITY] {
+            assert!(welch(&[1.0, bad, 2.0], &[0.5, 0.7]).is_none(), "{bad}");
+            assert!(welch(&[1.0, 2.0], &[bad, 0.7, 0.1]).is_none(), "{bad}");
+        }
+        // Finite but huge: the variance overflows, so the test is undefined.
+        assert!(welch(&[1e308, -1e308], &[0.0, 1.0]).is_none());
+    }
+
+    #[test]
+    fn tiny_and_huge_scales_keep_the_df() {
+        // Welch's statistic and df are invariant under rescaling both samples
+        // (definition); the ratio form keeps them exact far from 1.
+        let a = [0.3, 1.9, 2.2, 0.8];
+        let b = [1.0, 1.4, 3.3, 2.9, 2.5];
+        let w = welch(&a, &b).unwrap();
+        for c in [1e-150, 1e150] {
+            let sa: Vec<f64> = a.iter().map(|x| x * c).collect();
+            let sb: Vec<f64> = b.iter().map(|x| x * c).collect();
+            let ws = welch(&sa, &sb).unwrap();
+            assert!((ws.df - w.df).abs() < 1e-12 * w.df, "{c}");
+            assert!((ws.t - w.t).abs() < 1e-12 * w.t.abs(), "{c}");
+            assert!((ws.p - w.p).abs() < 1e-12, "{c}");
+        }
     }
 
     #[test]
