@@ -6,11 +6,13 @@
 //! problems that name the field. A plan is a list of jobs, one per
 //! (variant, seed); [`runner::Job`] advances one of them in chunks of any
 //! size with identical results. [`results::Results`] bins episode returns on
-//! environment steps and summarises them across seeds.
+//! environment steps and summarises them across seeds. [`inspect`] reads
+//! what a job has learned.
 
 pub mod compare;
 pub mod config;
 pub mod export;
+pub mod inspect;
 pub mod probe;
 pub mod results;
 pub mod runner;
