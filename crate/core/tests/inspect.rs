@@ -156,7 +156,11 @@ fn corridor_start_value_matches_the_closed_form() {
         assert_eq!(r.states.len(), 4, "the model's four states");
         let right = r.states[0].policy[1];
         assert!(r.states.iter().all(|s| s.values == vec![1.0] && s.policy[1] == right));
-        let j = r.exact.unwrap().start_value.unwrap();
+        let e = r.exact.unwrap();
+        let j = e.start_value.unwrap();
+        // The best the agent can do, −(6 + 4√2), not value iteration's −3
+        // (which needs the states told apart).
+        assert!((e.optimal_start_value.unwrap() + 6.0 + 4.0 * 2f64.sqrt()).abs() < 1e-12);
         assert!((j - ShortCorridor::objective(right)).abs() < 1e-9, "at {at}: J = {j}, p = {right}");
         if at == 0 {
             assert_eq!(right, 0.5);

@@ -27,6 +27,7 @@ use crate::approx::{ApproxConfig, FeatureConfig, Obs};
 use crate::exact;
 use crate::learn::{ActionBuf, Algo, Learner};
 use crate::rng::{Purpose, Stream};
+use crate::task::corridor::ShortCorridor;
 use crate::task::{lqr, FiniteModel, Task, TaskSpec};
 
 /// Points per variable of a [`Slice`] over one state variable.
@@ -377,8 +378,12 @@ pub struct StateRow {
 pub struct ExactReport {
     /// `Σ_s start(s) V^π(s)`: the exact expected return from the start.
     pub start_value: Option<f64>,
-    /// The same for an optimal policy (value iteration), for comparison;
-    /// null on a continuing task or when value iteration does not settle.
+    /// The same for an optimal policy, for comparison: by value iteration
+    /// when the agent sees the states apart; on the short corridor, whose
+    /// states all look alike, the best single `P(right)` (Sutton & Barto
+    /// 2018, Example 13.1; discount 1 only). Null on a continuing task, on
+    /// other tasks whose states look alike, or when value iteration does not
+    /// settle.
     pub optimal_start_value: Option<f64>,
     /// On a continuing task, the exact average reward per step of the policy.
     pub average_reward: Option<f64>,
@@ -535,6 +540,10 @@ fn states_and_exact(
     let start_value = finite(m.start.iter().zip(&exact_v).map(|(p, v)| p * v).sum());
     let optimal_start_value = if spec.continuing {
         None
+    } else if spec.n_states.is_none() {
+        // The agent cannot tell the model's states apart: value iteration's
+        // optimum is out of its reach. The corridor has its closed form.
+        (spec.kind == "corridor" && gamma == 1.0).then(|| ShortCorridor::objective(ShortCorridor::best_p()))
     } else {
         exact::value_iteration(m, gamma, 1e-10)
             .ok()
