@@ -109,29 +109,61 @@ test('bad configs throw an Error naming the field, never trap', () => {
   results.free();
 });
 
-test('single-step task and agent handles drive an episode', () => {
-  const v = JSON.parse(fs.readFileSync(path.join(root, 'web/presets/rover-a2c-vs-qac.json'), 'utf8'));
-  const sim = new cb.TaskSim(JSON.stringify(v.task), 3);
-  const agent = new cb.Agent(JSON.stringify(v), 0, 0);
-  assert.deepEqual(JSON.parse(sim.stateNames()), ['row', 'col']);
-  assert.equal(sim.actionCount(), 4);
-  let obs = sim.reset();
-  let action = agent.act(obs);
-  let steps = 0;
-  for (; steps < 200; steps++) {
-    const out = sim.step(action);
-    const next = out.slice(0, 2);
-    const terminated = out[3] === 1;
-    const nextAction = terminated ? new Float64Array() : agent.act(next);
-    const diag = agent.learn(obs, action, out[2], next, nextAction, terminated, false);
-    assert.equal(diag.length, 4);
-    assert.ok(diag.every(Number.isFinite));
-    if (terminated) break;
-    obs = next;
-    action = nextAction;
-  }
-  assert.throws(() => sim.step(new Float64Array([7])), /index in 0\.\.4/);
-  assert.throws(() => agent.act(new Float64Array([0, 0])), /not a state of this task/);
-  sim.free();
-  agent.free();
+/** A Run of one job (variant, seed) trained to `steps` in chunks, as the
+ * page's inspection worker does. */
+function trainedRun(json, variant, seed, steps, chunk) {
+  const plan = JSON.parse(cb.validateConfig(json));
+  const run = new cb.Run(json, Uint32Array.from([variant * plan.seeds + seed]));
+  for (let done = 0; done < steps; done += chunk) run.advance(Math.min(chunk, steps - done));
+  return run;
+}
+
+const finiteOrNull = (x) => (Number.isFinite(x) ? x : null);
+
+test('inspection through the Run handle agrees with critbox inspect', () => {
+  // A grid: per state the critic's value, π(a|s) and the exact value of the policy.
+  const grid = path.join(root, 'web/presets/rover-a2c-vs-qac.json');
+  const native = JSON.parse(execFileSync(cli, ['inspect', grid, '--variant', '1', '--seed', '2', '--at', '3000'], { encoding: 'utf8' }));
+  const run = trainedRun(fs.readFileSync(grid, 'utf8'), 1, 2, 3000, 700);
+  const k = native.state_names.length;
+  const width = run.policyWidth();
+  assert.equal(width, native.action_names.length);
+  const obs = run.stateObservations();
+  assert.equal(obs.length, native.states.length * k);
+  const read = run.inspect(0, obs);
+  const exact = run.policyValues(0);
+  native.states.forEach((s, i) => {
+    assert.deepEqual(Array.from(obs.slice(i * k, (i + 1) * k)), s.values);
+    assert.equal(finiteOrNull(read[i * (1 + width)]), s.critic);
+    assert.deepEqual(Array.from(read.slice(i * (1 + width) + 1, (i + 1) * (1 + width))), s.policy);
+    assert.equal(finiteOrNull(exact[i]), s.exact);
+  });
+  assert.throws(() => run.inspect(0, new Float64Array([1, 2, 3])), /groups of 2/);
+  assert.throws(() => run.inspect(0, new Float64Array([0, 99])), /is not a state of this task/);
+  assert.throws(() => run.policyValues(4), /job index 4 is out of range/);
+  // Rollouts: stride k + width + 2, the same frames for the same seed, a last
+  // frame with NaN action and reward and flag 2 (terminal) or 3 (step limit).
+  const a = run.rollout(0, 500, 9, false);
+  assert.deepEqual(Array.from(run.rollout(0, 500, 9, false)), Array.from(a));
+  const stride = k + width + 2;
+  assert.equal(a.length % stride, 0);
+  const last = a.slice(a.length - stride);
+  assert.ok([2, 3].includes(last[stride - 1]));
+  assert.ok(last.slice(k, k + width + 1).every(Number.isNaN));
+  assert.throws(() => run.rollout(0, 10, -1, true), /seed must be a number/);
+  run.free();
+
+  // The regulator: the preferred action and the critic's value on the slice.
+  const lqr = path.join(root, 'web/presets/dpg-lqr.json');
+  const nat = JSON.parse(execFileSync(cli, ['inspect', lqr, '--seed', '1', '--at', '6000'], { encoding: 'utf8' }));
+  const r = trainedRun(fs.readFileSync(lqr, 'utf8'), 0, 1, 6000, 2500);
+  assert.deepEqual(Array.from(r.stateObservations()), []);
+  assert.deepEqual(Array.from(r.policyValues(0)), []);
+  const xs = Float64Array.from(nat.slice.points.map((p) => p.at[0]));
+  const got = r.inspect(0, xs);
+  nat.slice.points.forEach((p, i) => {
+    assert.equal(got[2 * i], p.value);
+    assert.equal(got[2 * i + 1], p.policy[0]);
+  });
+  r.free();
 });

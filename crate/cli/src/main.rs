@@ -3,39 +3,22 @@
 //! `critbox run CONFIG.json` runs an experiment config with the same core
 //! the page uses and prints one JSON summary on stdout; `critbox validate`
 //! only checks a config; `critbox audit` prints the shaping audit of a
-//! config's rewards; `critbox serve` serves the page on 127.0.0.1.
-//! Exit codes: 0 success, 2 bad input (config or usage), 1 other failures.
+//! config's rewards; `critbox inspect` re-trains one job to a step and
+//! prints what it learned; `critbox serve` serves the page on 127.0.0.1.
+//! The commands and their options are one table in [`args`], which parses
+//! the command line and writes the usage text. Exit codes: 0 success, 2 bad
+//! input (config or usage), 1 other failures.
 
+mod args;
 mod bench;
 mod serve;
+mod table;
+
+use args::{Args, Parsed};
+use critbox_core::experiment::inspect;
 
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
-
-const USAGE: &str = "\
-usage:
-  critbox run CONFIG.json [--csv FILE] [--save FILE]
-                                   run every (variant, seed) job and print the summary JSON;
-                                   --csv writes the tidy CSV (variant,label,seed,step,metric,value),
-                                   --save a results file that `critbox open` and the page reopen
-  critbox probe CONFIG.json [--variant I] [--seed S] [--checkpoints A,B,..] [--estimates K] [--episodes M]
-                                   gradient-variance probe of one job: per baseline option, the trace of
-                                   the covariance and the mean norm of K REINFORCE gradient estimates of M
-                                   episodes each (defaults: variant 0, seed 0, checkpoints 0,budget/2,budget,
-                                   K 30, M 5)
-  critbox open RESULTS.json        print the summary of a saved results file without re-running
-  critbox validate CONFIG.json     check a config; print its plan or the problems
-  critbox audit CONFIG.json        shaping audit of the config's rewards as JSON: on a finite task,
-                                   whether each reward changes the optimal policy (potential_based,
-                                   policy_changed, differing_states, base_value_loss)
-  critbox serve [--root DIR] [--port N]
-                                   serve the page on 127.0.0.1 (default root web, port 8000)
-  critbox bench CONFIG.json [--job J] [--steps N] [--rss-at A,B,..]
-                                   time job J (default 0) for N steps (default the config's budget) and
-                                   print steps per second as JSON; --rss-at records resident memory
-  critbox help                     this text
-
-A CONFIG of '-' reads standard input. Exit codes: 0 ok, 2 bad config or usage, 1 other errors.";
 
 enum Failure {
     Usage(String),
@@ -62,127 +45,89 @@ fn plan_of(arg: &str) -> Result<critbox_core::experiment::Plan, Failure> {
     })
 }
 
-fn one_arg(args: &[String], cmd: &str) -> Result<String, Failure> {
-    match args {
-        [one] => Ok(one.clone()),
-        _ => Err(Failure::Usage(format!("`critbox {cmd}` takes exactly one CONFIG argument"))),
-    }
-}
-
 fn write_file(path: &str, text: &str) -> Result<(), Failure> {
     std::fs::write(path, text).map_err(|e| Failure::Other(format!("cannot write {path}: {e}")))
 }
 
-fn print_json(v: &serde_json::Value) -> Result<(), Failure> {
-    let text = serde_json::to_string_pretty(v).map_err(|e| Failure::Other(e.to_string()))?;
-    println!("{text}");
-    Ok(())
+/// Writes text and a newline to standard output; a closed pipe (say, into
+/// `head`) ends the output quietly.
+fn print_text(text: &str) -> Result<(), Failure> {
+    use std::io::Write;
+    let mut out = std::io::stdout().lock();
+    match writeln!(out, "{text}").and_then(|_| out.flush()) {
+        Ok(()) => Ok(()),
+        Err(e) if e.kind() == std::io::ErrorKind::BrokenPipe => Ok(()),
+        Err(e) => Err(Failure::Other(format!("cannot write to standard output: {e}"))),
+    }
 }
 
-fn run(args: &[String]) -> Result<(), Failure> {
-    let Some((cmd, rest)) = args.split_first() else {
-        return Err(Failure::Usage("no command given".into()));
-    };
-    match cmd.as_str() {
+fn print_json(v: &serde_json::Value) -> Result<(), Failure> {
+    print_text(&serde_json::to_string_pretty(v).map_err(|e| Failure::Other(e.to_string()))?)
+}
+
+fn whole_u32(a: &Args, name: &str, default: u32) -> Result<u32, Failure> {
+    match a.whole(name) {
+        None => Ok(default),
+        Some(n) => u32::try_from(n)
+            .map_err(|_| Failure::Usage(format!("--{name}: {n} is too large (at most {})", u32::MAX))),
+    }
+}
+
+fn run(a: &Args) -> Result<(), Failure> {
+    match a.command.name {
         "run" => {
-            let mut config = None;
-            let (mut csv, mut save) = (None, None);
-            let mut it = rest.iter();
-            while let Some(a) = it.next() {
-                match a.as_str() {
-                    "--csv" | "--save" => {
-                        let f = it.next().ok_or_else(|| Failure::Usage(format!("{a} needs a file name")))?;
-                        if a == "--csv" {
-                            csv = Some(f.clone())
-                        } else {
-                            save = Some(f.clone())
-                        }
-                    }
-                    other if other.starts_with("--") => {
-                        return Err(Failure::Usage(format!("run: unknown option {other:?}")))
-                    }
-                    other if config.is_none() => config = Some(other.to_string()),
-                    _ => {
-                        return Err(Failure::Usage("`critbox run` takes exactly one CONFIG argument".into()))
-                    }
-                }
-            }
-            let config =
-                config.ok_or_else(|| Failure::Usage("`critbox run` needs a CONFIG argument".into()))?;
-            let plan = plan_of(&config)?;
+            let plan = plan_of(a.operand())?;
             let results = critbox_core::experiment::run_all(&plan);
-            if let Some(path) = csv {
-                write_file(&path, &critbox_core::experiment::export::tidy_csv(&results))?;
+            if let Some(path) = a.path("csv") {
+                write_file(path, &critbox_core::experiment::export::tidy_csv(&results))?;
             }
-            if let Some(path) = save {
-                write_file(&path, &critbox_core::experiment::export::save(&plan, &results).to_string())?;
+            if let Some(path) = a.path("save") {
+                write_file(path, &critbox_core::experiment::export::save(&plan, &results).to_string())?;
             }
             print_json(&results.summary())
         }
         "probe" => {
-            let mut config = None;
-            let (mut variant, mut seed, mut estimates, mut episodes) = (0usize, 0usize, 30u32, 5u32);
-            let mut checkpoints: Option<Vec<u64>> = None;
-            let mut it = rest.iter();
-            fn number<T: std::str::FromStr>(flag: &str, v: Option<&String>) -> Result<T, Failure> {
-                let v = v.ok_or_else(|| Failure::Usage(format!("{flag} needs a value")))?;
-                v.parse().map_err(|_| Failure::Usage(format!("{flag}: {v:?} is not a whole number")))
-            }
-            while let Some(a) = it.next() {
-                match a.as_str() {
-                    "--variant" => variant = number(a, it.next())?,
-                    "--seed" => seed = number(a, it.next())?,
-                    "--estimates" => estimates = number(a, it.next())?,
-                    "--episodes" => episodes = number(a, it.next())?,
-                    "--checkpoints" => {
-                        let v =
-                            it.next().ok_or_else(|| Failure::Usage("--checkpoints needs a list".into()))?;
-                        let list: Result<Vec<u64>, _> =
-                            v.split(',').map(|x| x.trim().parse::<u64>()).collect();
-                        checkpoints = Some(list.map_err(|_| {
-                            Failure::Usage(format!(
-                                "--checkpoints: {v:?} is not a comma-separated list of steps"
-                            ))
-                        })?);
-                    }
-                    other if other.starts_with("--") => {
-                        return Err(Failure::Usage(format!("probe: unknown option {other:?}")))
-                    }
-                    other if config.is_none() => config = Some(other.to_string()),
-                    _ => {
-                        return Err(Failure::Usage(
-                            "`critbox probe` takes exactly one CONFIG argument".into(),
-                        ))
-                    }
-                }
-            }
-            let config =
-                config.ok_or_else(|| Failure::Usage("`critbox probe` needs a CONFIG argument".into()))?;
-            let plan = plan_of(&config)?;
+            let config = a.operand();
+            let plan = plan_of(config)?;
             let steps = plan.config.steps;
             let settings = critbox_core::experiment::probe::ProbeSettings {
-                checkpoints: checkpoints.unwrap_or_else(|| vec![0, steps / 2, steps]),
-                estimates,
-                episodes,
+                checkpoints: a.wholes("checkpoints").unwrap_or_else(|| vec![0, steps / 2, steps]),
+                estimates: whole_u32(a, "estimates", 30)?,
+                episodes: whole_u32(a, "episodes", 5)?,
             };
-            let v = critbox_core::experiment::probe::probe(&plan, variant, seed, &settings)
+            let (variant, seed) = (a.whole("variant").unwrap_or(0), a.whole("seed").unwrap_or(0));
+            let v = critbox_core::experiment::probe::probe(&plan, variant as usize, seed as usize, &settings)
                 .map_err(|e| Failure::BadInput(format!("{config}: {e}")))?;
             print_json(&v)
         }
+        "inspect" => {
+            let config = a.operand();
+            let plan = plan_of(config)?;
+            let (variant, seed) = (a.whole("variant").unwrap_or(0), a.whole("seed").unwrap_or(0));
+            let at = a.whole("at").unwrap_or(plan.config.steps);
+            let report = inspect::inspect(&plan, variant as usize, seed as usize, at)
+                .map_err(|e| Failure::BadInput(format!("{config}: {e}")))?;
+            if a.switch("table") {
+                print_text(table::render(&report).trim_end())
+            } else {
+                // Straight from the struct, so the fields keep its order.
+                print_text(&serde_json::to_string_pretty(&report).map_err(|e| Failure::Other(e.to_string()))?)
+            }
+        }
         "open" => {
-            let path = one_arg(rest, "open")?;
-            let text = std::fs::read_to_string(&path)
+            let path = a.operand();
+            let text = std::fs::read_to_string(path)
                 .map_err(|e| Failure::BadInput(format!("cannot read {path}: {e}")))?;
             let (_, results) = critbox_core::experiment::export::load(&text)
                 .map_err(|e| Failure::BadInput(format!("{path}: {e}")))?;
             print_json(&results.summary())
         }
         "audit" => {
-            let plan = plan_of(&one_arg(rest, "audit")?)?;
+            let plan = plan_of(a.operand())?;
             print_json(&critbox_core::reward::audit::audit_plan(&plan))
         }
         "validate" => {
-            let plan = plan_of(&one_arg(rest, "validate")?)?;
+            let plan = plan_of(a.operand())?;
             print_json(&serde_json::json!({
                 "ok": true,
                 "variants": plan.variants.iter().map(|v| v.label.clone()).collect::<Vec<_>>(),
@@ -192,73 +137,17 @@ fn run(args: &[String]) -> Result<(), Failure> {
             }))
         }
         "serve" => {
-            let mut root = PathBuf::from("web");
-            let mut port: u16 = 8000;
-            let mut it = rest.iter();
-            while let Some(a) = it.next() {
-                match a.as_str() {
-                    "--root" => {
-                        root = PathBuf::from(
-                            it.next().ok_or_else(|| Failure::Usage("--root needs a folder".into()))?,
-                        )
-                    }
-                    "--port" => {
-                        let v = it.next().ok_or_else(|| Failure::Usage("--port needs a number".into()))?;
-                        port = v.parse().map_err(|_| {
-                            Failure::Usage(format!("--port: {v:?} is not a port number (0 to 65535)"))
-                        })?;
-                    }
-                    other => return Err(Failure::Usage(format!("serve: unknown option {other:?}"))),
-                }
-            }
-            serve_root(&root, port)
+            let root = PathBuf::from(a.path("root").unwrap_or("web"));
+            serve_root(&root, a.port("port").unwrap_or(8000))
         }
         "bench" => {
-            let (mut config, mut job, mut steps, mut rss_at) = (None, 0usize, None, Vec::new());
-            let mut it = rest.iter();
-            while let Some(a) = it.next() {
-                let mut value = || it.next().ok_or_else(|| Failure::Usage(format!("{a} needs a value")));
-                match a.as_str() {
-                    "--job" | "--steps" => {
-                        let v = value()?;
-                        let n: u64 = v
-                            .parse()
-                            .map_err(|_| Failure::Usage(format!("{a}: {v:?} is not a whole number")))?;
-                        if a == "--job" {
-                            job = n as usize
-                        } else {
-                            steps = Some(n)
-                        }
-                    }
-                    "--rss-at" => {
-                        for part in value()?.split(',') {
-                            rss_at.push(part.trim().parse().map_err(|_| {
-                                Failure::Usage(format!("--rss-at: {part:?} is not a whole number"))
-                            })?);
-                        }
-                    }
-                    other if other.starts_with("--") => {
-                        return Err(Failure::Usage(format!("bench: unknown option {other:?}")))
-                    }
-                    other if config.is_none() => config = Some(other.to_string()),
-                    _ => {
-                        return Err(Failure::Usage(
-                            "`critbox bench` takes exactly one CONFIG argument".into(),
-                        ))
-                    }
-                }
-            }
-            let config =
-                config.ok_or_else(|| Failure::Usage("`critbox bench` needs a CONFIG argument".into()))?;
-            let plan = plan_of(&config)?;
-            let steps = steps.unwrap_or(plan.config.steps);
+            let plan = plan_of(a.operand())?;
+            let steps = a.whole("steps").unwrap_or(plan.config.steps);
+            let job = a.whole("job").unwrap_or(0) as usize;
+            let rss_at = a.wholes("rss-at").unwrap_or_default();
             print_json(&bench::bench(&plan, job, steps, &rss_at).map_err(Failure::Usage)?)
         }
-        "help" | "--help" | "-h" => {
-            println!("{USAGE}");
-            Ok(())
-        }
-        other => Err(Failure::Usage(format!("unknown command {other:?}"))),
+        other => panic!("the command table lists `{other}` but main.rs does not run it"),
     }
 }
 
@@ -269,20 +158,30 @@ fn serve_root(root: &Path, port: u16) -> Result<(), Failure> {
     .map_err(|e| Failure::Other(e.to_string()))
 }
 
+/// Writes a message to standard error (nothing more can be done if that fails).
+fn complain(message: &str) {
+    use std::io::Write;
+    let _ = writeln!(std::io::stderr(), "critbox: {message}");
+}
+
 fn main() -> ExitCode {
-    let args: Vec<String> = std::env::args().skip(1).collect();
-    match run(&args) {
+    let result = match args::parse(std::env::args_os().skip(1).collect()) {
+        Ok(Parsed::Help) => print_text(&args::usage()),
+        Ok(Parsed::Run(a)) => run(&a),
+        Err(e) => Err(Failure::Usage(e.0)),
+    };
+    match result {
         Ok(()) => ExitCode::SUCCESS,
         Err(Failure::Usage(m)) => {
-            eprintln!("critbox: {m}\n\n{USAGE}");
+            complain(&format!("{m}\n\n{}", args::usage()));
             ExitCode::from(2)
         }
         Err(Failure::BadInput(m)) => {
-            eprintln!("critbox: {m}");
+            complain(&m);
             ExitCode::from(2)
         }
         Err(Failure::Other(m)) => {
-            eprintln!("critbox: {m}");
+            complain(&m);
             ExitCode::from(1)
         }
     }

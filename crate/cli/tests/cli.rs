@@ -167,3 +167,185 @@ fn probe_prints_variances_per_baseline_option() {
     assert_eq!(bad.status.code(), Some(2));
     assert!(String::from_utf8_lossy(&bad.stderr).contains("seed: 99 is out of range"));
 }
+
+/// Runs the command; returns (exit code, stdout, stderr).
+fn call(args: &[&str]) -> (Option<i32>, String, String) {
+    let out = critbox().args(args).output().unwrap();
+    (
+        out.status.code(),
+        String::from_utf8_lossy(&out.stdout).into_owned(),
+        String::from_utf8_lossy(&out.stderr).into_owned(),
+    )
+}
+
+#[test]
+fn each_command_refuses_unknown_options_missing_values_and_bad_numbers() {
+    // Every refusal exits 2, names the option and shows the usage text.
+    let p = preset("rover-a2c-vs-qac.json");
+    let p = p.as_str();
+    let cases: &[(&[&str], &str)] = &[
+        (&["run", p, "--bogus"], "run: unknown option \"--bogus\""),
+        (&["run", p, "-v"], "run: unknown option \"-v\""),
+        (&["run", p, "--csv"], "--csv needs a value (FILE)"),
+        (&["run", p, p], "`critbox run` takes exactly one CONFIG argument"),
+        (&["probe", p, "--baseline", "x"], "probe: unknown option \"--baseline\""),
+        (&["probe", p, "--episodes"], "--episodes needs a value (M)"),
+        (&["probe", p, "--estimates", "many"], "--estimates: \"many\" is not a whole number"),
+        (&["probe", p, "--estimates", "5000000000"], "--estimates: 5000000000 is too large"),
+        (
+            &["probe", p, "--checkpoints", "0,x"],
+            "--checkpoints: \"0,x\" is not a comma-separated list of whole numbers",
+        ),
+        (&["inspect", p, "--steps", "3"], "inspect: unknown option \"--steps\""),
+        (&["inspect", p, "--seed"], "--seed needs a value (S)"),
+        (&["inspect", p, "--at", "soon"], "--at: \"soon\" is not a whole number"),
+        (&["inspect", p, "--variant", "-1"], "--variant: \"-1\" is not a whole number"),
+        (&["inspect", p, "--table=yes"], "--table takes no value"),
+        (&["inspect"], "`critbox inspect` needs a CONFIG argument"),
+        (&["open", "--all", "x"], "open: unknown option \"--all\""),
+        (&["open"], "`critbox open` needs a RESULTS argument"),
+        (&["validate", p, "--quiet"], "validate: unknown option \"--quiet\""),
+        (&["audit", p, p], "`critbox audit` takes exactly one CONFIG argument"),
+        (&["serve", "--host", "0.0.0.0"], "serve: unknown option \"--host\""),
+        (&["serve", "--root"], "--root needs a value (DIR)"),
+        (&["serve", "--port", "http"], "--port: \"http\" is not a port number (0 to 65535)"),
+        (&["serve", "web"], "`critbox serve` takes no argument"),
+        (&["bench", p, "--jobs", "2"], "bench: unknown option \"--jobs\""),
+        (&["bench", p, "--job"], "--job needs a value (J)"),
+        (&["bench", p, "--steps", "1e6"], "--steps: \"1e6\" is not a whole number"),
+        (
+            &["bench", p, "--rss-at", "1,b"],
+            "--rss-at: \"1,b\" is not a comma-separated list of whole numbers",
+        ),
+        (&["frobnicate"], "unknown command \"frobnicate\""),
+        (&[], "no command given"),
+    ];
+    for (args, want) in cases {
+        let (code, out, err) = call(args);
+        assert_eq!(code, Some(2), "{args:?}: {err}");
+        assert!(err.starts_with(&format!("critbox: {want}")), "{args:?}: {err}");
+        assert!(err.contains("\nusage:\n"), "{args:?} shows the usage");
+        assert!(out.is_empty(), "{args:?}");
+    }
+    // Options take `--name=value` too, and `--help` anywhere prints the usage.
+    let (code, out, _) = call(&["inspect", p, "--at=0", "--variant=1"]);
+    assert_eq!(code, Some(0));
+    assert!(out.contains("\"variant\": 1"));
+    let (code, out, _) = call(&["probe", p, "--help"]);
+    assert_eq!(code, Some(0));
+    assert!(out.starts_with("usage:\n") && out.contains("critbox inspect CONFIG.json [--variant I]"));
+}
+
+#[test]
+fn inspect_gives_the_exact_values_of_the_small_gridworld() {
+    // Sutton & Barto (2018), Example 4.1 / Figure 4.1 (k = ∞): before any
+    // step the tabular softmax actor is the equiprobable random policy, whose
+    // values on the 4 × 4 gridworld are −14, −18, −20, −22.
+    let dir = std::env::temp_dir().join(format!("critbox-cli-inspect-{}", std::process::id()));
+    std::fs::create_dir_all(&dir).unwrap();
+    let p = dir.join("small-grid.json");
+    std::fs::write(
+        &p,
+        r#"{"schema": 1, "task": {"kind": "grid", "map": ["D...", "....", "..S.", "...D"]},
+            "base": {"discount": 1}, "variants": [{"label": "uniform"}], "seeds": 1, "steps": 500}"#,
+    )
+    .unwrap();
+    let p = p.to_str().unwrap();
+    let (code, out, err) = call(&["inspect", p, "--at", "0"]);
+    assert_eq!(code, Some(0), "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let want = [
+        [0.0, -14.0, -20.0, -22.0],
+        [-14.0, -18.0, -20.0, -20.0],
+        [-20.0, -20.0, -18.0, -14.0],
+        [-22.0, -20.0, -14.0, 0.0],
+    ];
+    for s in v["states"].as_array().unwrap() {
+        let (i, j) = (s["values"][0].as_f64().unwrap() as usize, s["values"][1].as_f64().unwrap() as usize);
+        assert!((s["exact"].as_f64().unwrap() - want[i][j]).abs() < 1e-9, "{s}");
+    }
+    assert!((v["exact"]["start_value"].as_f64().unwrap() + 18.0).abs() < 1e-9);
+    assert_eq!(v["steps"], 0);
+    // After training (the budget by default) the table shows the moves.
+    let (code, table, err) = call(&["inspect", p, "--table"]);
+    assert_eq!(code, Some(0), "{err}");
+    assert!(table.starts_with("variant 0 (uniform), seed 0, after 500 steps: ok\n"), "{table}");
+    assert!(
+        table.contains("preferred moves") && table.contains("exact start value of the policy"),
+        "{table}"
+    );
+}
+
+#[test]
+fn inspect_a_grid_preset_is_deterministic_and_names_bad_choices() {
+    let p = preset("rover-a2c-vs-qac.json");
+    let args = ["inspect", p.as_str(), "--variant", "1", "--seed", "2", "--at", "3000"];
+    let (code, out, err) = call(&args);
+    assert_eq!(code, Some(0), "{err}");
+    assert_eq!(call(&args).1, out, "the same job re-trained gives the same bytes");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(
+        (v["variant"].as_u64(), v["seed"].as_u64(), v["steps"].as_u64()),
+        (Some(1), Some(2), Some(3000))
+    );
+    assert_eq!(v["state_names"], serde_json::json!(["row", "col"]));
+    let states = v["states"].as_array().unwrap();
+    assert!(states.len() > 10);
+    for s in states.iter().filter(|s| s["terminal"] == false) {
+        let sum: f64 = s["policy"].as_array().unwrap().iter().map(|p| p.as_f64().unwrap()).sum();
+        assert!((sum - 1.0).abs() < 1e-9, "{s}");
+        assert!(s["exact"].is_f64() && s["critic"].is_f64());
+    }
+    for (args, want) in [
+        (
+            vec!["--variant", "3"],
+            "variant: 3 is out of range: the config has 3 variant(s), numbered from 0 to 2",
+        ),
+        (vec!["--seed", "10"], "seed: 10 is out of range: the config has 10 seed(s), numbered from 0 to 9"),
+        (vec!["--at", "30001"], "step: 30001 is past the config's budget of 30000 steps per job"),
+    ] {
+        let mut all = vec!["inspect", p.as_str()];
+        all.extend(args);
+        let (code, _, err) = call(&all);
+        assert_eq!(code, Some(2), "{err}");
+        assert_eq!(err.trim_end(), format!("critbox: {p}: {want}"));
+    }
+}
+
+#[test]
+fn inspect_the_corridor_cart_pole_and_regulator() {
+    // Short corridor: the exact start value is J(p) = (2p − 4) / (p (1 − p))
+    // at the learned P(right) (Sutton & Barto 2018, Example 13.1).
+    let (code, out, err) =
+        call(&["inspect", &preset("corridor-baselines.json"), "--variant", "2", "--at", "4000"]);
+    assert_eq!(code, Some(0), "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let p = v["states"][0]["policy"][1].as_f64().unwrap();
+    let j = v["exact"]["start_value"].as_f64().unwrap();
+    assert!((j - (2.0 * p - 4.0) / (p * (1.0 - p))).abs() < 1e-9, "p = {p}, J = {j}");
+    // Cart-pole: no exact model; the actor's weights and a 7 × 7 slice.
+    let (code, out, err) = call(&["inspect", &preset("cartpole-a2c-tiles.json"), "--at", "1000"]);
+    assert_eq!(code, Some(0), "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    assert_eq!(v["slice"]["points"].as_array().unwrap().len(), 49);
+    assert_eq!(v["slice"]["vars"], serde_json::json!(["x", "x_dot"]));
+    assert!(v["states"].as_array().unwrap().is_empty() && v["exact"].is_null());
+    assert!(v["actor"]["weights"].as_array().unwrap().len() > 100);
+    // The regulator: the deterministic learner's gain within 0.01 of the
+    // Riccati gain after 20 000 steps (Silver et al. 2014, Theorem 1;
+    // Bertsekas, Vol. I, Section 4.1, from memory; the level is the one
+    // crate/core/tests/learners.rs states for every seed).
+    let (code, out, err) = call(&["inspect", &preset("dpg-lqr.json"), "--seed", "4"]);
+    assert_eq!(code, Some(0), "{err}");
+    let v: serde_json::Value = serde_json::from_str(&out).unwrap();
+    let g = &v["regulator"];
+    let (k, k_star) = (g["gain"].as_f64().unwrap(), g["riccati_gain"].as_f64().unwrap());
+    assert!((k - k_star).abs() < 0.01 && (k_star - 0.5884).abs() < 1e-4, "{g}");
+    assert!((g["weights_gain"].as_f64().unwrap() - k).abs() < 1e-9);
+    let (code, table, _) = call(&["inspect", &preset("dpg-lqr.json"), "--seed", "4", "--table"]);
+    assert_eq!(code, Some(0));
+    assert!(
+        table.contains("regulator: learned gain K = ") && table.contains("Riccati: K* = 0.5884"),
+        "{table}"
+    );
+}

@@ -8,12 +8,9 @@
 
 use wasm_bindgen::prelude::*;
 
-use critbox_core::approx::Obs;
 use critbox_core::experiment::config::TaskConfig;
-use critbox_core::experiment::{self, EpisodeRecord, Job, JobStatus, Plan};
-use critbox_core::learn::{build_learner_with, ActionBuf, Learner, Transition};
-use critbox_core::rng::{Purpose, Stream};
-use critbox_core::task::{Action, ActionSpace, Task};
+use critbox_core::experiment::{self, inspect, EpisodeRecord, Job, JobStatus, Plan};
+use critbox_core::task::Task;
 
 /// Installs the panic hook so a programming error shows its message in the console.
 #[wasm_bindgen(start)]
@@ -52,6 +49,13 @@ pub fn validate_config(json: &str) -> Result<String, JsError> {
         "action_names": plan.spec.actions.names().to_vec(),
     });
     Ok(v.to_string())
+}
+
+fn task_of(json: &str) -> Result<Box<dyn Task>, JsError> {
+    let v: serde_json::Value =
+        serde_json::from_str(json).map_err(|e| JsError::new(&format!("task: not valid JSON: {e}")))?;
+    let cfg: TaskConfig = serde_json::from_value(v).map_err(|e| JsError::new(&format!("task: {e}")))?;
+    cfg.build().map_err(|e| JsError::new(&format!("task.{e}")))
 }
 
 /// Checks a reward formula as the user types. `text` is the formula;
@@ -184,23 +188,14 @@ impl Run {
     /// of actions on a discrete task, of action components on a continuous one.
     #[wasm_bindgen(js_name = policyWidth)]
     pub fn policy_width(&self) -> u32 {
-        self.plan.spec.actions.names().len() as u32
+        inspect::policy_width(&self.plan.spec) as u32
     }
 
     /// The observation of every discrete state, in state order, stride =
     /// number of state variables; empty for a task without discrete states.
     #[wasm_bindgen(js_name = stateObservations)]
     pub fn state_observations(&self) -> Vec<f64> {
-        let Some(n) = self.plan.spec.n_states else { return Vec::new() };
-        let task = self.plan.make_task();
-        let k = self.plan.spec.state_vars.len();
-        let mut out = vec![0.0; n * k];
-        for s in 0..n {
-            if !task.state_obs(s, &mut out[s * k..(s + 1) * k]) {
-                return Vec::new();
-            }
-        }
-        out
+        inspect::state_observations(self.plan.make_task().as_ref())
     }
 
     /// What job `index` (its position in this Run's job ids) has learned, at
@@ -210,87 +205,36 @@ impl Run {
     /// discrete task π(a|s) for each action, on a continuous one the action
     /// the policy prefers (the mean, without exploration).
     pub fn inspect(&mut self, index: u32, observations: &[f64]) -> Result<Vec<f64>, JsError> {
-        let k = self.plan.spec.state_vars.len();
-        if k == 0 || !observations.len().is_multiple_of(k) || observations.iter().any(|v| !v.is_finite()) {
-            return Err(JsError::new(&format!(
-                "observations must be finite numbers in groups of {k} (one per state variable), got {}",
-                observations.len()
-            )));
-        }
-        let width = self.policy_width() as usize;
         let task = self.plan.make_task();
-        let finite = self.plan.spec.n_states.is_some();
-        let discrete = self.plan.spec.actions.discrete_count().is_some();
-        let mut buf = ActionBuf::for_spec(&self.plan.spec);
-        let mut probs = vec![0.0; width];
         let learner = self.job_at(index)?.learner_mut();
-        let mut out = Vec::with_capacity(observations.len() / k * (1 + width));
-        for values in observations.chunks_exact(k) {
-            let id = task.id_of(values);
-            if finite && id.is_none() {
-                return Err(JsError::new(&format!("observation {values:?} is not a state of this task")));
-            }
-            let obs = Obs { values, id };
-            out.push(learner.state_value(obs).unwrap_or(f64::NAN));
-            if discrete && learner.probabilities(obs, &mut probs) {
-                out.extend_from_slice(&probs);
-            } else {
-                learner.best_action(obs, &mut buf);
-                match &buf {
-                    ActionBuf::Index(a) => {
-                        out.extend((0..width).map(|i| if i == *a { 1.0 } else { 0.0 }));
-                    }
-                    ActionBuf::Vector(v) => out.extend_from_slice(v),
-                }
-            }
-        }
-        Ok(out)
+        inspect::read_at(learner, task.as_ref(), observations).map_err(|e| JsError::new(&e.to_string()))
     }
 
-    /// The exact value of job `index`'s current policy at every discrete
-    /// state (in state order) under the task's own reward and the variant's
-    /// discount: the solution of `(I − γ P_π) V = r_π`. Empty for a task
-    /// without an exact model; NaN everywhere when the system cannot be
+    /// The exact value of job `index`'s current policy at every state of the
+    /// task's model (in state order) under the task's own reward and the
+    /// variant's discount: the solution of `(I − γ P_π) V = r_π`. Empty for a
+    /// task without an exact model; NaN everywhere when the system cannot be
     /// solved (say, γ = 1 and a policy that may never end an episode).
     #[wasm_bindgen(js_name = policyValues)]
     pub fn policy_values(&mut self, index: u32) -> Result<Vec<f64>, JsError> {
         let task = self.plan.make_task();
-        let (Some(m), Some(na)) = (task.model(), self.plan.spec.actions.discrete_count()) else {
-            return Ok(Vec::new());
-        };
-        let k = self.plan.spec.state_vars.len();
-        let job_id = self.job_at(index)?.id();
-        let variant = self.plan.job_coords(job_id).0;
-        let gamma = self.plan.variants[variant].setup.discount.unwrap_or(self.plan.spec.default_discount);
-        let mut values = vec![0.0; k];
-        let mut pi = vec![0.0; m.n_states * na];
+        let id = self.job_at(index)?.id();
+        let variant = self.plan.job_coords(id).0;
+        let gamma = inspect::discount(&self.plan, variant);
         let learner = self.job_at(index)?.learner_mut();
-        for s in 0..m.n_states {
-            let row = &mut pi[s * na..(s + 1) * na];
-            if m.terminal[s]
-                || !task.state_obs(s, &mut values)
-                || !learner.probabilities(Obs { values: &values, id: Some(s) }, row)
-            {
-                row.fill(0.0);
-                row[0] = 1.0;
-            }
-        }
-        Ok(match critbox_core::exact::evaluate(&m, &pi, gamma) {
-            Ok(v) => v,
-            Err(_) => vec![f64::NAN; m.n_states],
-        })
+        Ok(inspect::policy_values(learner, task.as_ref(), gamma))
     }
 
     /// Plays one episode of job `index`'s current policy on a fresh copy of
     /// the task, for at most `max_steps` steps, with task noise from `seed`:
     /// `greedy` takes the action the policy prefers, otherwise actions are
-    /// sampled as in training (with a stream of their own, so the job is not
-    /// disturbed). Returns frames of stride `k + policyWidth() + 2` (k state
-    /// variables; on a discrete task the action part holds the index and
-    /// then NaNs): the observation, the action taken there, the task's own
-    /// reward for it, and a flag (0 going on, 1 the step ended the episode
-    /// in a terminal state). A last frame holds the final observation with
-    /// NaN action and reward and flag 2 (terminal) or 3 (step limit).
+    /// sampled as in training (with a stream of their own). Returns frames of
+    /// stride `k + policyWidth() + 2` (k state variables; on a discrete task
+    /// the action part holds the index and then NaNs): the observation, the
+    /// action taken there, the task's own reward for it, and a flag (0 going
+    /// on, 1 the step ended the episode in a terminal state). A last frame
+    /// holds the final observation with NaN action and reward and flag 2
+    /// (terminal) or 3 (step limit).
     pub fn rollout(
         &mut self,
         index: u32,
@@ -301,47 +245,10 @@ impl Run {
         if !(seed.is_finite() && seed >= 0.0) {
             return Err(JsError::new(&format!("seed must be a number ≥ 0, got {seed}")));
         }
-        let spec = self.plan.spec.clone();
+        let width = inspect::policy_width(&self.plan.spec);
         let mut task = self.plan.make_task();
-        let k = spec.state_vars.len();
-        let width = spec.actions.names().len();
-        let mut task_rng = Stream::from_seed(seed as u64);
-        let mut agent_rng = Stream::derive(seed as u64, Purpose::Agent, u64::MAX, u64::MAX);
-        let mut obs = vec![0.0; k];
-        let mut next = vec![0.0; k];
-        let mut buf = ActionBuf::for_spec(&spec);
         let learner = self.job_at(index)?.learner_mut();
-        let mut out = Vec::new();
-        task.reset(&mut task_rng, &mut obs);
-        let mut flag = 3.0;
-        for _ in 0..max_steps {
-            let o = Obs { values: &obs, id: task.state_id() };
-            if greedy {
-                learner.best_action(o, &mut buf);
-            } else {
-                learner.act(o, &mut agent_rng, &mut buf);
-            }
-            let step = task.step(buf.as_action(), &mut task_rng, &mut next);
-            out.extend_from_slice(&obs);
-            match &buf {
-                ActionBuf::Index(a) => {
-                    out.push(*a as f64);
-                    out.extend(std::iter::repeat_n(f64::NAN, width.saturating_sub(1)));
-                }
-                ActionBuf::Vector(v) => out.extend_from_slice(v),
-            }
-            out.push(step.reward);
-            out.push(if step.terminated { 1.0 } else { 0.0 });
-            std::mem::swap(&mut obs, &mut next);
-            if step.terminated {
-                flag = 2.0;
-                break;
-            }
-        }
-        out.extend_from_slice(&obs);
-        out.extend(std::iter::repeat_n(f64::NAN, width + 1));
-        out.push(flag);
-        Ok(out)
+        Ok(inspect::rollout(learner, task.as_mut(), max_steps, seed as u64, greedy).frames(width))
     }
 
     /// Episodes finished since the last call, stride 5: job id, end step,
@@ -626,213 +533,5 @@ impl Results {
     #[wasm_bindgen(js_name = summaryJson)]
     pub fn summary_json(&self) -> String {
         self.inner.summary().to_string()
-    }
-}
-
-/// A task driven one step at a time (rollout view, console scripting).
-#[wasm_bindgen]
-pub struct TaskSim {
-    task: Box<dyn Task>,
-    rng: Stream,
-    obs: Vec<f64>,
-}
-
-fn task_of(json: &str) -> Result<Box<dyn Task>, JsError> {
-    let v: serde_json::Value =
-        serde_json::from_str(json).map_err(|e| JsError::new(&format!("task: not valid JSON: {e}")))?;
-    let cfg: TaskConfig = serde_json::from_value(v).map_err(|e| JsError::new(&format!("task: {e}")))?;
-    cfg.build().map_err(|e| JsError::new(&format!("task.{e}")))
-}
-
-#[wasm_bindgen]
-impl TaskSim {
-    /// A task from its config object (the `task` part of a config) and a seed.
-    #[wasm_bindgen(constructor)]
-    pub fn new(task_json: &str, seed: f64) -> Result<TaskSim, JsError> {
-        let task = task_of(task_json)?;
-        let n = task.spec().state_vars.len();
-        Ok(TaskSim { task, rng: Stream::from_seed(seed as u64), obs: vec![0.0; n] })
-    }
-
-    /// Starts an episode; returns the observation.
-    pub fn reset(&mut self) -> Vec<f64> {
-        self.task.reset(&mut self.rng, &mut self.obs);
-        self.obs.clone()
-    }
-
-    /// Applies an action (`[index]` for discrete tasks); returns the next
-    /// observation followed by the reward and 1 if the episode terminated.
-    pub fn step(&mut self, action: &[f64]) -> Result<Vec<f64>, JsError> {
-        let st = match self.task.spec().actions.discrete_count() {
-            Some(n) => {
-                let a = action.first().copied().unwrap_or(f64::NAN);
-                if !(a >= 0.0 && (a as usize) < n && a.fract() == 0.0) {
-                    return Err(JsError::new(&format!(
-                        "action must be [index] with index in 0..{n}, got {action:?}"
-                    )));
-                }
-                self.task.step(Action::Index(a as usize), &mut self.rng, &mut self.obs)
-            }
-            None => {
-                let dims = self.task.spec().actions.names().len();
-                if action.len() != dims || action.iter().any(|v| !v.is_finite()) {
-                    return Err(JsError::new(&format!(
-                        "action must hold {dims} finite numbers (one per action component), got {action:?}"
-                    )));
-                }
-                self.task.step(Action::Vector(action), &mut self.rng, &mut self.obs)
-            }
-        };
-        let mut out = self.obs.clone();
-        out.push(st.reward);
-        out.push(if st.terminated { 1.0 } else { 0.0 });
-        Ok(out)
-    }
-
-    /// Names of the state variables, as JSON.
-    #[wasm_bindgen(js_name = stateNames)]
-    pub fn state_names(&self) -> String {
-        serde_json::Value::from(
-            self.task.spec().state_vars.iter().map(|v| v.name.clone()).collect::<Vec<_>>(),
-        )
-        .to_string()
-    }
-
-    /// Number of discrete actions (0 for a continuous task).
-    #[wasm_bindgen(js_name = actionCount)]
-    pub fn action_count(&self) -> u32 {
-        self.task.spec().actions.discrete_count().unwrap_or(0) as u32
-    }
-
-    /// Bounds of a continuous action: the lower bounds of every component,
-    /// then the upper bounds (empty for a discrete task).
-    #[wasm_bindgen(js_name = actionBounds)]
-    pub fn action_bounds(&self) -> Vec<f64> {
-        match &self.task.spec().actions {
-            ActionSpace::Continuous { low, high, .. } => low.iter().chain(high).copied().collect(),
-            ActionSpace::Discrete(_) => Vec::new(),
-        }
-    }
-}
-
-/// One variant's learner driven one step at a time.
-#[wasm_bindgen]
-pub struct Agent {
-    learner: Box<dyn Learner>,
-    task: Box<dyn Task>,
-    rng: Stream,
-    actions: usize,
-    dims: usize,
-    obs_len: usize,
-    out: ActionBuf,
-}
-
-#[wasm_bindgen]
-impl Agent {
-    /// The learner of variant `variant` of a config, with the agent stream of seed index `seed`.
-    #[wasm_bindgen(constructor)]
-    pub fn new(config_json: &str, variant: u32, seed: u32) -> Result<Agent, JsError> {
-        let plan = plan_of(config_json)?;
-        let Some(v) = plan.variants.get(variant as usize) else {
-            return Err(JsError::new(&format!(
-                "variant {variant} is out of range ({} variants)",
-                plan.variants.len()
-            )));
-        };
-        // The same stream as the job's: MLP weights first, then the actions.
-        let mut rng =
-            Stream::derive(plan.config.master_seed, Purpose::Agent, u64::from(variant), u64::from(seed));
-        let learner =
-            build_learner_with(&v.setup, &plan.spec, &mut rng).map_err(|e| JsError::new(&e.to_string()))?;
-        Ok(Agent {
-            learner,
-            task: plan.make_task(),
-            rng,
-            actions: plan.spec.actions.discrete_count().unwrap_or(0),
-            dims: match &plan.spec.actions {
-                ActionSpace::Continuous { low, .. } => low.len(),
-                ActionSpace::Discrete(_) => 0,
-            },
-            obs_len: plan.spec.state_vars.len(),
-            out: ActionBuf::for_spec(&plan.spec),
-        })
-    }
-
-    fn obs<'a>(&self, values: &'a [f64], what: &str) -> Result<Obs<'a>, JsError> {
-        if values.len() != self.obs_len || values.iter().any(|v| !v.is_finite()) {
-            return Err(JsError::new(&format!(
-                "{what} must hold {} finite numbers, got {values:?}",
-                self.obs_len
-            )));
-        }
-        let id = self.task.id_of(values);
-        if self.task.spec().n_states.is_some() && id.is_none() {
-            return Err(JsError::new(&format!("{what} {values:?} is not a state of this task")));
-        }
-        Ok(Obs { values, id })
-    }
-
-    fn action<'a>(&self, a: &'a [f64], what: &str) -> Result<Action<'a>, JsError> {
-        if self.dims > 0 {
-            return if a.len() == self.dims && a.iter().all(|v| v.is_finite()) {
-                Ok(Action::Vector(a))
-            } else {
-                Err(JsError::new(&format!(
-                    "{what} must hold {} finite numbers (one per action component), got {a:?}",
-                    self.dims
-                )))
-            };
-        }
-        let ok = a.len() == 1 && a[0] >= 0.0 && a[0].fract() == 0.0 && (a[0] as usize) < self.actions;
-        if ok {
-            Ok(Action::Index(a[0] as usize))
-        } else {
-            Err(JsError::new(&format!("{what} must be [index] with index in 0..{}, got {a:?}", self.actions)))
-        }
-    }
-
-    /// Samples an action at `obs`; returns `[index]` on a discrete task, the
-    /// action's components on a continuous one.
-    pub fn act(&mut self, obs: &[f64]) -> Result<Vec<f64>, JsError> {
-        let o = self.obs(obs, "obs")?;
-        self.learner.act(o, &mut self.rng, &mut self.out);
-        Ok(self.out.to_vec())
-    }
-
-    /// Learns from one transition; `next_action` is empty after a
-    /// termination. Returns the diagnostics: TD error, entropy, actor and
-    /// critic update norms.
-    #[allow(clippy::too_many_arguments)]
-    pub fn learn(
-        &mut self,
-        obs: &[f64],
-        action: &[f64],
-        reward: f64,
-        next_obs: &[f64],
-        next_action: &[f64],
-        terminated: bool,
-        truncated: bool,
-    ) -> Result<Vec<f64>, JsError> {
-        if !reward.is_finite() {
-            return Err(JsError::new(&format!("reward must be finite, got {reward}")));
-        }
-        let tr = Transition {
-            obs: self.obs(obs, "obs")?,
-            action: self.action(action, "action")?,
-            reward,
-            next: self.obs(next_obs, "next_obs")?,
-            next_action: if next_action.is_empty() {
-                None
-            } else {
-                Some(self.action(next_action, "next_action")?)
-            },
-            terminated,
-            truncated,
-        };
-        if !terminated && tr.next_action.is_none() {
-            return Err(JsError::new("next_action is needed unless the transition terminated"));
-        }
-        let d = self.learner.learn(&tr, &mut self.rng).map_err(|e| JsError::new(&e.to_string()))?;
-        Ok(vec![d.td_error, d.entropy, d.actor_grad_norm, d.critic_grad_norm])
     }
 }

@@ -10,12 +10,13 @@
 //! returns on environment steps, collects the evaluation returns, and
 //! summarises both across seeds; [`compare`] makes the scores and the
 //! comparisons, [`hacking`] the reward-hacking signal, [`export`] the CSV
-//! and results files.
+//! and results files, [`inspect`] reads what a job has learned.
 
 pub mod compare;
 pub mod config;
 pub mod export;
 pub mod hacking;
+pub mod inspect;
 pub mod probe;
 pub mod results;
 pub mod runner;

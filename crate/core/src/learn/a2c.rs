@@ -17,6 +17,7 @@
 //! & Peng 1991; Mnih et al. 2016). As is usual in practice, the `γ^t` factor
 //! of the episodic theorem is left out of the actor step.
 
+use super::ActorParams;
 use super::{
     action_dims, finite, stochastic_actor, value_critic, LearnError, Learner, LearnerSetup, StepDiag,
     Trajectory, Transition,
@@ -99,6 +100,10 @@ impl Learner for A2c {
 
     fn state_value(&mut self, obs: Obs<'_>) -> Option<f64> {
         Some(self.value(obs))
+    }
+
+    fn actor_params(&self) -> Option<ActorParams<'_>> {
+        Some(self.actor.actor_params())
     }
 
     fn learn(&mut self, t: &Transition<'_>, _rng: &mut Stream) -> Result<StepDiag, LearnError> {

@@ -21,6 +21,7 @@
 //! (`target_tau = 1` means no copies: `Q' = Q`, `μ' = μ`). Without replay
 //! each transition is learned from once, as it comes.
 
+use super::ActorParams;
 use super::{finite, joint_vars, state_net, LearnError, Learner, LearnerSetup, StepDiag, Transition};
 use crate::approx::FeaturePool;
 use crate::approx::{build_approx, Approx, Obs};
@@ -326,6 +327,10 @@ impl Learner for Deterministic {
         let q = self.q(obs, &mu);
         self.mu = mu;
         Some(q)
+    }
+
+    fn actor_params(&self) -> Option<ActorParams<'_>> {
+        Some(ActorParams { weights: self.actor.net.net.params(), log_std: &[] })
     }
 }
 

@@ -8,6 +8,7 @@
 //! no discount; `V` is the differential value. The runner never truncates a
 //! continuing task, so every transition bootstraps.
 
+use super::ActorParams;
 use super::{
     finite, stochastic_actor, value_critic, LearnError, Learner, LearnerSetup, StepDiag, Transition,
 };
@@ -69,6 +70,10 @@ impl Learner for Differential {
 
     fn state_value(&mut self, obs: Obs<'_>) -> Option<f64> {
         Some(self.critic.eval(obs)[0])
+    }
+
+    fn actor_params(&self) -> Option<ActorParams<'_>> {
+        Some(self.actor.actor_params())
     }
 
     fn probabilities(&mut self, obs: Obs<'_>, out: &mut [f64]) -> bool {

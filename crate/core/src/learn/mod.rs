@@ -144,6 +144,17 @@ impl std::fmt::Display for LearnError {
 
 impl std::error::Error for LearnError {}
 
+/// A learner's actor weights, for inspection ([`Learner::actor_params`]).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct ActorParams<'a> {
+    /// The actor approximator's weights; a linear actor's are output-major
+    /// (`w[k * dim + i]`, feature `i` of output `k`).
+    pub weights: &'a [f64],
+    /// A Gaussian policy's log-standard deviations, one per action component
+    /// (learned or fixed); empty for a softmax or a deterministic actor.
+    pub log_std: &'a [f64],
+}
+
 /// An agent that acts and learns one transition at a time.
 pub trait Learner: Send {
     /// Samples an action at `obs` into `out` (off-policy learners: from the
@@ -172,6 +183,11 @@ pub trait Learner: Send {
     /// `Σ_a π(a|s) Q(s, a)`); `None` when the learner keeps no such estimate
     /// (REINFORCE without a value baseline).
     fn state_value(&mut self, _obs: Obs<'_>) -> Option<f64> {
+        None
+    }
+    /// The actor's weights (the off-policy learner: its target policy's),
+    /// for inspection; `None` for a learner without an actor of its own.
+    fn actor_params(&self) -> Option<ActorParams<'_>> {
         None
     }
 }

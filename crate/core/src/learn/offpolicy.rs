@@ -20,6 +20,7 @@
 //! The curves of an off-policy job show the returns of the episodes it ran,
 //! that is, of the behaviour policy.
 
+use super::ActorParams;
 use super::{
     finite, stochastic_actor, value_critic, BehaviourKind, LearnError, Learner, LearnerSetup, StepDiag,
     Transition,
@@ -273,6 +274,10 @@ impl Learner for OffPolicy {
 
     fn state_value(&mut self, obs: Obs<'_>) -> Option<f64> {
         Some(self.critic.eval(obs)[0])
+    }
+
+    fn actor_params(&self) -> Option<ActorParams<'_>> {
+        Some(self.target.actor_params())
     }
 
     fn probabilities(&mut self, obs: Obs<'_>, out: &mut [f64]) -> bool {

@@ -10,6 +10,7 @@
 //! optional entropy bonus. No baseline: the variance is the point of
 //! comparison with A2C. Discrete actions only.
 
+use super::ActorParams;
 use super::{finite, state_net, stochastic_actor, LearnError, Learner, LearnerSetup, StepDiag, Transition};
 use crate::approx::FeaturePool;
 use crate::approx::Obs;
@@ -54,6 +55,10 @@ impl Learner for Qac {
         let q = self.critic.eval(obs);
         let p = self.actor.probabilities(obs);
         Some(p.iter().zip(q).map(|(p, q)| p * q).sum())
+    }
+
+    fn actor_params(&self) -> Option<ActorParams<'_>> {
+        Some(self.actor.actor_params())
     }
 
     fn learn(&mut self, t: &Transition<'_>, _rng: &mut Stream) -> Result<StepDiag, LearnError> {

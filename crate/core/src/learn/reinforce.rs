@@ -29,6 +29,7 @@
 //! [`EpisodeEstimate`] computes the gradient estimate of one episode for any
 //! baseline; the variance checks use it on a fixed policy.
 
+use super::ActorParams;
 use super::{
     action_dims, finite, stochastic_actor, value_critic, Baseline, LearnError, Learner, LearnerSetup,
     StepDiag, Trajectory, Transition,
@@ -223,6 +224,10 @@ impl Learner for Reinforce {
 
     fn state_value(&mut self, obs: Obs<'_>) -> Option<f64> {
         self.critic.as_mut().map(|c| c.eval(obs)[0])
+    }
+
+    fn actor_params(&self) -> Option<ActorParams<'_>> {
+        Some(self.actor.actor_params())
     }
 
     fn probabilities(&mut self, obs: Obs<'_>, out: &mut [f64]) -> bool {

@@ -177,6 +177,11 @@ impl StochasticPolicy {
         }
     }
 
+    /// The weights and log-standard deviations, for [`crate::learn::Learner::actor_params`].
+    pub fn actor_params(&self) -> crate::learn::ActorParams<'_> {
+        crate::learn::ActorParams { weights: self.net.net.params(), log_std: self.log_std() }
+    }
+
     /// The current log-standard deviations (empty for a softmax).
     pub fn log_std(&self) -> &[f64] {
         match &self.kind {

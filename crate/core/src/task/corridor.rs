@@ -7,7 +7,8 @@
 //! tell the states apart: its observation is one constant variable (`bias`
 //! = 1) and the task declares no state ids, so every state has the same
 //! features and a policy is one number, `p = P(right)`. The exact model is
-//! still available ([`Task::model`]) for the exact checks. With discount 1
+//! still available ([`Task::model`]) for the exact checks, and every model
+//! state's observation is that same `bias = 1` ([`Task::state_obs`]). With discount 1
 //! the start value is `J(p) = (2p − 4) / (p (1 − p))` ([`ShortCorridor::objective`],
 //! derived from the three Bellman equations), largest at `p* = 2 − √2`
 //! where `J = −(6 + 4√2) ≈ −11.66`; an ε-greedy policy (ε = 0.1) is stuck at
@@ -114,6 +115,16 @@ impl Task for ShortCorridor {
         }
         self.state = ShortCorridor::next_state(self.state, a);
         Step { reward: -1.0, terminated: self.state == GOAL }
+    }
+
+    /// Every state shows the same observation, `bias = 1`: what the agent
+    /// sees there (the states cannot be told apart).
+    fn state_obs(&self, s: usize, obs: &mut [f64]) -> bool {
+        if s > GOAL || obs.is_empty() {
+            return false;
+        }
+        obs[0] = 1.0;
+        true
     }
 
     fn model(&self) -> Option<FiniteModel> {
