@@ -618,3 +618,105 @@ fn the_optimal_constant_has_the_smallest_variance_of_the_constants() {
         assert!(opt <= none.min(avg) * slack, "{name}: none {none}, average {avg}, optimal {opt}");
     }
 }
+
+#[test]
+fn a_diverging_variant_shows_in_the_verdict_and_the_threshold() {
+    // The regulator learner above, diverging, beside a stable one (the
+    // preset's Gaussian A2C step sizes): every failed seed is named at the start
+    // of the verdict, counted as never reaching the threshold, and left out of
+    // the means (common practice, no source).
+    let p = plan(json!({"schema": 1, "task": {"kind": "lqr"}, "seeds": 4, "steps": 5000, "master_seed": 5,
+        "threshold": -10.0,
+        "base": {"algo": "a2c", "critic_step": 0.1, "features": {"kind": "poly", "degree": 2}},
+        "variants": [{"label": "stable", "learner": {"actor_step": 0.001}},
+                     {"label": "bold", "learner": {"actor_step": 0.02}}]}));
+    let s = experiment::run_all(&p).summary();
+    let bold = &s["variants"][1];
+    let failed = bold["failed"].as_array().unwrap().len();
+    assert!(failed >= 1, "{bold}");
+    assert_eq!(bold["final_return"]["n"].as_u64().unwrap() as usize, 4 - failed);
+    let never = bold["steps_to_threshold"]["never"].as_u64().unwrap() as usize;
+    assert!(never >= failed);
+    for f in bold["failed"].as_array().unwrap() {
+        let seed = f["seed"].as_u64().unwrap() as usize;
+        assert!(bold["steps_to_threshold"]["per_seed"][seed].is_null());
+        assert!(bold["per_seed_final"][seed].is_null());
+    }
+    let verdict = s["comparisons"][0]["verdict"].as_str().unwrap();
+    assert!(verdict.starts_with(&format!("{failed} of 4 seeds of bold failed")), "{verdict}");
+    assert!(verdict.contains("diverged"), "{verdict}");
+}
+
+#[test]
+fn holm_on_the_presets_matches_statsmodels() {
+    // statsmodels 0.15.0 multipletests(p, method="holm") on the raw Welch p values
+    // of three presets' comparisons (tests/reference/holm_presets.py). The raw p
+    // values are pinned too: if a learner changes them, rerun the script.
+    let cases: [(&str, &[f64], &[f64]); 3] = [
+        (
+            "corridor-baselines",
+            &[
+                0.26255979522540474,
+                0.0004643156831345031,
+                0.21082012578965081,
+                0.011245126334127884,
+                0.8046997845996364,
+                0.04939179318447992,
+            ],
+            &[
+                0.6324603773689524,
+                0.0027858940988070187,
+                0.6324603773689524,
+                0.056225631670639424,
+                0.8046997845996364,
+                0.19756717273791968,
+            ],
+        ),
+        (
+            "rover-a2c-vs-qac",
+            &[0.04942830679365555, 0.007786934795154448, 0.0797267886760319],
+            &[0.0988566135873111, 0.023360804385463344, 0.0988566135873111],
+        ),
+        (
+            "offpolicy-random-behaviour",
+            &[
+                0.1751078664526201,
+                0.01556268099926253,
+                0.8301599424868676,
+                0.2971339603413359,
+                0.014920618578434887,
+                0.10849436538258833,
+                0.0011163766599432173,
+                0.015700093004069694,
+                0.015076244218619915,
+                0.19056519855335396,
+            ],
+            &[
+                0.7004314658104804,
+                0.13428556720591397,
+                0.8301599424868676,
+                0.7004314658104804,
+                0.13428556720591397,
+                0.5424718269129416,
+                0.011163766599432173,
+                0.13428556720591397,
+                0.13428556720591397,
+                0.7004314658104804,
+            ],
+        ),
+    ];
+    for (name, raw, want) in cases {
+        let text =
+            std::fs::read_to_string(format!("{}/../../web/presets/{name}.json", env!("CARGO_MANIFEST_DIR")))
+                .unwrap();
+        let s = experiment::run_all(&experiment::parse(&text).unwrap()).summary();
+        let cs = s["comparisons"].as_array().unwrap();
+        assert_eq!(cs.len(), raw.len(), "{name}");
+        for ((c, &p), &q) in cs.iter().zip(raw).zip(want) {
+            let got_p = c["welch"]["p"].as_f64().unwrap();
+            let got_q = c["welch"]["p_holm"].as_f64().unwrap();
+            assert!((got_p - p).abs() <= 1e-12 * p.max(1e-300), "{name}: raw p {got_p} pinned {p}");
+            assert!((got_q - q).abs() <= 1e-12, "{name}: Holm {got_q}, statsmodels {q}");
+        }
+    }
+}

@@ -2,17 +2,20 @@
 //!
 //! From each seed's number (on the scored measure: the final evaluation
 //! return or the final training return, the area under the curve) this
-//! module makes the score table ([`score`] → [`Score`]) and the comparisons
-//! ([`compare_all`] → [`Comparison`]): every pair of variants, or every
-//! variant against a reference. A comparison carries the difference of
-//! means with Welch's t-test and its 95% interval (the one interval of the
-//! difference, used by the table and the verdict alike), the p value
-//! adjusted for the number of comparisons by Holm's step-down method (Holm
-//! 1979), the probability of improvement P(B > A) (Agarwal et al. 2021,
-//! Section 4) with its interval, seeds advice, and a verdict in plain words
-//! that never claims more than the corrected test shows. A variant with
-//! failed seeds is judged on its other seeds and every verdict about it
-//! says so first. Bootstrap draws (the IQM's interval) come from streams
+//! module makes the score table ([`score`] → [`Score`]: mean with its
+//! Student-t interval, IQM with its percentile-bootstrap interval, median,
+//! SD, and a normal tolerance interval for where one more seed lands) and
+//! the comparisons ([`compare_all`] → [`Comparison`]): every pair of
+//! variants, or every variant against a reference. A comparison carries the
+//! difference of means with Welch's t-test and its 95% interval (the one
+//! interval of the difference, used by the table and the verdict alike),
+//! the p value adjusted for the number of comparisons by Holm's step-down
+//! method (Holm 1979), the probability of improvement P(B > A) (Agarwal et
+//! al. 2021, Section 4) with Newcombe's (2006) Method 5 interval, seeds
+//! advice stated as the power of the Welch test, and a verdict in plain
+//! words that never claims more than the corrected test shows. A variant
+//! with failed seeds is judged on its other seeds and every verdict about
+//! it says so first. Bootstrap draws (the IQM's interval) come from streams
 //! derived from the master seed, so the numbers are reproducible.
 
 use serde::Serialize;
@@ -44,6 +47,10 @@ pub struct Score {
     pub median: Num,
     /// Sample standard deviation.
     pub sd: Num,
+    /// Normal-theory tolerance interval of the per-seed values: the range
+    /// that holds 90% of seeds with 95% confidence (Howe 1969 factor), where
+    /// one more seed should be expected to land (null with fewer than 2 seeds).
+    pub tolerance90: Pair,
     /// Seeds (indices) that have no value and did not fail: a run still
     /// going, or no episode ended in the final share of the budget.
     pub missing: Vec<usize>,
@@ -64,6 +71,7 @@ pub fn score(xs: &[f64], missing: Vec<usize>, master: u64, key: u64, index: u64)
         iqm_ci95: pair(iqm_ci),
         median: Num(stats::median(xs)),
         sd: Num(s.sd),
+        tolerance90: pair(stats::tolerance_interval90(xs)),
         missing,
     }
 }
@@ -112,15 +120,90 @@ pub struct ProbImprovement {
     pub method: &'static str,
 }
 
-/// How many seeds a clear answer needs (`seeds_advice`).
+/// How many seeds a clear answer needs (`seeds_advice`): the power of the
+/// two-sided Welch test from the noncentral t distribution with
+/// Welch–Satterthwaite degrees of freedom (the standard approximation;
+/// `stats::welch_power`), at the spreads seen in this comparison.
 #[derive(Clone, Debug, PartialEq, Serialize)]
 pub struct SeedsAdvice {
-    /// The difference it is sized for.
+    /// The true difference it is sized for.
     pub difference: Num,
-    /// Seeds per variant (t-based, Welch df).
-    pub seeds_per_variant: usize,
-    /// The normal-approximation answer.
-    pub normal_approximation: usize,
+    /// `"detect_difference"` (the config's) or `"observed"` (this pair's).
+    pub sized_to: &'static str,
+    /// The per-comparison significance level: 0.05 shared over the family
+    /// of comparisons, 0.05/m (the strictest step of Holm's method).
+    pub alpha: Num,
+    /// The power it is sized for.
+    pub power: Num,
+    /// Seeds per variant that reach that power (null: more than can be run).
+    pub seeds_per_variant: Option<usize>,
+    /// The power the seeds run here have for that difference, when it is the
+    /// config's `detect_difference` (null when sized to the observed
+    /// difference: the "observed power" is only a restatement of the p value).
+    pub power_now: Num,
+    /// Seeds per variant the spreads come from (the smaller group).
+    pub spread_from: usize,
+    /// A caution when the spreads come from fewer than 5 seeds.
+    pub caution: Option<String>,
+    /// The advice in words.
+    pub text: String,
+}
+
+/// Power the seeds advice is sized for.
+pub const ADVICE_POWER: f64 = 0.8;
+
+fn seeds_advice(ya: &[f64], yb: &[f64], detect: Option<f64>, family: usize) -> Option<SeedsAdvice> {
+    let (sized_to, d) = match detect {
+        Some(d) => ("detect_difference", d),
+        None => ("observed", (stats::mean(yb) - stats::mean(ya)).abs()),
+    };
+    if ya.len() < 2 || yb.len() < 2 || !(d > 0.0 && d.is_finite()) {
+        return None;
+    }
+    let (sa, sb) = (stats::sd(ya), stats::sd(yb));
+    let alpha = ALPHA / family.max(1) as f64;
+    let needed = match stats::seeds_for_power(d, sa, sb, alpha, ADVICE_POWER) {
+        Ok(n) => Some(n),
+        Err(stats::SeedsError::TooMany { .. }) => None,
+        Err(_) => return None,
+    };
+    let n_now = ya.len().min(yb.len());
+    let power_now = if detect.is_some() { stats::welch_power(d, sa, sb, n_now, alpha) } else { f64::NAN };
+    let spread_from = n_now;
+    let caution = (spread_from < 5).then(|| {
+        format!(
+            "the spreads come from {spread_from} seeds, so this figure is itself uncertain; run 5 or more \
+             pilot seeds before trusting it"
+        )
+    });
+    let level = if family > 1 {
+        format!("a two-sided Welch test at {} (0.05 shared over {family} comparisons)", fmt(alpha))
+    } else {
+        "a two-sided Welch test at 0.05".into()
+    };
+    let n_text = match needed {
+        Some(n) => format!("{n} seeds per variant give"),
+        None => format!("more than {} seeds per variant would be needed for", stats::MAX_SEEDS),
+    };
+    let mut text = format!(
+        "if the true difference were {} and the spread as seen here, {n_text} an 80% chance of detecting it \
+         with {level}",
+        fmt(d)
+    );
+    if power_now.is_finite() {
+        text.push_str(&format!("; the {n_now} seeds run here have a {:.0}% chance", 100.0 * power_now));
+    }
+    Some(SeedsAdvice {
+        difference: Num(d),
+        sized_to,
+        alpha: Num(alpha),
+        power: Num(ADVICE_POWER),
+        seeds_per_variant: needed,
+        power_now: Num(power_now),
+        spread_from,
+        caution,
+        text,
+    })
 }
 
 /// A comparison of variant `b` against variant `a` on per-seed values.
@@ -164,12 +247,12 @@ pub fn fmt(x: f64) -> String {
     }
 }
 
-/// A p value for a verdict: below 1e-4 as "< 1e-4".
+/// A p value for a verdict, with its relation: "= 0.032", or "< 1e-4".
 fn fmt_p(p: f64) -> String {
     if p < 1e-4 {
         "< 1e-4".into()
     } else {
-        fmt(p)
+        format!("= {}", fmt(p))
     }
 }
 
@@ -180,21 +263,6 @@ pub fn pairs(k: usize, reference: Option<usize>) -> Vec<(usize, usize)> {
         Some(r) => (0..k).filter(|&v| v != r).map(|v| (r, v)).collect(),
         None => (0..k).flat_map(|a| (a + 1..k).map(move |b| (a, b))).collect(),
     }
-}
-
-/// Holm's step-down adjustment (Holm 1979) of the finite p values in
-/// `p`; NaN entries stay NaN and are not counted in the family.
-fn holm(p: &[f64]) -> Vec<f64> {
-    let mut order: Vec<usize> = (0..p.len()).filter(|&i| p[i].is_finite()).collect();
-    order.sort_by(|&i, &j| p[i].total_cmp(&p[j]));
-    let m = order.len();
-    let mut out = vec![f64::NAN; p.len()];
-    let mut running = 0.0_f64;
-    for (rank, &i) in order.iter().enumerate() {
-        running = running.max(((m - rank) as f64 * p[i]).min(1.0));
-        out[i] = running;
-    }
-    out
 }
 
 /// "k of n seeds of X failed (reason)" for a variant with failed seeds.
@@ -211,7 +279,6 @@ pub fn compare_all(
     entries: &[Entry<'_>],
     pairs: &[(usize, usize)],
     measure: &'static str,
-    master: u64,
     detect: Option<f64>,
 ) -> Vec<Comparison> {
     let tests: Vec<Option<stats::Welch>> = pairs
@@ -226,7 +293,7 @@ pub fn compare_all(
         })
         .collect();
     let raw: Vec<f64> = tests.iter().map(|w| w.as_ref().map_or(f64::NAN, |w| w.p)).collect();
-    let adjusted = holm(&raw);
+    let adjusted = stats::holm(&raw);
     let family = raw.iter().filter(|p| p.is_finite()).count();
     pairs
         .iter()
@@ -235,22 +302,11 @@ pub fn compare_all(
         .map(|((&(a, b), welch), &p_holm)| {
             let (ea, eb) = (&entries[a], &entries[b]);
             let (ya, yb) = (&ea.values, &eb.values);
-            let key = 1000 + (a as u64) * 64 + b as u64;
-            let mut rng = Stream::derive(master, Purpose::Stats, key, 0);
             let enough = ya.len() >= 2 && yb.len() >= 2;
             let diff = if ya.is_empty() || yb.is_empty() { f64::NAN } else { stats::mean(yb) - stats::mean(ya) };
             let pi = if ya.is_empty() || yb.is_empty() { f64::NAN } else { stats::prob_improvement(yb, ya) };
-            let pi_ci = if enough { stats::prob_improvement_ci(yb, ya, 0.95, RESAMPLES, &mut rng) } else { None };
-            let advice_for = detect.unwrap_or(diff.abs());
-            let seeds_advice = if enough && advice_for > 0.0 {
-                stats::seeds_needed(stats::sd(ya), stats::sd(yb), advice_for).ok().map(|s| SeedsAdvice {
-                    difference: Num(advice_for),
-                    seeds_per_variant: s.welch,
-                    normal_approximation: s.normal,
-                })
-            } else {
-                None
-            };
+            let pi_ci = stats::prob_improvement_interval(yb, ya, 0.95);
+            let seeds_advice = seeds_advice(ya, yb, detect, pairs.len());
             let mut warnings: Vec<String> = [failure_note(ea), failure_note(eb)].into_iter().flatten().collect();
             if measure == "training" && (ea.explores || eb.explores) {
                 let who = match (ea.explores, eb.explores) {
@@ -267,11 +323,11 @@ pub fn compare_all(
             let (na, nb) = (ya.len(), yb.len());
             let seeds = if na == nb { format!("{na} seeds each") } else { format!("{na} and {nb} seeds") };
             let (la, lb) = (ea.label, eb.label);
-            let corrected = |p: f64, q: f64| {
+            let tests = |p: f64, q: f64| {
                 if family > 1 {
-                    format!("Welch p = {}, Holm-adjusted over {family} comparisons {}", fmt_p(p), fmt_p(q))
+                    format!("Welch p {}, Holm-adjusted over {family} comparisons p {}", fmt_p(p), fmt_p(q))
                 } else {
-                    format!("Welch p = {}", fmt_p(p))
+                    format!("Welch p {}", fmt_p(p))
                 }
             };
             let main = if !enough {
@@ -285,7 +341,16 @@ pub fn compare_all(
                         fmt(diff.abs()),
                         fmt(ci.0),
                         fmt(ci.1),
-                        corrected(w.p, p_holm)
+                        tests(w.p, p_holm)
+                    )
+                } else if w.p < ALPHA {
+                    format!(
+                        "no difference that survives the correction for {family} comparisons ({lb} − {la} = {}, \
+                         95% CI {} to {} for this comparison alone; {}; {seeds})",
+                        fmt(diff),
+                        fmt(ci.0),
+                        fmt(ci.1),
+                        tests(w.p, p_holm)
                     )
                 } else {
                     format!(
@@ -293,7 +358,7 @@ pub fn compare_all(
                         fmt(diff),
                         fmt(ci.0),
                         fmt(ci.1),
-                        corrected(w.p, p_holm)
+                        tests(w.p, p_holm)
                     )
                 }
             } else if diff == 0.0 {
@@ -317,7 +382,7 @@ pub fn compare_all(
                 prob_improvement: ProbImprovement {
                     value: Num(pi),
                     ci95: pair(pi_ci),
-                    method: "percentile bootstrap",
+                    method: "Newcombe (2006) method 5",
                 },
                 seeds_advice,
                 warnings,
@@ -339,15 +404,15 @@ mod tests {
     fn clear_difference_is_called_and_noise_is_not() {
         let a = entry("A", &[10.0, 11.0, 9.5, 10.2, 10.8, 9.9]);
         let b = entry("B", &[14.0, 15.1, 13.7, 14.4, 15.0, 14.2]);
-        let c = &compare_all(&[a, b], &[(0, 1)], "training", 1, None)[0];
+        let c = &compare_all(&[a, b], &[(0, 1)], "training", None)[0];
         assert!(c.verdict.starts_with("B ends higher than A by 4.167"), "{}", c.verdict);
         assert_eq!(c.prob_improvement.value, Num(1.0));
         let n = entry("A", &[10.0, 12.0, 9.0, 11.0]);
         let m = entry("B", &[11.0, 10.0, 12.5, 9.5]);
-        let c = &compare_all(&[n, m.clone()], &[(0, 1)], "training", 1, None)[0];
+        let c = &compare_all(&[n, m.clone()], &[(0, 1)], "training", None)[0];
         assert!(c.verdict.starts_with("no detectable difference at 4 seeds each"), "{}", c.verdict);
         let one = entry("A", &[1.0]);
-        let c = &compare_all(&[one, m], &[(0, 1)], "training", 1, None)[0];
+        let c = &compare_all(&[one, m], &[(0, 1)], "training", None)[0];
         assert!(c.verdict.starts_with("not enough seeds"));
         assert!(c.welch.is_none());
     }
@@ -358,7 +423,7 @@ mod tests {
         // df = 17.776, p = 0.07939 for group 1 minus group 2; here B = group 1.
         let g1 = entry("g1", &[0.7, -1.6, -0.2, -1.2, -0.1, 3.4, 3.7, 0.8, 0.0, 2.0]);
         let g2 = entry("g2", &[1.9, 0.8, 1.1, 0.1, -0.1, 4.4, 5.5, 1.6, 4.6, 3.4]);
-        let c = &compare_all(&[g2, g1], &[(0, 1)], "training", 1, None)[0];
+        let c = &compare_all(&[g2, g1], &[(0, 1)], "training", None)[0];
         let w = c.welch.as_ref().unwrap();
         assert!(
             (w.t.0 + 1.8608).abs() < 5e-5 && (w.df.0 - 17.776).abs() < 5e-4 && (w.p.0 - 0.07939).abs() < 5e-6

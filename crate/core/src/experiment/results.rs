@@ -630,7 +630,7 @@ impl Results {
             })
             .collect();
         let pairs = pairs(self.labels.len(), self.reference);
-        compare_all(&entries, &pairs, self.score_on.name(), self.master_seed, self.detect)
+        compare_all(&entries, &pairs, self.score_on.name(), self.detect)
     }
 
     fn variant_report(&self, v: usize) -> VariantReport {
@@ -719,5 +719,139 @@ impl Results {
     /// The summary as JSON.
     pub fn summary(&self) -> serde_json::Value {
         crate::report::to_value(&self.report())
+    }
+}
+
+#[cfg(test)]
+mod tests {
+    use super::*;
+    use crate::experiment::config::validate_value;
+    use serde_json::json;
+
+    /// A plan of `variants` variants × `seeds` seeds on the rover floor,
+    /// 1000 steps, 10 bins; results are filled by hand below.
+    fn plan(variants: usize, seeds: u32, extra: serde_json::Value) -> Plan {
+        let mut v = json!({
+            "schema": 1, "task": {"kind": "grid", "layout": "rover"},
+            "variants": (0..variants).map(|i| json!({"label": format!("v{i}")})).collect::<Vec<_>>(),
+            "seeds": seeds, "steps": 1000, "curve_points": 10, "final_fraction": 0.1,
+        });
+        for (k, x) in extra.as_object().unwrap() {
+            v[k] = x.clone();
+        }
+        validate_value(&v).unwrap()
+    }
+
+    fn ep(end_step: u64, ret: f64) -> EpisodeRecord {
+        EpisodeRecord { end_step, base_return: ret, shaped_return: ret, length: 1, truncated: false }
+    }
+
+    #[test]
+    fn curve_bands_are_student_t_and_absent_under_three_seeds() {
+        // R: t.test(sleep$extra[sleep$group == 1]) (Student 1908 data): mean 0.75,
+        // 95% CI −0.5297804 to 2.0297804. Each seed's one episode is one value.
+        let g1 = [0.7, -1.6, -0.2, -1.2, -0.1, 3.4, 3.7, 0.8, 0.0, 2.0];
+        let p = plan(1, 10, json!({}));
+        let mut r = Results::new(&p);
+        for (s, &x) in g1.iter().enumerate() {
+            r.add_episode(s, ep(50, x));
+            r.set_steps(s, 1000);
+        }
+        let c = r.curve(0);
+        assert!((c[0].mean - 0.75).abs() < 1e-12);
+        assert!((c[0].lo + 0.5297804).abs() < 1e-7 && (c[0].hi - 2.0297804).abs() < 1e-7, "{:?}", c[0]);
+        assert_eq!(c[9].n, 10, "the value carries forward to the seed's progress");
+        let p = plan(1, 2, json!({}));
+        let mut r = Results::new(&p);
+        for s in 0..2 {
+            r.add_episode(s, ep(50, s as f64));
+            r.set_steps(s, 1000);
+        }
+        let c = r.curve(0);
+        assert!(c[0].mean == 0.5 && c[0].lo.is_nan() && c[0].hi.is_nan(), "no band from 2 seeds");
+    }
+
+    #[test]
+    fn a_failed_seed_is_left_out_named_and_never_reaches_the_threshold() {
+        // The one rule for failed seeds (issue text; common practice, no source).
+        let p = plan(2, 3, json!({"threshold": -20.0}));
+        let mut r = Results::new(&p);
+        // Seed 1 of v1 (job 4) reached the threshold early, then diverged at step 600.
+        let failed = 4;
+        for s in 0..3 {
+            r.add_episode(s, ep(100, -30.0));
+            r.add_episode(s, ep(950, -18.0 - s as f64 * 0.5));
+            r.set_steps(s, 1000);
+            if 3 + s != failed {
+                r.add_episode(3 + s, ep(100, -25.0));
+                r.add_episode(3 + s, ep(990, -17.0 - s as f64 * 0.25));
+                r.set_steps(3 + s, 1000);
+            }
+        }
+        r.add_episode(failed, ep(100, -10.0));
+        r.set_steps(failed, 600);
+        r.mark_failed(failed, "step 600: diverged: TD error is not finite".into());
+        let s = r.report();
+        let v1 = &s.variants[1];
+        assert_eq!(v1.final_return.n, 2);
+        assert!(v1.per_seed_final[1].0.is_nan());
+        assert_eq!(v1.failed.len(), 1);
+        let t = v1.steps_to_threshold.as_ref().unwrap();
+        assert_eq!(t.per_seed[1], None, "a failed seed counts as never, even after an early success");
+        assert_eq!((t.reached, t.never), (2, 1));
+        assert!(t.mean.0.is_nan(), "no mean while a seed never reached it");
+        let c = &s.comparisons[0];
+        assert!(
+            c.verdict.starts_with("1 of 3 seeds of v1 failed and are left out: step 600"),
+            "{}",
+            c.verdict
+        );
+        // Its curve stops where it failed.
+        let curve = r.seed_curve(1, 1);
+        assert!(curve[5].is_finite() && curve[6].is_nan(), "{curve:?}");
+    }
+
+    #[test]
+    fn the_threshold_median_is_censored_at_the_budget() {
+        // Censored data (common practice, no source): a seed that never reaches
+        // the threshold is above the budget, so with half or more of them the
+        // median is only known to be above it.
+        let p = plan(1, 4, json!({"threshold": 0.0}));
+        let mut r = Results::new(&p);
+        for s in 0..4 {
+            r.add_episode(s, ep(50, if s < 2 { 1.0 } else { -1.0 }));
+            r.set_steps(s, 1000);
+        }
+        let t = r.threshold_report(0, 0.0);
+        assert!(t.median.0.is_nan() && t.median_above_budget && t.never == 2);
+        r.jobs[2].episodes[0].base_return = 1.0;
+        let t = r.threshold_report(0, 0.0);
+        // Sorted: 100, 100, 100, ∞: the median is 100.
+        assert_eq!((t.median.0, t.median_above_budget), (100.0, false));
+    }
+
+    #[test]
+    fn final_returns_need_an_episode_in_the_final_share_and_the_area_a_common_range() {
+        let p = plan(1, 2, json!({}));
+        let mut r = Results::new(&p);
+        // Seed 0 finishes episodes throughout; seed 1's first ends at step 450 and
+        // its last at 700, before the final share (901–1000).
+        for k in 1..=10 {
+            r.add_episode(0, ep(k * 100, -(k as f64)));
+        }
+        r.add_episode(1, ep(450, -50.0));
+        r.add_episode(1, ep(700, -40.0));
+        r.set_steps(0, 1000);
+        r.set_steps(1, 1000);
+        let f = r.final_per_seed(0);
+        assert_eq!(f, vec![Some(-10.0), None]);
+        let s = r.report();
+        assert_eq!(s.variants[0].final_return.missing, vec![1]);
+        // Common range: from the bin where seed 1 first has data (bin 4, steps
+        // 401–500) to the last; seed 0 averages −5 … −10 there.
+        let auc = r.auc_per_seed(0);
+        assert_eq!(auc[0], Some(-7.5));
+        assert_eq!(auc[1], Some((2.0 * -50.0 + 4.0 * -40.0) / 6.0));
+        assert_eq!((s.variants[0].auc.from_step, s.variants[0].auc.to_step), (400, 1000));
     }
 }
