@@ -435,6 +435,16 @@ impl Job {
     }
 }
 
+/// The task and action streams of evaluation episode `episode` at
+/// checkpoint `checkpoint` of seed index `seed`: the same in every variant.
+pub fn evaluation_streams(master: u64, seed: u64, checkpoint: u64, episode: u64) -> (Stream, Stream) {
+    let key = (checkpoint << 20) | episode;
+    (
+        Stream::derive(master, Purpose::EvalTask, key, seed),
+        Stream::derive(master, Purpose::EvalAgent, key, seed),
+    )
+}
+
 /// One evaluation episode of the frozen learned policy at checkpoint `k`;
 /// returns its base return (on a continuing task, the mean reward per step
 /// over one window of `max_steps` steps). The task and action streams are
@@ -449,9 +459,7 @@ fn evaluation_episode(
     ep: u64,
     continuing: bool,
 ) -> f64 {
-    let key = (k << 20) | ep;
-    let mut task_rng = Stream::derive(e.master, Purpose::EvalTask, key, e.seed);
-    let mut agent_rng = Stream::derive(e.master, Purpose::EvalAgent, key, e.seed);
+    let (mut task_rng, mut agent_rng) = evaluation_streams(e.master, e.seed, k, ep);
     let max_len = e.task.spec().max_steps;
     e.task.reset(&mut task_rng, &mut e.obs);
     let mut total = 0.0;
