@@ -419,3 +419,87 @@ fn random_mdp_task_audits_formulas_over_its_state() {
         assert_eq!(a["base_value_loss"], 0.0);
     }
 }
+
+/// Every deterministic policy of a model (n_actions^n_states of them), as tables.
+fn deterministic_policies(m: &FiniteModel) -> impl Iterator<Item = Vec<f64>> + '_ {
+    let total = (m.n_actions as u64).pow(m.n_states as u32);
+    (0..total).map(move |mut code| {
+        let mut pi = vec![0.0; m.n_states * m.n_actions];
+        for s in 0..m.n_states {
+            pi[s * m.n_actions + (code % m.n_actions as u64) as usize] = 1.0;
+            code /= m.n_actions as u64;
+        }
+        pi
+    })
+}
+
+#[test]
+fn relative_value_iteration_finds_the_best_average_reward() {
+    // Puterman (1994), Theorem 8.4.5 (from memory): a unichain model has a
+    // deterministic gain-optimal policy, so the best of all deterministic
+    // policies' exact average rewards (Sutton & Barto 2018, Section 10.3) is the
+    // optimal gain; relative value iteration must find it, and acting greedily
+    // on its bias must earn it.
+    for seed in [3, 11, 29] {
+        let m = critbox_core::task::finite::random_mdp(5, 3, seed, true);
+        let best = deterministic_policies(&m)
+            .map(|pi| critbox_core::exact::average_reward(&m, &pi).unwrap())
+            .fold(f64::NEG_INFINITY, f64::max);
+        let opt = critbox_core::exact::relative_value_iteration(&m, 1e-12, 100_000).unwrap();
+        assert!((opt.gain - best).abs() < 1e-9, "seed {seed}: {} against {best}", opt.gain);
+        let q = critbox_core::exact::q_values(&m, &opt.bias, 1.0);
+        let greedy = audit::greedy_sets(&m, &q);
+        let mut pi = vec![0.0; 15];
+        for s in 0..5 {
+            pi[s * 3 + greedy[s][0]] = 1.0;
+        }
+        assert!((critbox_core::exact::average_reward(&m, &pi).unwrap() - best).abs() < 1e-9);
+    }
+}
+
+#[test]
+fn shaping_under_the_average_reward_learner_keeps_its_optimum() {
+    // Ng, Harada & Russell (1999), Theorem 1, in the average-reward setting:
+    // with γ = 1 the shaping terms Φ(s') − Φ(s) sum to 0 around every loop, so
+    // no policy's average reward changes. With γ = 0.99 the term adds
+    // −(1 − γ)·E[Φ] per step, which depends on the policy. On the default job
+    // server with Φ = 10·busy (derived by enumerating all 2^16 deterministic
+    // admission policies): with γ = 0.99 the shaped average-reward optimum is
+    // another policy and loses 2.1% (0.0228 of 1.1005) of the base average reward; with the
+    // differential learner's shaping discount (1) the optimum is kept, and the
+    // audit compares average-reward-optimal policies and says so.
+    let plan = plan_with("server-average-reward.json", |v| {
+        v["reward"] = serde_json::json!({"mode": "potential", "formula": "10 * busy"});
+    });
+    let task = plan.make_task();
+    let m = task.model().unwrap();
+    let spec = task.spec().clone();
+    let shaped_with = |gamma: f64| {
+        let mut shaper = critbox_core::reward::Shaper::new(&plan.variants[0].reward, &spec, gamma).unwrap();
+        audit::shaped_model(task.as_ref(), &m, &mut shaper).unwrap()
+    };
+    let best_of = |model: &FiniteModel| {
+        deterministic_policies(model)
+            .map(|pi| (critbox_core::exact::average_reward(model, &pi).unwrap(), pi))
+            .fold((f64::NEG_INFINITY, Vec::new()), |a, b| if b.0 > a.0 + 1e-12 { b } else { a })
+    };
+    let (base_best, _) = best_of(&m);
+    let (_, pi_099) = best_of(&shaped_with(0.99));
+    let loss_099 = base_best - critbox_core::exact::average_reward(&m, &pi_099).unwrap();
+    assert!(
+        loss_099 > 0.01 * base_best,
+        "γ = 0.99 shaping moves the optimum: loss {loss_099} of {base_best}"
+    );
+    let gamma = plan.variants[0].setup.shaping_discount(&plan.spec);
+    assert_eq!(gamma, 1.0);
+    let (_, pi_1) = best_of(&shaped_with(gamma));
+    let loss_1 = base_best - critbox_core::exact::average_reward(&m, &pi_1).unwrap();
+    assert!(loss_1.abs() < 1e-9, "loss {loss_1}");
+    let a = audit::audit_plan(&plan);
+    assert_eq!(a["method"], "relative_value_iteration");
+    assert_eq!(a["discount"], 1.0);
+    assert_eq!(a["policy_changed"], false);
+    assert_eq!(a["base_value_loss"], 0.0);
+    // The discounted A2C variants keep the discounted audit.
+    assert_eq!(a["variants"][1]["method"], "value_iteration");
+}
