@@ -124,7 +124,7 @@ fn run(a: &Args) -> Result<(), Failure> {
         }
         "audit" => {
             let plan = plan_of(a.operand())?;
-            print_json(&critbox_core::reward::audit::audit_plan(&plan))
+            print_json(&critbox_core::experiment::audit::audit_plan(&plan))
         }
         "validate" => {
             let plan = plan_of(a.operand())?;

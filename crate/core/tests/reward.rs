@@ -249,7 +249,7 @@ fn rover_loop_bonus_is_caught_and_its_potential_twin_is_not() {
     // is 17 moves, −(1 − 0.99^17)/0.01; the looping policy never docks and is
     // worth −1/(1 − 0.99) = −100 under the base reward.
     let plan = plan_with("rover-loop-bonus.json", |_| {});
-    let a = audit::audit_plan(&plan);
+    let a = critbox_core::experiment::audit::audit_plan(&plan);
     assert_eq!(a["task"], "grid");
     assert_eq!(a["potential_based"], false);
     assert_eq!(a["policy_changed"], true);
@@ -270,7 +270,7 @@ fn rover_loop_bonus_is_caught_and_its_potential_twin_is_not() {
     assert_eq!(a["variants"][0]["policy_changed"], false, "the base-reward variant");
     assert_eq!(a["variants"][1]["policy_changed"], true);
 
-    let twin = audit::audit_plan(&plan_with("rover-potential-twin.json", |_| {}));
+    let twin = critbox_core::experiment::audit::audit_plan(&plan_with("rover-potential-twin.json", |_| {}));
     assert_eq!(twin["potential_based"], true);
     assert_eq!(twin["policy_changed"], false);
     assert_eq!(twin["differing_states"], serde_json::json!([]));
@@ -287,7 +287,7 @@ fn every_finite_preset_audits_and_continuous_ones_say_why_not() {
             continue;
         }
         let plan = experiment::parse(&std::fs::read_to_string(&p).unwrap()).unwrap();
-        let a = audit::audit_plan(&plan);
+        let a = critbox_core::experiment::audit::audit_plan(&plan);
         if a["finite"] == true {
             finite += 1;
             assert_eq!(a["exact"], true, "{}: {}", p.display(), a["note"]);
@@ -413,7 +413,7 @@ fn random_mdp_task_audits_formulas_over_its_state() {
                 "base": {{"discount": 0.9}}, "variants": [{{"label": "a"}}], "steps": 10}}"#
         ))
         .unwrap();
-        let a = audit::audit_plan(&plan);
+        let a = critbox_core::experiment::audit::audit_plan(&plan);
         assert_eq!(a["exact"], true, "{a}");
         assert_eq!(a["policy_changed"], false, "seed {seed}: {}", a["differing_states"]);
         assert_eq!(a["base_value_loss"], 0.0);
@@ -495,7 +495,7 @@ fn shaping_under_the_average_reward_learner_keeps_its_optimum() {
     let (_, pi_1) = best_of(&shaped_with(gamma));
     let loss_1 = base_best - critbox_core::exact::average_reward(&m, &pi_1).unwrap();
     assert!(loss_1.abs() < 1e-9, "loss {loss_1}");
-    let a = audit::audit_plan(&plan);
+    let a = critbox_core::experiment::audit::audit_plan(&plan);
     assert_eq!(a["method"], "relative_value_iteration");
     assert_eq!(a["discount"], 1.0);
     assert_eq!(a["policy_changed"], false);

@@ -86,7 +86,7 @@ pub fn check_formula(text: &str, config_json: &str) -> Result<String, JsError> {
 #[wasm_bindgen]
 pub fn audit(config_json: &str) -> Result<String, JsError> {
     let plan = plan_of(config_json)?;
-    Ok(critbox_core::reward::audit::audit_plan(&plan).to_string())
+    Ok(critbox_core::experiment::audit::audit_plan(&plan).to_string())
 }
 
 /// The gradient-variance probe of job (`variant`, `seed`): trains it to each

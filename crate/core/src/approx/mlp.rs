@@ -24,8 +24,8 @@
 //! kernels of [`super::kernels`].
 
 use super::kernels::{axpy, backprop_step, matvec, norm_sq, tanh_in_place};
+use super::Grad;
 use super::{Activation, Approx, Obs};
-use crate::optim::Grad;
 use crate::rng::Stream;
 use crate::task::StateVar;
 

@@ -16,17 +16,18 @@
 //! allocates per step: buffers are sized once.
 
 pub mod fourier;
+pub mod grad;
 pub mod kernels;
 pub mod mlp;
 pub mod poly;
 pub mod rbf;
 pub mod tiles;
 
+pub use grad::Grad;
 use std::sync::{Arc, Mutex, MutexGuard};
 
 use serde::{Deserialize, Serialize};
 
-use crate::optim::Grad;
 use crate::rng::Stream;
 use crate::task::{StateVar, TaskSpec};
 

@@ -25,9 +25,10 @@ use super::config::TaskConfig;
 use super::{Job, JobStatus, Plan};
 use crate::approx::{ApproxConfig, FeatureConfig, Obs};
 use crate::exact;
-use crate::learn::{ActionBuf, Algo, Learner};
+use crate::learn::{Algo, Learner};
 use crate::rng::{Purpose, Stream};
 use crate::task::corridor::ShortCorridor;
+use crate::task::ActionBuf;
 use crate::task::{lqr, FiniteModel, Task, TaskSpec};
 
 /// Points per variable of a [`Slice`] over one state variable.

@@ -10,8 +10,10 @@
 //! returns on environment steps, collects the evaluation returns, and
 //! summarises both across seeds; [`compare`] makes the scores and the
 //! comparisons, [`hacking`] the reward-hacking signal, [`export`] the CSV
-//! and results files, [`inspect`] reads what a job has learned.
+//! and results files, [`inspect`] reads what a job has learned, [`audit`]
+//! the shaping audit of every reward in the plan.
 
+pub mod audit;
 pub mod compare;
 pub mod config;
 pub mod export;

@@ -14,9 +14,10 @@
 
 use crate::approx::Obs;
 use crate::experiment::config::Plan;
-use crate::learn::{build_learner_with, ActionBuf, Learner, StepDiag, Transition};
+use crate::learn::{build_learner_with, Learner, StepDiag, Transition};
 use crate::reward::{Shaper, StepInput};
 use crate::rng::{Purpose, Stream};
+use crate::task::ActionBuf;
 use crate::task::Task;
 
 /// What one finished episode looked like.

@@ -24,10 +24,10 @@ use super::{
 };
 use crate::approx::FeaturePool;
 use crate::approx::Obs;
-use crate::learn::ActionBuf;
 use crate::optim::Trainable;
 use crate::policy::StochasticPolicy;
 use crate::rng::Stream;
+use crate::task::ActionBuf;
 use crate::task::TaskSpec;
 
 /// Writes the generalised advantages `Â_t = δ_t + γλ Â_{t+1}` of a segment's

@@ -25,10 +25,10 @@ use super::ActorParams;
 use super::{finite, joint_vars, state_net, LearnError, Learner, LearnerSetup, StepDiag, Transition};
 use crate::approx::FeaturePool;
 use crate::approx::{build_approx, Approx, Obs};
-use crate::learn::ActionBuf;
 use crate::optim::Trainable;
 use crate::policy::deterministic::DeterministicPolicy;
 use crate::rng::Stream;
+use crate::task::ActionBuf;
 use crate::task::{Action, ActionSpace, TaskSpec};
 
 /// A ring buffer of transitions, sized once.

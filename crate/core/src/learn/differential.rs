@@ -14,10 +14,10 @@ use super::{
 };
 use crate::approx::FeaturePool;
 use crate::approx::Obs;
-use crate::learn::ActionBuf;
 use crate::optim::Trainable;
 use crate::policy::StochasticPolicy;
 use crate::rng::Stream;
+use crate::task::ActionBuf;
 use crate::task::TaskSpec;
 
 /// The differential actor-critic.

@@ -28,53 +28,11 @@ pub use setup::{
 
 use crate::approx::{build_approx, ApproxConfig, FeaturePool, Obs};
 use crate::optim::Trainable;
+pub use crate::policy::ActorParams;
 use crate::policy::StochasticPolicy;
 use crate::rng::Stream;
+pub use crate::task::ActionBuf;
 use crate::task::{Action, ActionSpace, TaskSpec};
-
-/// An action chosen by a learner, in a buffer owned by the caller.
-#[derive(Clone, Debug, PartialEq)]
-pub enum ActionBuf {
-    /// A discrete action.
-    Index(usize),
-    /// A continuous action (sized once).
-    Vector(Vec<f64>),
-}
-
-impl ActionBuf {
-    /// A buffer fit for the task's action space.
-    pub fn for_spec(spec: &TaskSpec) -> Self {
-        match &spec.actions {
-            ActionSpace::Discrete(_) => ActionBuf::Index(0),
-            ActionSpace::Continuous { low, .. } => ActionBuf::Vector(vec![0.0; low.len()]),
-        }
-    }
-
-    /// The action as the task takes it.
-    pub fn as_action(&self) -> Action<'_> {
-        match self {
-            ActionBuf::Index(i) => Action::Index(*i),
-            ActionBuf::Vector(v) => Action::Vector(v),
-        }
-    }
-
-    /// The discrete index; panics for a continuous action (a programming error).
-    pub fn index(&self) -> usize {
-        match self {
-            ActionBuf::Index(i) => *i,
-            ActionBuf::Vector(_) => panic!("a discrete learner was given a continuous action"),
-        }
-    }
-
-    /// The action as numbers: `[index]` for a discrete action, the
-    /// components for a continuous one.
-    pub fn to_vec(&self) -> Vec<f64> {
-        match self {
-            ActionBuf::Index(i) => vec![*i as f64],
-            ActionBuf::Vector(v) => v.clone(),
-        }
-    }
-}
 
 /// One transition as a learner sees it.
 #[derive(Clone, Copy, Debug)]
@@ -143,17 +101,6 @@ impl std::fmt::Display for LearnError {
 }
 
 impl std::error::Error for LearnError {}
-
-/// A learner's actor weights, for inspection ([`Learner::actor_params`]).
-#[derive(Clone, Copy, Debug, PartialEq)]
-pub struct ActorParams<'a> {
-    /// The actor approximator's weights; a linear actor's are output-major
-    /// (`w[k * dim + i]`, feature `i` of output `k`).
-    pub weights: &'a [f64],
-    /// A Gaussian policy's log-standard deviations, one per action component
-    /// (learned or fixed); empty for a softmax or a deterministic actor.
-    pub log_std: &'a [f64],
-}
 
 /// An agent that acts and learns one transition at a time.
 pub trait Learner: Send {

@@ -27,10 +27,10 @@ use super::{
 };
 use crate::approx::FeaturePool;
 use crate::approx::Obs;
-use crate::learn::ActionBuf;
 use crate::optim::Trainable;
 use crate::policy::StochasticPolicy;
 use crate::rng::Stream;
+use crate::task::ActionBuf;
 use crate::task::{Action, ActionSpace, TaskSpec};
 
 /// The importance weight of an action from log-probabilities under the
@@ -331,7 +331,7 @@ mod tests {
         let q = q_values(&model, &v, gamma);
 
         let np = learner.target.n_params();
-        let mut g = crate::optim::Grad::new(np);
+        let mut g = crate::approx::Grad::new(np);
         let (mut sum, mut sq) = (vec![0.0; np], vec![0.0; np]);
         let mut rng = Stream::from_seed(42);
         let mut obs = [0.0];

@@ -14,10 +14,10 @@ use super::ActorParams;
 use super::{finite, state_net, stochastic_actor, LearnError, Learner, LearnerSetup, StepDiag, Transition};
 use crate::approx::FeaturePool;
 use crate::approx::Obs;
-use crate::learn::ActionBuf;
 use crate::optim::Trainable;
 use crate::policy::StochasticPolicy;
 use crate::rng::Stream;
+use crate::task::ActionBuf;
 use crate::task::{Action, TaskSpec};
 
 /// The Q actor-critic.

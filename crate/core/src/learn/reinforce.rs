@@ -35,11 +35,12 @@ use super::{
     StepDiag, Trajectory, Transition,
 };
 use crate::approx::FeaturePool;
+use crate::approx::Grad;
 use crate::approx::Obs;
-use crate::learn::ActionBuf;
-use crate::optim::{Grad, Trainable};
+use crate::optim::Trainable;
 use crate::policy::StochasticPolicy;
 use crate::rng::Stream;
+use crate::task::ActionBuf;
 use crate::task::TaskSpec;
 
 /// The score sums of one episode, `S = Σ_t ∇ log π_t` and

@@ -14,11 +14,12 @@
 pub mod deterministic;
 pub mod gaussian;
 
+use crate::approx::Grad;
 use crate::approx::Obs;
-use crate::learn::ActionBuf;
-use crate::optim::{Grad, Optimizer, OptimizerConfig, Trainable};
+use crate::optim::{Optimizer, OptimizerConfig, Trainable};
 use crate::rng::Stream;
 use crate::task::Action;
+use crate::task::ActionBuf;
 use gaussian::{normal_log_density, PolicyConfig, Squash, LOG_STD_MAX, LOG_STD_MIN};
 
 /// Writes the softmax of `prefs` into `probs` (shifted by the largest
@@ -79,6 +80,17 @@ impl GaussianPart {
 enum Kind {
     Softmax,
     Gaussian(Box<GaussianPart>),
+}
+
+/// A learner's actor weights, for inspection (`Learner::actor_params`).
+#[derive(Clone, Copy, Debug, PartialEq)]
+pub struct ActorParams<'a> {
+    /// The actor approximator's weights; a linear actor's are output-major
+    /// (`w[k * dim + i]`, feature `i` of output `k`).
+    pub weights: &'a [f64],
+    /// A Gaussian policy's log-standard deviations, one per action component
+    /// (learned or fixed); empty for a softmax or a deterministic actor.
+    pub log_std: &'a [f64],
 }
 
 /// A stochastic policy over an approximator: softmax (discrete) or squashed
@@ -178,8 +190,8 @@ impl StochasticPolicy {
     }
 
     /// The weights and log-standard deviations, for [`crate::learn::Learner::actor_params`].
-    pub fn actor_params(&self) -> crate::learn::ActorParams<'_> {
-        crate::learn::ActorParams { weights: self.net.net.params(), log_std: self.log_std() }
+    pub fn actor_params(&self) -> ActorParams<'_> {
+        ActorParams { weights: self.net.net.params(), log_std: self.log_std() }
     }
 
     /// The current log-standard deviations (empty for a softmax).

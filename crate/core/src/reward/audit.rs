@@ -25,8 +25,6 @@ use serde_json::{json, Value};
 
 use super::{Mode, RewardConfig, Shaper, StepInput};
 use crate::exact;
-use crate::experiment::Plan;
-use crate::learn::LearnerSetup;
 use crate::task::{Action, FiniteModel, Task};
 
 /// Longest horizon of the finite-horizon fallback.
@@ -406,17 +404,8 @@ pub enum Objective {
 }
 
 impl Objective {
-    /// The objective of a learner setup on a task.
-    pub fn of(setup: &LearnerSetup, spec: &crate::task::TaskSpec) -> Self {
-        if setup.algo == crate::learn::Algo::Differential {
-            Objective::AverageReward
-        } else {
-            Objective::Discounted(setup.discount_on(spec))
-        }
-    }
-
     /// The discount that potential shaping and the `gamma` of formulas use
-    /// (as [`LearnerSetup::shaping_discount`]).
+    /// (as `LearnerSetup::shaping_discount`).
     pub fn shaping_discount(self) -> f64 {
         match self {
             Objective::Discounted(g) => g,
@@ -539,30 +528,4 @@ impl RewardAudit {
         }
         out
     }
-}
-
-/// The audit of a whole config, as `critbox audit` prints it: the
-/// experiment's own `reward` with the `base` learner's discount at the top
-/// level, and each variant's reward with its own discount under `variants`.
-pub fn audit_plan(plan: &Plan) -> Value {
-    let task = plan.make_task();
-    let spec = task.spec();
-    let base_setup: LearnerSetup = serde_json::from_value(plan.config.base.clone()).unwrap_or_default();
-    let objective = Objective::of(&base_setup, spec);
-    let mut top = audit_reward(task.as_ref(), &plan.config.reward, objective).to_json(task.as_ref());
-    let variants: Vec<Value> = plan
-        .variants
-        .iter()
-        .map(|v| {
-            let o = Objective::of(&v.setup, spec);
-            let mut a = audit_reward(task.as_ref(), &v.reward, o).to_json(task.as_ref());
-            a["label"] = json!(v.label);
-            a
-        })
-        .collect();
-    let o = top.as_object_mut().expect("an object");
-    o.insert("task".into(), json!(spec.kind));
-    o.insert("finite".into(), json!(task.model().is_some()));
-    o.insert("variants".into(), Value::Array(variants));
-    top
 }

@@ -114,17 +114,7 @@ fn default_max_steps() -> u32 {
     200
 }
 
-/// The built-in warehouse floor: a rover starts at `S` and must reach its
-/// charging dock `D`, past spill cells `~` (our own layout).
-pub const ROVER_MAP: [&str; 7] = [
-    "############",
-    "#S...#.....#",
-    "#.~~.#.~~..#",
-    "#....~...#.#",
-    "#.##.#.~.#.#",
-    "#......~..D#",
-    "############",
-];
+pub use super::layouts::ROVER_MAP;
 
 impl Default for GridConfig {
     fn default() -> Self {

@@ -18,7 +18,17 @@
 //!   walked back; a conveyor next to the start drops the agent into the
 //!   bottom corridor, a long way round.
 
-use super::grid::ROVER_MAP;
+/// The built-in warehouse floor: a rover starts at `S` and must reach its
+/// charging dock `D`, past spill cells `~` (our own layout).
+pub const ROVER_MAP: [&str; 7] = [
+    "############",
+    "#S...#.....#",
+    "#.~~.#.~~..#",
+    "#....~...#.#",
+    "#.##.#.~.#.#",
+    "#......~..D#",
+    "############",
+];
 
 /// A named map with its reward settings.
 #[derive(Clone, Copy, Debug, PartialEq)]

@@ -177,3 +177,48 @@ impl std::fmt::Display for TaskError {
 }
 
 impl std::error::Error for TaskError {}
+
+/// An action chosen by a learner or a policy, in a buffer owned by the caller
+/// (sized once for the task's action space).
+#[derive(Clone, Debug, PartialEq)]
+pub enum ActionBuf {
+    /// A discrete action.
+    Index(usize),
+    /// A continuous action (sized once).
+    Vector(Vec<f64>),
+}
+
+impl ActionBuf {
+    /// A buffer fit for the task's action space.
+    pub fn for_spec(spec: &TaskSpec) -> Self {
+        match &spec.actions {
+            ActionSpace::Discrete(_) => ActionBuf::Index(0),
+            ActionSpace::Continuous { low, .. } => ActionBuf::Vector(vec![0.0; low.len()]),
+        }
+    }
+
+    /// The action as the task takes it.
+    pub fn as_action(&self) -> Action<'_> {
+        match self {
+            ActionBuf::Index(i) => Action::Index(*i),
+            ActionBuf::Vector(v) => Action::Vector(v),
+        }
+    }
+
+    /// The discrete index; panics for a continuous action (a programming error).
+    pub fn index(&self) -> usize {
+        match self {
+            ActionBuf::Index(i) => *i,
+            ActionBuf::Vector(_) => panic!("a discrete learner was given a continuous action"),
+        }
+    }
+
+    /// The action as numbers: `[index]` for a discrete action, the
+    /// components for a continuous one.
+    pub fn to_vec(&self) -> Vec<f64> {
+        match self {
+            ActionBuf::Index(i) => vec![*i as f64],
+            ActionBuf::Vector(v) => v.clone(),
+        }
+    }
+}
