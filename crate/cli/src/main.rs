@@ -39,10 +39,14 @@ fn read_config(arg: &str) -> Result<String, Failure> {
 
 fn plan_of(arg: &str) -> Result<critbox_core::experiment::Plan, Failure> {
     let text = read_config(arg)?;
-    critbox_core::experiment::parse(&text).map_err(|e| {
+    let plan = critbox_core::experiment::parse(&text).map_err(|e| {
         let lines: Vec<String> = e.problems.iter().map(|p| format!("  {p}")).collect();
         Failure::BadInput(format!("{arg}: the config has {} problem(s):\n{}", lines.len(), lines.join("\n")))
-    })
+    })?;
+    for note in &plan.notes {
+        eprintln!("critbox: note: {arg}: {note}");
+    }
+    Ok(plan)
 }
 
 fn write_file(path: &str, text: &str) -> Result<(), Failure> {

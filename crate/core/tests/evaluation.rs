@@ -146,7 +146,7 @@ fn every_variant_evaluates_from_the_same_start_states() {
     // must give identical evaluation returns, and two seed indices different ones.
     let p = plan(json!({"schema": 1, "task": {"kind": "grid", "layout": "rover", "slip": 0.2},
         "seeds": 2, "steps": 1000, "evaluation": {"every": 500, "episodes": 5},
-        "variants": [{"label": "A2C"}, {"label": "QAC", "learner": {"algo": "qac"}}]}));
+        "variants": [{"label": "A2C"}, {"label": "QAC", "learner": {"family": "qac"}}]}));
     let first = |id: usize| {
         let mut j = Job::new(&p, id);
         j.advance(0);

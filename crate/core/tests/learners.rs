@@ -181,7 +181,7 @@ fn td0_critic_converges_to_the_exact_values_of_a_fixed_policy() {
     // hundredths. Measured: largest error 0.021.
     let p = one(
         json!({"kind": "random_mdp", "states": 5, "actions": 3, "seed": 4}),
-        json!({"algo": "a2c", "actor_step": 1e-12, "critic_step": 0.002, "discount": 0.9}),
+        json!({"family": "a2c", "actor_step": 1e-12, "critic_step": 0.002, "discount": 0.9}),
         3,
         300_000,
         8,
@@ -229,12 +229,12 @@ fn reinforce_with_one_shared_feature_finds_the_stochastic_optimum() {
     // (learned value), 0.526 to 0.644 (Greensmith's constant).
     let best = ShortCorridor::objective(ShortCorridor::best_p());
     for (label, base) in [
-        ("none", json!({"algo": "reinforce", "actor_step": 0.0002})),
+        ("none", json!({"family": "reinforce", "actor_step": 0.0002})),
         (
             "value",
-            json!({"algo": "reinforce", "baseline": "value", "actor_step": 0.0005, "critic_step": 0.01}),
+            json!({"family": "reinforce", "baseline": "value", "actor_step": 0.0005, "critic_step": 0.01}),
         ),
-        ("optimal", json!({"algo": "reinforce", "baseline": "optimal", "actor_step": 0.0005})),
+        ("optimal", json!({"family": "reinforce", "baseline": "optimal", "actor_step": 0.0005})),
     ] {
         let ps = corridor_p(base, 30_000);
         for p in &ps {
@@ -292,7 +292,7 @@ fn a2c_one_step_is_misled_by_the_shared_feature() {
     // one feature the one-step critic cannot tell states apart, so its TD error
     // is −1 on every non-final step and the actor drifts to "always right",
     // far from 2 − √2 (measured: P(right) ≈ 0.996 on every seed).
-    let ps = corridor_p(json!({"algo": "a2c", "actor_step": 0.01, "critic_step": 0.01}), 30_000);
+    let ps = corridor_p(json!({"family": "a2c", "actor_step": 0.01, "critic_step": 0.01}), 30_000);
     assert!(ps.iter().all(|&p| p > 0.9), "{ps:?}");
 }
 
@@ -302,10 +302,12 @@ fn a2c_with_whole_episode_segments_equals_reinforce_with_a_value_baseline() {
     // telescopes to G_t − V(s_t); with segments as long as the episodes A2C
     // makes the same updates as REINFORCE with a learned value baseline
     // (Sutton & Barto 2018, Section 13.4), up to rounding.
-    let a =
-        corridor_p(json!({"algo": "a2c", "n_steps": 1000, "actor_step": 0.001, "critic_step": 0.01}), 20_000);
+    let a = corridor_p(
+        json!({"family": "a2c", "segment": 1000, "actor_step": 0.001, "critic_step": 0.01}),
+        20_000,
+    );
     let b = corridor_p(
-        json!({"algo": "reinforce", "baseline": "value", "actor_step": 0.001, "critic_step": 0.01}),
+        json!({"family": "reinforce", "baseline": "value", "actor_step": 0.001, "critic_step": 0.01}),
         20_000,
     );
     for (x, y) in a.iter().zip(&b) {
@@ -332,18 +334,18 @@ fn qac_and_a2c_variants_reach_the_dock() {
     for (label, base, steps, level) in [
         (
             "a2c n4 λ0.9",
-            json!({"algo": "a2c", "n_steps": 4, "lambda": 0.9, "actor_step": 0.05, "critic_step": 0.1}),
+            json!({"family": "a2c", "segment": 4, "lambda": 0.9, "actor_step": 0.05, "critic_step": 0.1}),
             30_000,
             -25.0,
         ),
-        ("a2c n8 λ0.5", json!({"algo": "a2c", "n_steps": 8, "lambda": 0.5}), 30_000, -25.0),
+        ("a2c n8 λ0.5", json!({"family": "a2c", "segment": 8, "lambda": 0.5}), 30_000, -25.0),
         (
             "a2c n4 adam entropy",
-            json!({"algo": "a2c", "n_steps": 4, "optimizer": {"kind": "adam"}, "actor_step": 0.01, "critic_step": 0.05, "entropy": 0.01}),
+            json!({"family": "a2c", "segment": 4, "optimizer": {"kind": "adam"}, "actor_step": 0.01, "critic_step": 0.05, "entropy": 0.01}),
             30_000,
             -25.0,
         ),
-        ("qac", json!({"algo": "qac", "actor_step": 0.003}), 60_000, -35.0),
+        ("qac", json!({"family": "qac", "actor_step": 0.003}), 60_000, -35.0),
     ] {
         let f = rover(base, steps);
         assert!(f.iter().all(|&x| (level..=-17.0).contains(&x)), "{label}: {f:?}");
@@ -360,10 +362,10 @@ fn off_policy_learns_the_target_from_another_behaviour() {
     // Measured: −15.99 to −15.94 (uniform), −15.80 to −15.78 (ε-mix).
     let task_cfg = json!({"kind": "grid", "layout": "rover", "max_steps": 200});
     for (label, base) in [
-        ("uniform", json!({"algo": "off_policy", "behaviour": {"kind": "uniform"}})),
+        ("uniform", json!({"family": "off_policy", "behaviour": {"kind": "uniform"}})),
         (
             "eps 0.3 cap 2",
-            json!({"algo": "off_policy", "behaviour": {"kind": "epsilon_mix", "epsilon": 0.3}, "rho_cap": 2.0}),
+            json!({"family": "off_policy", "behaviour": {"kind": "epsilon_mix", "epsilon": 0.3}, "rho_cap": 2.0}),
         ),
     ] {
         let p = one(task_cfg.clone(), base, 10, 30_000, 5);
@@ -391,12 +393,12 @@ fn deterministic_learner_finds_the_riccati_gain() {
     for (label, base) in [
         (
             "online",
-            json!({"algo": "deterministic", "actor_step": 0.1, "critic_step": 1.0, "noise_std": 0.3,
+            json!({"family": "deterministic", "actor_step": 0.1, "critic_step": 1.0, "noise_std": 0.3,
             "features": {"kind": "poly", "degree": 1}}),
         ),
         (
             "replay + targets",
-            json!({"algo": "deterministic", "actor_step": 0.1, "critic_step": 1.0, "noise_std": 0.3,
+            json!({"family": "deterministic", "actor_step": 0.1, "critic_step": 1.0, "noise_std": 0.3,
             "features": {"kind": "poly", "degree": 1}, "replay": {"capacity": 10000, "batch": 16}, "target_tau": 0.05}),
         ),
     ] {
@@ -425,7 +427,7 @@ fn a2c_with_a_gaussian_policy_regulates() {
     // to −0.73 (the policy keeps some exploration noise, which costs).
     let p = one(
         json!({"kind": "lqr"}),
-        json!({"algo": "a2c", "actor_step": 0.001, "critic_step": 0.1,
+        json!({"family": "a2c", "actor_step": 0.001, "critic_step": 0.1,
         "features": {"kind": "poly", "degree": 2}}),
         10,
         30_000,
@@ -445,7 +447,7 @@ fn a2c_with_mlp_actor_and_critic_balances_cartpole() {
     // 400 of the 500-step limit after 50 000 steps. Measured: 500 on every seed.
     let p = one(
         json!({"kind": "cartpole", "max_steps": 500}),
-        json!({"algo": "a2c",
+        json!({"family": "a2c",
         "actor": {"kind": "mlp", "hidden": [32]}, "critic": {"kind": "mlp", "hidden": [32]},
         "optimizer": {"kind": "adam"}, "actor_step": 0.001, "critic_step": 0.003}),
         10,
@@ -462,7 +464,7 @@ fn a_diverging_continuous_learner_stops_with_a_reason() {
     // Gaussian's mean blow up; the job stops with "diverged", not a panic.
     let p = one(
         json!({"kind": "lqr"}),
-        json!({"algo": "a2c", "actor_step": 0.02, "critic_step": 0.1,
+        json!({"family": "a2c", "actor_step": 0.02, "critic_step": 0.1,
         "features": {"kind": "poly", "degree": 2}}),
         1,
         5_000,
@@ -497,7 +499,7 @@ fn differential_learner_reaches_the_best_average_reward() {
     }
     let p = one(
         json!({"kind": "random_mdp", "seed": 11, "continuing": true, "max_steps": 500}),
-        json!({"algo": "differential", "actor_step": 0.1, "critic_step": 0.1, "average_step": 0.01}),
+        json!({"family": "differential", "actor_step": 0.1, "critic_step": 0.1, "average_step": 0.01}),
         10,
         30_000,
         5,
@@ -525,7 +527,7 @@ fn continuing_tasks_report_windows_of_mean_reward() {
     // record per window of max_steps steps holding the mean reward per step.
     let p = one(
         json!({"kind": "random_mdp", "seed": 11, "continuing": true, "max_steps": 100}),
-        json!({"algo": "differential"}),
+        json!({"family": "differential"}),
         1,
         1_000,
         5,
@@ -549,7 +551,7 @@ fn off_policy_jobs_record_weights_and_effective_sample_size() {
     let task = json!({"kind": "grid", "layout": "rover"});
     let p = one(
         task.clone(),
-        json!({"algo": "off_policy", "behaviour": {"kind": "epsilon_mix", "epsilon": 0.0}}),
+        json!({"family": "off_policy", "behaviour": {"kind": "epsilon_mix", "epsilon": 0.0}}),
         1,
         2_000,
         5,
@@ -563,7 +565,7 @@ fn off_policy_jobs_record_weights_and_effective_sample_size() {
         "{:?}",
         d.iter().map(|b| b.ess_fraction()).collect::<Vec<_>>()
     );
-    let p = one(task, json!({"algo": "off_policy", "rho_cap": 1.5}), 1, 5_000, 5);
+    let p = one(task, json!({"family": "off_policy", "rho_cap": 1.5}), 1, 5_000, 5);
     let mut j = Job::new(&p, 0);
     j.advance(u64::MAX);
     let last = j.diagnostics().last().unwrap();
@@ -606,7 +608,7 @@ fn the_optimal_constant_has_the_smallest_variance_of_the_constants() {
     let corridor = experiment::parse(&text).unwrap();
     let rover = one(
         json!({"kind": "grid", "layout": "rover"}),
-        json!({"algo": "a2c", "discount": 0.99, "features": {"kind": "tabular"}}),
+        json!({"family": "a2c", "discount": 0.99, "features": {"kind": "tabular"}}),
         1,
         20_000,
         5,
@@ -627,7 +629,7 @@ fn a_diverging_variant_shows_in_the_verdict_and_the_threshold() {
     // the means (common practice, no source).
     let p = plan(json!({"schema": 1, "task": {"kind": "lqr"}, "seeds": 4, "steps": 5000, "master_seed": 5,
         "threshold": -10.0,
-        "base": {"algo": "a2c", "critic_step": 0.1, "features": {"kind": "poly", "degree": 2}},
+        "base": {"family": "a2c", "critic_step": 0.1, "features": {"kind": "poly", "degree": 2}},
         "variants": [{"label": "stable", "learner": {"actor_step": 0.001}},
                      {"label": "bold", "learner": {"actor_step": 0.02}}]}));
     let s = experiment::run_all(&p).summary();

@@ -78,41 +78,44 @@ fn learners_allocate_nothing_per_step() {
     let lqr = json!({"kind": "lqr", "start": 3});
     let mlp = json!({"kind": "mlp", "hidden": [16, 8]});
     let cases = [
-        (rover.clone(), json!({"algo": "a2c"})),
+        (rover.clone(), json!({"family": "a2c"})),
         (
             rover.clone(),
-            json!({"algo": "a2c", "n_steps": 8, "lambda": 0.9, "entropy": 0.01, "optimizer": {"kind": "adam", "clip": 1}}),
+            json!({"family": "a2c", "segment": 8, "lambda": 0.9, "entropy": 0.01, "optimizer": {"kind": "adam", "clip": 1}}),
         ),
-        (rover.clone(), json!({"algo": "qac", "entropy": 0.01})),
-        (rover.clone(), json!({"algo": "reinforce", "baseline": "optimal"})),
-        (rover.clone(), json!({"algo": "reinforce", "baseline": "value"})),
-        (rover.clone(), json!({"algo": "reinforce", "baseline": "average"})),
+        (rover.clone(), json!({"family": "qac", "entropy": 0.01})),
+        (rover.clone(), json!({"family": "reinforce", "baseline": "optimal"})),
+        (rover.clone(), json!({"family": "reinforce", "baseline": "value"})),
+        (rover.clone(), json!({"family": "reinforce", "baseline": "average"})),
         (
             rover.clone(),
-            json!({"algo": "off_policy", "behaviour": {"kind": "snapshot", "snapshot_every": 50}, "rho_cap": 2}),
+            json!({"family": "off_policy", "behaviour": {"kind": "snapshot", "snapshot_every": 50}, "rho_cap": 2}),
         ),
-        (rover.clone(), json!({"algo": "off_policy", "behaviour": {"kind": "epsilon_mix"}})),
+        (rover.clone(), json!({"family": "off_policy", "behaviour": {"kind": "epsilon_mix"}})),
         (
             cartpole.clone(),
-            json!({"algo": "a2c", "actor": mlp, "critic": mlp, "optimizer": {"kind": "adam"}}),
+            json!({"family": "a2c", "actor": mlp, "critic": mlp, "optimizer": {"kind": "adam"}}),
         ),
-        (cartpole.clone(), json!({"algo": "a2c", "features": {"kind": "fourier", "order": 2}})),
-        (cartpole, json!({"algo": "a2c", "features": {"kind": "rbf", "centers": 3}})),
-        (lqr.clone(), json!({"algo": "deterministic", "features": {"kind": "poly", "degree": 1}})),
+        (cartpole.clone(), json!({"family": "a2c", "features": {"kind": "fourier", "order": 2}})),
+        (cartpole, json!({"family": "a2c", "features": {"kind": "rbf", "centers": 3}})),
+        (lqr.clone(), json!({"family": "deterministic", "features": {"kind": "poly", "degree": 1}})),
         (
             lqr.clone(),
-            json!({"algo": "deterministic", "replay": {"capacity": 500, "batch": 8}, "target_tau": 0.1,
+            json!({"family": "deterministic", "replay": {"capacity": 500, "batch": 8}, "target_tau": 0.1,
             "critic": {"kind": "mlp", "hidden": [8]}, "optimizer": {"kind": "adam"}, "actor_step": 0.001, "critic_step": 0.001}),
         ),
-        (lqr.clone(), json!({"algo": "a2c", "actor_step": 0.001, "features": {"kind": "poly", "degree": 2}})),
+        (
+            lqr.clone(),
+            json!({"family": "a2c", "actor_step": 0.001, "features": {"kind": "poly", "degree": 2}}),
+        ),
         (
             lqr,
-            json!({"algo": "off_policy", "behaviour": {"kind": "epsilon_mix"}, "actor_step": 0.001, "features": {"kind": "poly", "degree": 2}}),
+            json!({"family": "off_policy", "behaviour": {"kind": "epsilon_mix"}, "actor_step": 0.001, "features": {"kind": "poly", "degree": 2}}),
         ),
-        (json!({"kind": "random_mdp", "continuing": true}), json!({"algo": "differential"})),
+        (json!({"kind": "random_mdp", "continuing": true}), json!({"family": "differential"})),
         (
             json!({"kind": "corridor"}),
-            json!({"algo": "reinforce", "baseline": "optimal", "actor_step": 0.0005}),
+            json!({"family": "reinforce", "baseline": "optimal", "actor_step": 0.0005}),
         ),
     ];
     for (task, base) in cases {

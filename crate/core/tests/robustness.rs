@@ -62,8 +62,8 @@ fn seed_results() -> String {
             "schema": 1,
             "title": "rover, small",
             "task": {"kind": "grid", "map": ["#####", "#S.D#", "#####"], "max_steps": 20},
-            "base": {"algo": "a2c", "features": {"kind": "tabular"}},
-            "variants": [{"label": "a"}, {"label": "b", "learner": {"algo": "qac"}}],
+            "base": {"family": "a2c", "features": {"kind": "tabular"}},
+            "variants": [{"label": "a"}, {"label": "b", "learner": {"family": "qac"}}],
             "seeds": 2, "steps": 600, "master_seed": 3
         })
         .to_string(),
@@ -158,7 +158,7 @@ const KEYS: &[&str] = &[
     "formula",
     "max_steps",
     "actor_step",
-    "n_steps",
+    "segment",
     "__proto__",
 ];
 

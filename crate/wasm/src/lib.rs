@@ -25,8 +25,9 @@ fn plan_of(json: &str) -> Result<Plan, JsError> {
 /// Checks a config; returns a JSON description of the plan or throws with
 /// every problem, each naming its field. Besides the labels and sizes:
 /// `task_kind`, `state_names`, `state_low`/`state_high` (typical ranges),
-/// `action_names`, `continuous` (whether actions are continuous) and
-/// `grid_map` (a grid's map rows, a named layout's included; null otherwise).
+/// `action_names`, `continuous` (whether actions are continuous),
+/// `grid_map` (a grid's map rows, a named layout's included; null otherwise)
+/// and `notes` (old key names that still load, and what they are called now).
 #[wasm_bindgen(js_name = validateConfig)]
 pub fn validate_config(json: &str) -> Result<String, JsError> {
     let plan = plan_of(json)?;
@@ -47,6 +48,7 @@ pub fn validate_config(json: &str) -> Result<String, JsError> {
         "task_kind": plan.spec.kind,
         "state_names": plan.spec.state_vars.iter().map(|v| v.name.clone()).collect::<Vec<_>>(),
         "action_names": plan.spec.actions.names().to_vec(),
+        "notes": plan.notes,
     });
     Ok(v.to_string())
 }

@@ -9,13 +9,13 @@
 use serde_json::{json, Value};
 
 use crate::experiment::Plan;
-use crate::learn::{Algo, LearnerSetup};
+use crate::learn::{Family, LearnerSetup};
 use crate::reward::audit::{self, Objective};
 use crate::task::TaskSpec;
 
 /// What a learner setup optimises on a task.
 pub fn objective(setup: &LearnerSetup, spec: &TaskSpec) -> Objective {
-    if setup.algo == Algo::Differential {
+    if setup.family == Family::Differential {
         Objective::AverageReward
     } else {
         Objective::Discounted(setup.discount_on(spec))

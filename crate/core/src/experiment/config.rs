@@ -357,6 +357,8 @@ pub struct Plan {
     pub score_on: Measure,
     /// The reference variant's index, when comparisons are made against one.
     pub reference: Option<usize>,
+    /// Notes on the config that are not problems (old key names that still load).
+    pub notes: Vec<String>,
 }
 
 impl Plan {
@@ -440,6 +442,64 @@ fn task_problem(task: &Value) -> Option<Problem> {
     }
 }
 
+/// Learner setting keys that were renamed, `(old, new)`: the old names still
+/// load (with a note), so links and results files already shared keep working.
+pub const RENAMED_KEYS: [(&str, &str); 2] = [("algo", "family"), ("n_steps", "segment")];
+/// Keys renamed inside a learner setup's `policy` object, `(old, new)`.
+pub const RENAMED_POLICY_KEYS: [(&str, &str); 1] = [("learn_std", "sd_trainable")];
+
+/// Renames old keys in one object, in place; notes each rename, or reports
+/// an object that gives both names.
+fn rename_keys(
+    obj: &mut Map<String, Value>,
+    renames: &[(&str, &str)],
+    at: &str,
+    notes: &mut Vec<String>,
+) -> Vec<Problem> {
+    let mut problems = Vec::new();
+    for &(old, new) in renames {
+        if let Some(v) = obj.remove(old) {
+            let path = join(at, old);
+            if obj.contains_key(new) {
+                problems.push(Problem {
+                    path,
+                    message: format!("gives both `{old}` and its new name `{new}`; keep only `{new}`"),
+                });
+                obj.insert(old.into(), v);
+            } else {
+                notes.push(format!("{path}: now called `{new}`; the old name still loads"));
+                obj.insert(new.into(), v);
+            }
+        }
+    }
+    problems
+}
+
+/// The config with old learner keys renamed (see [`RENAMED_KEYS`]), in
+/// `base` and every variant's `learner`.
+fn modernize(value: &Value, notes: &mut Vec<String>) -> Result<Value, ConfigError> {
+    let mut v = value.clone();
+    let mut problems = Vec::new();
+    let mut fix = |learner: Option<&mut Value>, at: String, notes: &mut Vec<String>| {
+        let Some(Value::Object(obj)) = learner else { return };
+        problems.extend(rename_keys(obj, &RENAMED_KEYS, &at, notes));
+        if let Some(Value::Object(policy)) = obj.get_mut("policy") {
+            problems.extend(rename_keys(policy, &RENAMED_POLICY_KEYS, &join(&at, "policy"), notes));
+        }
+    };
+    fix(v.get_mut("base"), "base".into(), notes);
+    if let Some(Value::Array(vs)) = v.get_mut("variants") {
+        for (i, variant) in vs.iter_mut().enumerate() {
+            fix(variant.get_mut("learner"), format!("variants[{i}].learner"), notes);
+        }
+    }
+    if problems.is_empty() {
+        Ok(v)
+    } else {
+        Err(ConfigError { problems })
+    }
+}
+
 /// Parses and validates a config text.
 pub fn parse(text: &str) -> Result<Plan, ConfigError> {
     if text.len() > MAX_CONFIG_BYTES {
@@ -472,6 +532,9 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
             return Err(ConfigError::one("schema", format!("must be {SCHEMA}, got {other}")));
         }
     }
+    let mut notes = Vec::new();
+    let modern = modernize(value, &mut notes)?;
+    let value = &modern;
     let config: Config = deserialize(value, "").map_err(|p| {
         // The task is an internally tagged enum, whose errors lose the field
         // path: read it again as its own kind to name the field.
@@ -582,7 +645,7 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
     }
     let spec = spec.expect("no problems means the task built");
     let (evaluation, score_on, reference) = resolve_scoring(&config, &variants)?;
-    Ok(Plan { config, spec, variants, evaluation, score_on, reference })
+    Ok(Plan { config, spec, variants, evaluation, score_on, reference, notes })
 }
 
 /// Resolves the evaluation settings, the scored measure and the reference
@@ -591,9 +654,10 @@ fn resolve_scoring(
     config: &Config,
     variants: &[VariantPlan],
 ) -> Result<(Option<EvalPlan>, Measure, Option<usize>), ConfigError> {
-    use crate::learn::Algo;
+    use crate::learn::Family;
     let mut problems = Vec::new();
-    let explores = variants.iter().any(|v| matches!(v.setup.algo, Algo::OffPolicy | Algo::Deterministic));
+    let explores =
+        variants.iter().any(|v| matches!(v.setup.family, Family::OffPolicy | Family::Deterministic));
     let settings = match &config.evaluation {
         Evaluation::Auto => explores.then(EvaluationConfig::default),
         Evaluation::Off => None,
@@ -686,8 +750,8 @@ mod tests {
         serde_json::json!({
             "schema": 1,
             "task": {"kind": "grid", "map": ["#####", "#S.D#", "#####"]},
-            "base": {"algo": "a2c"},
-            "variants": [{"label": "A"}, {"label": "B", "learner": {"algo": "qac", "actor_step": 0.05}}],
+            "base": {"family": "a2c"},
+            "variants": [{"label": "A"}, {"label": "B", "learner": {"family": "qac", "actor_step": 0.05}}],
             "seeds": 2, "steps": 100
         })
     }
@@ -700,10 +764,43 @@ mod tests {
     fn valid_config_resolves_variants() {
         let plan = validate_value(&base_json()).unwrap();
         assert_eq!(plan.job_count(), 4);
-        assert_eq!(plan.variants[1].setup.algo, crate::learn::Algo::Qac);
+        assert_eq!(plan.variants[1].setup.family, crate::learn::Family::Qac);
         assert_eq!(plan.variants[1].setup.actor_step, 0.05);
         assert_eq!(plan.variants[0].setup.actor_step, 0.1);
         assert_eq!(plan.job_coords(3), (1, 1));
+    }
+
+    #[test]
+    fn old_key_names_still_load_with_a_note() {
+        // Links and results files written before the renames must keep working
+        // (common practice, no source): `algo`, `n_steps`, `policy.learn_std`.
+        let v = serde_json::json!({
+            "schema": 1, "task": {"kind": "lqr"}, "steps": 100, "seeds": 1,
+            "base": {"algo": "a2c", "n_steps": 4, "policy": {"learn_std": false}},
+            "variants": [{"label": "A"}, {"label": "B", "learner": {"algo": "deterministic"}}]
+        });
+        let plan = validate_value(&v).unwrap();
+        assert_eq!(plan.variants[0].setup.family, crate::learn::Family::A2c);
+        assert_eq!(plan.variants[0].setup.segment, 4);
+        assert!(!plan.variants[0].setup.policy.sd_trainable);
+        assert_eq!(plan.variants[1].setup.family, crate::learn::Family::Deterministic);
+        assert_eq!(plan.config.base["family"], "a2c", "the plan keeps the new names");
+        assert!(plan.config.base.get("algo").is_none());
+        assert_eq!(
+            plan.notes,
+            [
+                "base.algo: now called `family`; the old name still loads",
+                "base.n_steps: now called `segment`; the old name still loads",
+                "base.policy.learn_std: now called `sd_trainable`; the old name still loads",
+                "variants[1].learner.algo: now called `family`; the old name still loads",
+            ]
+        );
+        let mut both = v.clone();
+        both["base"]["family"] = "qac".into();
+        assert_eq!(
+            errors(both),
+            "base.algo: gives both `algo` and its new name `family`; keep only `family`"
+        );
     }
 
     #[test]
@@ -715,8 +812,8 @@ mod tests {
         v["base"]["critic_step"] = 50.into();
         assert_eq!(errors(v), "base.critic_step: must be in (0, 10], got 50");
         let mut v = base_json();
-        v["variants"][0]["learner"] = serde_json::json!({"algo": "ppo"});
-        assert!(errors(v).starts_with("variants[0].learner.algo: unknown variant `ppo`"));
+        v["variants"][0]["learner"] = serde_json::json!({"family": "ppo"});
+        assert!(errors(v).starts_with("variants[0].learner.family: unknown variant `ppo`"));
         let mut v = base_json();
         v["seeds"] = 0.into();
         v["steps"] = "many".into();

@@ -220,7 +220,7 @@ mod tests {
             "schema": 1,
             "task": {"kind": "grid", "map": ["#######", "#S.~.D#", "#.....#", "#######"]},
             "steps": 3000, "seeds": 3, "curve_points": 10,
-            "variants": [{"label": "a2c, tabular"}, {"label": "qac \"plain\"", "learner": {"algo": "qac"}}]
+            "variants": [{"label": "a2c, tabular"}, {"label": "qac \"plain\"", "learner": {"family": "qac"}}]
         }))
         .unwrap()
     }

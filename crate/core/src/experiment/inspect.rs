@@ -25,7 +25,7 @@ use super::config::TaskConfig;
 use super::{Job, JobStatus, Plan};
 use crate::approx::{ApproxConfig, FeatureConfig, Obs};
 use crate::exact;
-use crate::learn::{Algo, Learner};
+use crate::learn::{Family, Learner};
 use crate::rng::{Purpose, Stream};
 use crate::task::corridor::ShortCorridor;
 use crate::task::ActionBuf;
@@ -622,7 +622,7 @@ fn regulator(plan: &Plan, variant: usize, learner: &mut dyn Learner) -> Option<R
     };
     let slope = finite((mu(step) - mu(-step)) / (2.0 * step));
     let linear_poly1 = matches!(actor_features(plan, variant), Some(FeatureConfig::Poly { degree: 1 }));
-    let weights_gain = if plan.variants[variant].setup.algo == Algo::Deterministic && linear_poly1 {
+    let weights_gain = if plan.variants[variant].setup.family == Family::Deterministic && linear_poly1 {
         learner.actor_params().and_then(|p| finite(-2.0 * p.weights[1] / (var.high - var.low)))
     } else {
         None

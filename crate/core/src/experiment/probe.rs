@@ -465,7 +465,7 @@ mod tests {
         // measure it on the same episodes, so their numbers agree exactly.
         let plan = crate::experiment::parse(
             r#"{"schema": 1, "task": {"kind": "corridor"}, "steps": 3000, "seeds": 2,
-                "base": {"algo": "reinforce", "actor_step": 0.003},
+                "base": {"family": "reinforce", "actor_step": 0.003},
                 "variants": [{"label": "one"}, {"label": "two", "learner": {"baseline": "average"}}]}"#,
         )
         .unwrap();
@@ -495,7 +495,7 @@ mod tests {
         assert!(probe(&plan, 0, 0, &far).unwrap_err().to_string().contains("beyond the step budget"));
         let plan = crate::experiment::parse(
             r#"{"schema": 1, "task": {"kind": "lqr"}, "steps": 100, "seeds": 1,
-                "variants": [{"label": "DPG", "learner": {"algo": "deterministic"}}]}"#,
+                "variants": [{"label": "DPG", "learner": {"family": "deterministic"}}]}"#,
         )
         .unwrap();
         let s = ProbeSettings { checkpoints: vec![0], estimates: 10, episodes: 2 };

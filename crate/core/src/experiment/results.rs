@@ -31,7 +31,7 @@ use crate::experiment::compare::{compare_all, pairs, score, Comparison, Entry, S
 use crate::experiment::config::{Measure, Plan, SCHEMA};
 use crate::experiment::hacking::{trend, Hacking};
 use crate::experiment::runner::{bin_edges, bin_of, EpisodeRecord, EvalRecord};
-use crate::learn::Algo;
+use crate::learn::Family;
 use crate::report::{nums, Num};
 use crate::stats;
 
@@ -106,7 +106,7 @@ pub struct Results {
     title: String,
     task: &'static str,
     labels: Vec<String>,
-    families: Vec<Algo>,
+    families: Vec<Family>,
     seeds: usize,
     steps: u64,
     master_seed: u64,
@@ -293,7 +293,7 @@ impl Results {
             title: c.title.clone(),
             task: plan.spec.kind,
             labels: plan.variants.iter().map(|v| v.label.clone()).collect(),
-            families: plan.variants.iter().map(|v| v.setup.algo).collect(),
+            families: plan.variants.iter().map(|v| v.setup.family).collect(),
             seeds: c.seeds as usize,
             steps: c.steps,
             master_seed: c.master_seed,
@@ -626,7 +626,7 @@ impl Results {
                 values: self.scored_per_seed(v).into_iter().flatten().collect(),
                 seeds: self.seeds,
                 failed: self.failed_seeds(v).into_iter().map(|f| (f.seed, f.reason)).collect(),
-                explores: matches!(self.families[v], Algo::OffPolicy | Algo::Deterministic),
+                explores: matches!(self.families[v], Family::OffPolicy | Family::Deterministic),
             })
             .collect();
         let pairs = pairs(self.labels.len(), self.reference);

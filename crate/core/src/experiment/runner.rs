@@ -497,7 +497,7 @@ mod tests {
         // same task stream whatever the variant; the agent streams differ.
         let plan = crate::experiment::parse(
             r#"{"schema": 1, "task": {"kind": "cartpole"}, "steps": 10, "seeds": 3,
-                "variants": [{"label": "A"}, {"label": "B", "learner": {"algo": "qac"}}]}"#,
+                "variants": [{"label": "A"}, {"label": "B", "learner": {"family": "qac"}}]}"#,
         )
         .unwrap();
         let mut a = Job::new(&plan, 1); // variant 0, seed 1

@@ -2,10 +2,10 @@
 //!
 //! Critic: state value `V(s)`, any approximator. Each step gives the TD
 //! error `δ_t = r_t + γ V(s_{t+1}) − V(s_t)` (`V = 0` after a termination;
-//! bootstrapped after a truncation). With `n_steps = 1` the critic climbs
+//! bootstrapped after a truncation). With `segment = 1` the critic climbs
 //! `δ ∇V(s)` and the actor `δ ∇ log π(a|s)` at once: the TD error is an
 //! unbiased sample of the advantage when `V` is exact (Sutton & Barto 2018,
-//! Section 13.5). With `n_steps = n > 1` transitions are gathered in
+//! Section 13.5). With `segment = n > 1` transitions are gathered in
 //! segments of `n` steps (cut short at an episode's end), the weights stay
 //! fixed within a segment, and at its end every step gets the generalised
 //! advantage `Â_t = Σ_l (γλ)^l δ_{t+l}` up to the segment's end (Schulman
@@ -60,7 +60,7 @@ impl A2c {
         let actor = stochastic_actor(&mut pool, setup, spec, rng);
         let critic = value_critic(&mut pool, setup, spec, rng);
         let gamma = setup.discount_on(spec);
-        let n = setup.n_steps as usize;
+        let n = setup.segment as usize;
         A2c {
             actor,
             critic,

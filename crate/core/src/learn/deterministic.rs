@@ -344,7 +344,7 @@ mod tests {
     fn learner(capacity: u32, batch: u32) -> Deterministic {
         let task = Lqr::new(LqrConfig::default()).unwrap();
         let setup = LearnerSetup {
-            algo: crate::learn::Algo::Deterministic,
+            family: crate::learn::Family::Deterministic,
             replay: ReplayConfig { capacity, batch },
             ..LearnerSetup::default()
         };

@@ -23,7 +23,7 @@ pub mod setup;
 
 pub use crate::approx::FeatureCache;
 pub use setup::{
-    joint_vars, Algo, Baseline, BehaviourConfig, BehaviourKind, LearnerSetup, ReplayConfig, SetupError,
+    joint_vars, Baseline, BehaviourConfig, BehaviourKind, Family, LearnerSetup, ReplayConfig, SetupError,
 };
 
 use crate::approx::{build_approx, ApproxConfig, FeaturePool, Obs};
@@ -150,13 +150,13 @@ pub fn build_learner_with(
     if let Some(e) = setup.check(spec).into_iter().next() {
         return Err(e);
     }
-    Ok(match setup.algo {
-        Algo::A2c => Box::new(a2c::A2c::new(setup, spec, rng)),
-        Algo::Qac => Box::new(qac::Qac::new(setup, spec, rng)),
-        Algo::Reinforce => Box::new(reinforce::Reinforce::new(setup, spec, rng)),
-        Algo::OffPolicy => Box::new(offpolicy::OffPolicy::new(setup, spec, rng)),
-        Algo::Deterministic => Box::new(deterministic::Deterministic::new(setup, spec, rng)),
-        Algo::Differential => Box::new(differential::Differential::new(setup, spec, rng)),
+    Ok(match setup.family {
+        Family::A2c => Box::new(a2c::A2c::new(setup, spec, rng)),
+        Family::Qac => Box::new(qac::Qac::new(setup, spec, rng)),
+        Family::Reinforce => Box::new(reinforce::Reinforce::new(setup, spec, rng)),
+        Family::OffPolicy => Box::new(offpolicy::OffPolicy::new(setup, spec, rng)),
+        Family::Deterministic => Box::new(deterministic::Deterministic::new(setup, spec, rng)),
+        Family::Differential => Box::new(differential::Differential::new(setup, spec, rng)),
     })
 }
 

@@ -308,7 +308,7 @@ mod tests {
         let mut task = FiniteTask::new(model.clone(), "random_mdp", gamma, 200, false).unwrap();
         let spec = task.spec().clone();
         let setup = LearnerSetup {
-            algo: crate::learn::Algo::OffPolicy,
+            family: crate::learn::Family::OffPolicy,
             features: Some(FeatureConfig::Tabular),
             behaviour: BehaviourConfig {
                 kind: BehaviourKind::EpsilonMix,

@@ -240,7 +240,7 @@ impl Learner for Reinforce {
 mod tests {
     use super::*;
     use crate::approx::{build_features_over, FeatureConfig, LinearFn};
-    use crate::learn::{stochastic_actor, Algo};
+    use crate::learn::{stochastic_actor, Family};
     use crate::optim::OptimizerConfig;
     use crate::task::corridor::{CorridorConfig, ShortCorridor};
     use crate::task::finite::FiniteTask;
@@ -298,7 +298,7 @@ mod tests {
     fn corridor_learner(baseline: Baseline, max_steps: u32) -> (ShortCorridor, Reinforce) {
         let task = ShortCorridor::new(CorridorConfig { max_steps }).unwrap();
         let setup = LearnerSetup {
-            algo: Algo::Reinforce,
+            family: Family::Reinforce,
             baseline,
             baseline_rate: 1.0,
             actor_step: 1e-3,
@@ -393,7 +393,7 @@ mod tests {
         };
         let mut task = FiniteTask::new(model, "bandit", 1.0, 10, false).unwrap();
         let setup = LearnerSetup {
-            algo: Algo::Reinforce,
+            family: Family::Reinforce,
             baseline: Baseline::Optimal,
             baseline_rate: 0.0005,
             actor_step: 1e-9,
@@ -440,7 +440,7 @@ mod tests {
         // −11.51; total variances 1920 (none), 770 (average), 741 (b*).
         let mut task = ShortCorridor::new(CorridorConfig::default()).unwrap();
         let setup = LearnerSetup {
-            algo: Algo::Reinforce,
+            family: Family::Reinforce,
             features: Some(FeatureConfig::Tiles { tilings: 1, intervals: 1, hash: 0 }),
             ..LearnerSetup::default()
         };

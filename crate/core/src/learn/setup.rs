@@ -22,7 +22,7 @@ use crate::task::{ActionSpace, StateVar, TaskSpec};
 /// The learner families.
 #[derive(Clone, Copy, Debug, Default, PartialEq, Eq, Serialize, Deserialize)]
 #[serde(rename_all = "snake_case")]
-pub enum Algo {
+pub enum Family {
     /// Advantage actor-critic: state-value critic, TD(0), n-step or GAE(λ) advantages.
     #[default]
     A2c,
@@ -38,16 +38,16 @@ pub enum Algo {
     Differential,
 }
 
-impl Algo {
+impl Family {
     /// The config name.
     pub fn name(self) -> &'static str {
         match self {
-            Algo::A2c => "a2c",
-            Algo::Qac => "qac",
-            Algo::Reinforce => "reinforce",
-            Algo::OffPolicy => "off_policy",
-            Algo::Deterministic => "deterministic",
-            Algo::Differential => "differential",
+            Family::A2c => "a2c",
+            Family::Qac => "qac",
+            Family::Reinforce => "reinforce",
+            Family::OffPolicy => "off_policy",
+            Family::Deterministic => "deterministic",
+            Family::Differential => "differential",
         }
     }
 }
@@ -151,7 +151,7 @@ pub struct LearnerSetup {
     /// Which learner: `"a2c"`, `"qac"`, `"reinforce"`, `"off_policy"`,
     /// `"deterministic"` or `"differential"`. Default `"a2c"`.
     #[serde(default)]
-    pub algo: Algo,
+    pub family: Family,
     /// Discount γ in [0, 1]. Default: the task's. Not used by `"differential"`.
     #[serde(default)]
     pub discount: Option<f64>,
@@ -193,7 +193,7 @@ pub struct LearnerSetup {
     /// A2C's segment length n in [1, 1000]: the critic and actor update
     /// every n steps (or at the episode's end) from n-step returns. Default 1.
     #[serde(default = "default_n_steps")]
-    pub n_steps: u32,
+    pub segment: u32,
     /// A2C's GAE λ in [0, 1] within a segment: 1 gives n-step returns, 0 the
     /// one-step TD error. Default 1.
     #[serde(default = "default_lambda")]
@@ -251,7 +251,7 @@ fn default_average_step() -> f64 {
 impl Default for LearnerSetup {
     fn default() -> Self {
         LearnerSetup {
-            algo: Algo::default(),
+            family: Family::default(),
             discount: None,
             actor_step: default_actor_step(),
             critic_step: default_critic_step(),
@@ -263,7 +263,7 @@ impl Default for LearnerSetup {
             entropy: 0.0,
             baseline: Baseline::None,
             baseline_rate: default_baseline_rate(),
-            n_steps: default_n_steps(),
+            segment: default_n_steps(),
             lambda: default_lambda(),
             behaviour: BehaviourConfig::default(),
             rho_cap: None,
@@ -326,9 +326,9 @@ impl LearnerSetup {
 
     /// The critic's approximator (see [`LearnerSetup::critic`] for the default).
     pub fn critic_or_default(&self) -> ApproxConfig {
-        match (&self.critic, self.algo) {
+        match (&self.critic, self.family) {
             (Some(c), _) => c.clone(),
-            (None, Algo::Deterministic) => {
+            (None, Family::Deterministic) => {
                 ApproxConfig::Linear { features: Some(FeatureConfig::Poly { degree: 2 }) }
             }
             (None, _) => ApproxConfig::default(),
@@ -345,7 +345,7 @@ impl LearnerSetup {
     /// which optimises the average reward (with γ < 1 the shaping term would
     /// add `−(1 − γ)·E[Φ]` per step, which depends on the policy).
     pub fn shaping_discount(&self, spec: &TaskSpec) -> f64 {
-        if self.algo == Algo::Differential {
+        if self.family == Family::Differential {
             1.0
         } else {
             self.discount_on(spec)
@@ -365,8 +365,8 @@ impl LearnerSetup {
         in_range(&mut errs, "critic_step", self.critic_step, 0.0, 10.0, true);
         in_range(&mut errs, "entropy", self.entropy, 0.0, 10.0, false);
         in_range(&mut errs, "baseline_rate", self.baseline_rate, 0.0, 1.0, true);
-        if !(1..=1000).contains(&self.n_steps) {
-            bad(&mut errs, "n_steps", format!("must be in [1, 1000], got {}", self.n_steps));
+        if !(1..=1000).contains(&self.segment) {
+            bad(&mut errs, "segment", format!("must be in [1, 1000], got {}", self.segment));
         }
         in_range(&mut errs, "lambda", self.lambda, 0.0, 1.0, false);
         in_range(&mut errs, "behaviour.epsilon", self.behaviour.epsilon, 0.0, 1.0, false);
@@ -412,28 +412,28 @@ impl LearnerSetup {
         }
 
         let discrete = spec.actions.discrete_count().is_some();
-        let algo = self.algo.name();
-        match self.algo {
-            Algo::Qac if !discrete => bad(
+        let family = self.family.name();
+        match self.family {
+            Family::Qac if !discrete => bad(
                 &mut errs,
-                "algo",
-                format!("\"{algo}\" needs discrete actions; {} has continuous actions", spec.kind),
+                "family",
+                format!("\"{family}\" needs discrete actions; {} has continuous actions", spec.kind),
             ),
-            Algo::Deterministic if discrete => bad(
+            Family::Deterministic if discrete => bad(
                 &mut errs,
-                "algo",
-                format!("\"{algo}\" needs continuous actions; {} has discrete actions", spec.kind),
+                "family",
+                format!("\"{family}\" needs continuous actions; {} has discrete actions", spec.kind),
             ),
-            Algo::Reinforce if spec.continuing => bad(
+            Family::Reinforce if spec.continuing => bad(
                 &mut errs,
-                "algo",
-                format!("\"{algo}\" learns from whole episodes; {} is a continuing task", spec.kind),
+                "family",
+                format!("\"{family}\" learns from whole episodes; {} is a continuing task", spec.kind),
             ),
-            Algo::Differential if !spec.continuing => bad(
+            Family::Differential if !spec.continuing => bad(
                 &mut errs,
-                "algo",
+                "family",
                 format!(
-                    "\"{algo}\" maximises the average reward of a continuing task; {} is episodic: use \"a2c\"",
+                    "\"{family}\" maximises the average reward of a continuing task; {} is episodic: use \"a2c\"",
                     spec.kind
                 ),
             ),
@@ -470,7 +470,7 @@ impl LearnerSetup {
         let critic_uses_shared = uses_shared(&critic);
         if shared_ok || !critic_uses_shared {
             let joint = joint_vars(spec);
-            let (vars, n_states) = if self.algo == Algo::Deterministic {
+            let (vars, n_states) = if self.family == Family::Deterministic {
                 (&joint[..], None)
             } else {
                 (&spec.state_vars[..], spec.n_states)
@@ -489,7 +489,7 @@ impl LearnerSetup {
                     let path = if critic_uses_shared { field } else { format!("critic.{field}") };
                     bad(&mut errs, &path, message);
                 }
-                Ok(mut net) if self.algo == Algo::Deterministic => {
+                Ok(mut net) if self.family == Family::Deterministic => {
                     let mid: Vec<f64> = vars.iter().map(|v| 0.5 * (v.low + v.high)).collect();
                     let mut g = vec![0.0; vars.len()];
                     if !net.input_grad(Obs { values: &mid, id: None }, &[1.0], &mut g) {
@@ -525,7 +525,7 @@ mod tests {
     #[test]
     fn defaults_are_valid_and_old_setups_parse() {
         assert!(check("{}").is_empty());
-        assert!(check(r#"{"algo": "qac", "actor_step": 0.05, "features": {"kind": "tabular"}}"#).is_empty());
+        assert!(check(r#"{"family": "qac", "actor_step": 0.05, "features": {"kind": "tabular"}}"#).is_empty());
     }
 
     #[test]
@@ -533,7 +533,7 @@ mod tests {
         let cases = [
             (r#"{"entropy": -1}"#, "entropy: must be in [0, 10], got -1"),
             (r#"{"baseline_rate": 0}"#, "baseline_rate: must be in (0, 1], got 0"),
-            (r#"{"n_steps": 0}"#, "n_steps: must be in [1, 1000], got 0"),
+            (r#"{"segment": 0}"#, "segment: must be in [1, 1000], got 0"),
             (r#"{"lambda": 1.5}"#, "lambda: must be in [0, 1], got 1.5"),
             (r#"{"behaviour": {"epsilon": 2}}"#, "behaviour.epsilon: must be in [0, 1], got 2"),
             (r#"{"behaviour": {"snapshot_every": 0}}"#, "behaviour.snapshot_every: must be in [1, 10000000], got 0"),
@@ -548,8 +548,8 @@ mod tests {
             (r#"{"actor": {"kind": "mlp", "hidden": []}}"#, "actor.hidden: needs 1 to 4 layer sizes, got 0"),
             (r#"{"critic": {"kind": "linear", "features": {"kind": "fourier", "order": 30}}}"#, "critic.features.order: must be in [0, 20], got 30"),
             (r#"{"features": {"kind": "rbf", "centers": 1}}"#, "features.centers: must be in [2, 32], got 1"),
-            (r#"{"algo": "deterministic"}"#, "algo: \"deterministic\" needs continuous actions; grid has discrete actions"),
-            (r#"{"algo": "differential"}"#, "algo: \"differential\" maximises the average reward of a continuing task; grid is episodic: use \"a2c\""),
+            (r#"{"family": "deterministic"}"#, "family: \"deterministic\" needs continuous actions; grid has discrete actions"),
+            (r#"{"family": "differential"}"#, "family: \"differential\" maximises the average reward of a continuing task; grid is episodic: use \"a2c\""),
         ];
         for (json, want) in cases {
             let got = check(json);

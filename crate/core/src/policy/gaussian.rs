@@ -49,14 +49,14 @@ pub struct PolicyConfig {
     #[serde(default = "default_log_std")]
     pub log_std: f64,
     /// Whether the log-standard deviation is learned (true) or fixed. Default true.
-    #[serde(default = "default_learn_std")]
-    pub learn_std: bool,
+    #[serde(default = "default_sd_trainable")]
+    pub sd_trainable: bool,
 }
 
 fn default_log_std() -> f64 {
     -0.5
 }
-fn default_learn_std() -> bool {
+fn default_sd_trainable() -> bool {
     true
 }
 
@@ -65,7 +65,7 @@ impl Default for PolicyConfig {
         PolicyConfig {
             kind: PolicyKind::Gaussian,
             log_std: default_log_std(),
-            learn_std: default_learn_std(),
+            sd_trainable: default_sd_trainable(),
         }
     }
 }

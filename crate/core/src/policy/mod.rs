@@ -139,7 +139,7 @@ impl StochasticPolicy {
         let part = GaussianPart {
             squash: Squash::new(low, high),
             log_std: vec![cfg.log_std; d],
-            learn: cfg.learn_std,
+            learn: cfg.sd_trainable,
             opt: Optimizer::new(opt, d),
             grad: Grad::new(d),
             step,
