@@ -2,7 +2,9 @@
 //!
 //! Thin handles over core types; JS holds a handle and calls a few coarse
 //! functions. Bulk data crosses as `Float64Array` copies whose layout
-//! (stride and order) is documented on each accessor. Every error reaches JS
+//! (stride and order) is documented on each accessor; the records a
+//! trainer's `Run` hands to the results' `Results` (`results.rs`) are
+//! laid out once, in `records.rs`. Every error reaches JS
 //! as an exception carrying the core's message; user input never traps.
 //! JS-style (camelCase) names appear only here.
 
@@ -10,18 +12,24 @@ use wasm_bindgen::prelude::*;
 
 use critbox_core::approx::Obs;
 use critbox_core::experiment::config::TaskConfig;
-use critbox_core::experiment::{self, EpisodeRecord, Job, JobStatus, Plan};
+use critbox_core::experiment::{self, Job, JobStatus, Plan};
 use critbox_core::learn::{build_learner_with, ActionBuf, Learner, Transition};
 use critbox_core::rng::{Purpose, Stream};
 use critbox_core::task::{Action, ActionSpace, Task};
 
 /// Installs the panic hook so a programming error shows its message in the console.
+mod records;
+mod results;
+
+pub use records::record_layouts;
+pub use results::Results;
+
 #[wasm_bindgen(start)]
 pub fn start() {
     console_error_panic_hook::set_once();
 }
 
-fn plan_of(json: &str) -> Result<Plan, JsError> {
+pub(crate) fn plan_of(json: &str) -> Result<Plan, JsError> {
     experiment::parse(json).map_err(|e| JsError::new(&e.to_string()))
 }
 
@@ -344,24 +352,13 @@ impl Run {
         Ok(out)
     }
 
-    /// Episodes finished since the last call, stride 5: job id, end step,
-    /// base return, shaped return, length.
-    #[wasm_bindgen(js_name = takeEpisodes)]
-    pub fn take_episodes(&mut self) -> Vec<f64> {
-        let mut out = Vec::new();
-        for j in &mut self.jobs {
-            let id = j.id() as f64;
-            for e in j.take_new_episodes() {
-                out.extend_from_slice(&[
-                    id,
-                    e.end_step as f64,
-                    e.base_return,
-                    e.shaped_return,
-                    f64::from(e.length),
-                ]);
-            }
-        }
-        out
+    /// The owned jobs' records of kind `kind` not taken before, one after
+    /// another (layouts: `recordLayouts()`, documented in `records.rs`);
+    /// the jobs forget what they hand out, so their memory stays flat.
+    #[wasm_bindgen(js_name = takeRecords)]
+    pub fn take_records(&mut self, kind: &str) -> Result<Vec<f64>, JsError> {
+        let kind = records::kind(kind).map_err(|e| JsError::new(&e))?;
+        Ok(kind.take_all(&mut self.jobs))
     }
 
     /// Failed jobs as JSON: `[{"job": id, "reason": text}]`.
@@ -405,153 +402,6 @@ impl Run {
             }
         }
         out
-    }
-}
-
-/// The results of a whole experiment, fed with episode records from the workers.
-#[wasm_bindgen]
-pub struct Results {
-    inner: experiment::Results,
-    plan: Plan,
-    variants: usize,
-}
-
-#[wasm_bindgen]
-impl Results {
-    /// Empty results for a config.
-    #[wasm_bindgen(constructor)]
-    pub fn new(json: &str) -> Result<Results, JsError> {
-        let plan = plan_of(json)?;
-        Ok(Results { inner: experiment::Results::new(&plan), variants: plan.variants.len(), plan })
-    }
-
-    /// Rebuilds results from a saved results file (see `saveJson`) without
-    /// re-running; throws with the field that is wrong.
-    #[wasm_bindgen(js_name = fromSaved)]
-    pub fn from_saved(text: &str) -> Result<Results, JsError> {
-        let (plan, inner) = experiment::export::load(text).map_err(|e| JsError::new(&e.to_string()))?;
-        Ok(Results { inner, variants: plan.variants.len(), plan })
-    }
-
-    /// The config (defaults filled in) as JSON text.
-    #[wasm_bindgen(js_name = configJson)]
-    pub fn config_json(&self) -> String {
-        serde_json::to_string(&self.plan.config).unwrap_or_default()
-    }
-
-    /// The results file (config, every episode record, summary) as JSON text.
-    #[wasm_bindgen(js_name = saveJson)]
-    pub fn save_json(&self) -> String {
-        experiment::export::save(&self.plan, &self.inner).to_string()
-    }
-
-    /// The tidy CSV: `variant,label,seed,step,metric,value`.
-    #[wasm_bindgen(js_name = tidyCsv)]
-    pub fn tidy_csv(&self) -> String {
-        experiment::export::tidy_csv(&self.inner)
-    }
-
-    /// A variant's robust curve, stride 2 per bin: IQM and median over seeds.
-    #[wasm_bindgen(js_name = curveRobust)]
-    pub fn curve_robust(&self, variant: u32) -> Result<Vec<f64>, JsError> {
-        if variant as usize >= self.variants {
-            return Err(JsError::new(&format!(
-                "variant {variant} is out of range ({} variants)",
-                self.variants
-            )));
-        }
-        Ok(self.inner.curve(variant as usize).iter().flat_map(|p| [p.iqm, p.median]).collect())
-    }
-
-    /// One seed's binned curve (NaN where it has no data yet), for thin per-seed lines.
-    #[wasm_bindgen(js_name = seedCurve)]
-    pub fn seed_curve(&self, variant: u32, seed: u32) -> Result<Vec<f64>, JsError> {
-        if variant as usize >= self.variants || seed as usize >= self.inner.seeds() {
-            return Err(JsError::new(&format!("variant {variant} / seed {seed} is out of range")));
-        }
-        Ok(self.inner.seed_curve(variant as usize, seed as usize))
-    }
-
-    /// Adds episode records, stride 5 as [`Run::take_episodes`] gives them.
-    #[wasm_bindgen(js_name = addEpisodes)]
-    pub fn add_episodes(&mut self, records: &[f64]) -> Result<(), JsError> {
-        if !records.len().is_multiple_of(5) {
-            return Err(JsError::new(&format!(
-                "episode records come in groups of 5; got {} numbers",
-                records.len()
-            )));
-        }
-        let n = self.inner.job_count();
-        for r in records.chunks_exact(5) {
-            let ok = r.iter().all(|v| v.is_finite()) && r[0] >= 0.0 && (r[0] as usize) < n && r[1] >= 1.0;
-            if !ok {
-                return Err(JsError::new(&format!("invalid episode record {r:?}")));
-            }
-            self.inner.add_episode(
-                r[0] as usize,
-                EpisodeRecord {
-                    end_step: r[1] as u64,
-                    base_return: r[2],
-                    shaped_return: r[3],
-                    length: r[4] as u32,
-                    truncated: false,
-                },
-            );
-        }
-        Ok(())
-    }
-
-    /// Records a job's progress (so curves carry values only as far as it got).
-    #[wasm_bindgen(js_name = setSteps)]
-    pub fn set_steps(&mut self, job: u32, steps_done: f64) {
-        if steps_done.is_finite() && steps_done >= 0.0 {
-            self.inner.set_steps(job as usize, steps_done as u64);
-        }
-    }
-
-    /// Marks a job as failed.
-    #[wasm_bindgen(js_name = markFailed)]
-    pub fn mark_failed(&mut self, job: u32, reason: &str) {
-        self.inner.mark_failed(job as usize, reason.to_string());
-    }
-
-    /// A variant's curve, stride 5 per bin: upper step edge, mean, lower and
-    /// upper 95% bounds (NaN where undefined), seeds with data.
-    pub fn curve(&self, variant: u32) -> Result<Vec<f64>, JsError> {
-        if variant as usize >= self.variants {
-            return Err(JsError::new(&format!(
-                "variant {variant} is out of range ({} variants)",
-                self.variants
-            )));
-        }
-        let mut out = Vec::new();
-        for p in self.inner.curve(variant as usize) {
-            out.extend_from_slice(&[p.step as f64, p.mean, p.lo, p.hi, p.n as f64]);
-        }
-        Ok(out)
-    }
-
-    /// A variant's curve of the shaped return (what the learner was trained
-    /// on), stride 5 per bin as [`Results::curve`] (Student-t bounds).
-    #[wasm_bindgen(js_name = curveShaped)]
-    pub fn curve_shaped(&self, variant: u32) -> Result<Vec<f64>, JsError> {
-        if variant as usize >= self.variants {
-            return Err(JsError::new(&format!(
-                "variant {variant} is out of range ({} variants)",
-                self.variants
-            )));
-        }
-        let mut out = Vec::new();
-        for p in self.inner.shaped_curve(variant as usize) {
-            out.extend_from_slice(&[p.step as f64, p.mean, p.lo, p.hi, p.n as f64]);
-        }
-        Ok(out)
-    }
-
-    /// The summary JSON, the same as `critbox run` prints.
-    #[wasm_bindgen(js_name = summaryJson)]
-    pub fn summary_json(&self) -> String {
-        self.inner.summary().to_string()
     }
 }
 
