@@ -1,18 +1,48 @@
-// Shared set-up for the browser tests: the static server, headless Chromium
-// (Debian's, never a downloaded one) and a page with its console watched.
+// Shared set-up for the browser tests: the page served by `critbox serve`
+// (the server users get) on 127.0.0.1, headless Chromium (Debian's, never a
+// downloaded one) and a page with its console watched.
 
 import { mkdir } from 'node:fs/promises';
+import { spawn } from 'node:child_process';
 import path from 'node:path';
+import { fileURLToPath } from 'node:url';
 import { chromium } from 'playwright-core';
-import { startServer, repoRoot } from './server.mjs';
 
-export { repoRoot };
+export const repoRoot = process.env.CRITBOX_ROOT || path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..', '..');
+export const cli = process.env.CRITBOX_CLI || path.join(repoRoot, 'target', 'release', 'critbox');
 export const outDir = path.join(process.env.CRITBOX_TEST_OUTPUT || path.join(repoRoot, 'test-output'), 'browser');
+
+/**
+ * `critbox serve --root <root> --port 0`: resolves {url, close()} once it
+ * prints the address it listens on (url ends with '/').
+ */
+export function startServe(root = path.join(repoRoot, 'web')) {
+  return new Promise((resolve, reject) => {
+    const child = spawn(cli, ['serve', '--root', root, '--port', '0'], { stdio: ['ignore', 'pipe', 'pipe'] });
+    let out = '';
+    let err = '';
+    const timer = setTimeout(() => { child.kill(); reject(new Error(`critbox serve printed no address in 20 s: ${out}${err}`)); }, 20000);
+    child.on('error', (e) => { clearTimeout(timer); reject(new Error(`could not start ${cli} serve: ${e.message}`)); });
+    child.on('exit', (code) => { clearTimeout(timer); reject(new Error(`critbox serve exited with ${code}: ${out}${err}`)); });
+    child.stderr.on('data', (d) => { err += d; });
+    child.stdout.on('data', (d) => {
+      out += d;
+      const m = /http:\/\/127\.0\.0\.1:\d+\//.exec(out);
+      if (!m) return;
+      clearTimeout(timer);
+      child.removeAllListeners('exit');
+      resolve({
+        url: m[0],
+        close: () => new Promise((done) => { child.once('exit', () => done()); child.kill(); }),
+      });
+    });
+  });
+}
 
 /** Start the server and the browser; returns {server, browser, close()}. */
 export async function setUp() {
   await mkdir(outDir, { recursive: true });
-  const server = await startServer();
+  const server = await startServe();
   const browser = await chromium.launch({
     executablePath: process.env.CRITBOX_CHROMIUM || '/usr/bin/chromium',
     args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking',
@@ -21,7 +51,7 @@ export async function setUp() {
   return {
     server,
     browser,
-    close: async () => { await browser.close(); server.server.closeAllConnections?.(); await server.close(); },
+    close: async () => { await browser.close(); await server.close(); },
   };
 }
 
@@ -86,7 +116,7 @@ export function nextFrame(page) {
 export async function waitForRunEnd(page, timeout = 180000) {
   await page.waitForFunction(() => {
     const r = window.__critbox.state.run;
-    return r && (r.status === 'done' || r.status === 'cancelled') && r.summarised;
+    return r && (r.status === 'done' || r.status === 'cancelled');
   }, null, { timeout, polling: 200 });
 }
 

@@ -30,7 +30,7 @@ async function shoot(page, name) {
 async function waitForRunEnd(page, timeout = 180000) {
   await page.waitForFunction(() => {
     const r = window.__critbox.state.run;
-    return r && (r.status === 'done' || r.status === 'cancelled') && r.summarised;
+    return r && (r.status === 'done' || r.status === 'cancelled');
   }, null, { timeout, polling: 200 });
 }
 
@@ -156,18 +156,14 @@ test('invalid input: the message names the field and the run button is disabled 
 });
 
 test('a worker that fails shows a message and the page keeps working', async () => {
-  // The worker script is replaced by one that throws on load.
+  // The training worker's script is replaced by one that throws on load;
+  // the results and probe workers still work.
   const { page, context } = await openPage(env, {
     before: async (_page, ctx) => {
-      // Training workers throw on load; the results and inspection workers
-      // (the same script under other names) still work.
-      await ctx.route('**/js/worker.js', async (route) => {
-        const real = await (await route.fetch()).text();
-        await route.fulfill({
-          contentType: 'text/javascript',
-          body: `if (self.name.startsWith('critbox-trainer')) throw new Error("worker could not start (test)");\n${real}`,
-        });
-      });
+      await ctx.route('**/js/trainworker.js', (route) => route.fulfill({
+        contentType: 'text/javascript',
+        body: 'throw new Error("worker could not start (test)");\n',
+      }));
     },
   });
   await page.fill('#seeds', '2');
@@ -201,7 +197,7 @@ test('pause holds the run still, resume goes on, cancel ends it with a partial s
 
   await page.click('#pause');
   assert.equal((await page.textContent('#pause')).trim(), 'Resume');
-  await page.waitForFunction(() => window.__critbox.state.run.idle === true);
+  await page.waitForFunction(() => window.__critbox.state.run.status === 'paused');
   const held = await stepsDone();
   assert.ok(held < 2 * 2 * LONG_STEPS, 'paused before the end');
   await page.waitForTimeout(400);

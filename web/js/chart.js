@@ -4,15 +4,18 @@
 // colour and a dash pattern (second cue for readers who cannot tell the
 // colours apart): a line of the chosen statistic over seeds (mean with its
 // translucent 95% band, or the IQM, or the median), optionally one thin line
-// per seed, and an optional dotted threshold line.
+// per seed, and an optional dotted threshold line. drawLogLines draws a few
+// series on a log-scale y axis (the gradient-variance view). Colours come
+// from palette.js, numbers are written by numbers.js.
+
+import { SERIES_LIGHT } from './palette.js';
+import { formatNumber } from './numbers.js';
 
 /** Dash patterns, one per variant in order (CSS px); the first is solid. */
 export const DASHES = [[], [9, 4], [2, 3], [11, 3, 2, 3], [5, 5], [14, 3, 2, 3, 2, 3]];
 
-/** Fallback palette if the page's CSS gives none (light theme values). Our
- * own choice: blue/orange first, the pair that stays apart for the common
- * colour-vision deficiencies, then teal, magenta, ochre, grey. */
-export const PALETTE = ['#2f5fb3', '#cf6d12', '#16866a', '#ad3c84', '#806600', '#555a60'];
+/** Series colours when the caller gives none (the light theme's). */
+export const PALETTE = SERIES_LIGHT;
 
 /** Curve record stride (contract): binEndStep, mean, lo95, hi95, nSeedsWithData. */
 export const CURVE_STRIDE = 5;
@@ -59,22 +62,14 @@ export function niceTicks(min, max, target = 5) {
   return { step, ticks };
 }
 
-/** Environment-step labels: 500, 2k, 12.5k, 1.2M. */
+/** Environment-step labels: 500, 2K, 12.5K, 1.2M. */
 export function formatSteps(v) {
-  const a = Math.abs(v);
-  if (a >= 1e6) return `${trim(v / 1e6)}M`;
-  if (a >= 1e3) return `${trim(v / 1e3)}k`;
-  return trim(v);
+  return formatNumber(v);
 }
 
 /** A value label with as many decimals as the tick step needs. */
 export function formatValue(v, step) {
-  const decimals = step >= 1 ? 0 : Math.min(6, Math.ceil(-Math.log10(step) - 1e-9));
-  return v.toFixed(decimals).replace(/^-(0\.?0*)$/, '$1');
-}
-
-function trim(v) {
-  return Number(v.toFixed(2)).toString();
+  return formatNumber(v, { decimals: step >= 1 ? 0 : Math.min(6, Math.ceil(-Math.log10(step) - 1e-9)) });
 }
 
 /** Contiguous index runs where pred(i) holds. */
@@ -371,7 +366,7 @@ export function drawLogLines(ctx, data, options) {
   const e1 = Math.max(e0 + 1, Math.ceil(Math.log10(hi)));
   if (xMax <= xMin) { xMin -= 1; xMax += 1; }
   const legendH = 26;
-  const labW = Math.max(...Array.from({ length: e1 - e0 + 1 }, (_, i) => ctx.measureText(`1e${e0 + i}`).width)) + 8;
+  const labW = Math.max(...Array.from({ length: e1 - e0 + 1 }, (_, i) => ctx.measureText(formatNumber(10 ** (e0 + i))).width)) + 8;
   const plot = { x: 30 + labW, y: 8 + legendH, w: 0, h: 0 };
   plot.w = Math.max(10, width - plot.x - 16);
   plot.h = Math.max(10, height - plot.y - 40);
@@ -386,7 +381,7 @@ export function drawLogLines(ctx, data, options) {
   ctx.fillStyle = colours.muted;
   ctx.textAlign = 'right';
   ctx.textBaseline = 'middle';
-  for (let e = e0; e <= e1; e++) ctx.fillText(e === 0 ? '1' : `1e${e}`, plot.x - 6, sy(10 ** e));
+  for (let e = e0; e <= e1; e++) ctx.fillText(formatNumber(10 ** e), plot.x - 6, sy(10 ** e));
   const xs = [...new Set(pts.flat().map(([x]) => x))].sort((a, b) => a - b);
   ctx.textAlign = 'center';
   ctx.textBaseline = 'top';

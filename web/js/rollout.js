@@ -10,6 +10,8 @@
 // on, 1 the step ended the episode, 2/3 the final frame after a terminal
 // state / the step limit).
 
+import { formatNumber } from './numbers.js';
+
 /** Number of frames in a scene. */
 export function frameCount(scene) {
   return Math.floor(scene.frames.length / scene.stride);
@@ -37,8 +39,9 @@ export function returnBefore(scene, t) {
   return g;
 }
 
+/** A read-out number with `d` decimals. */
 function fmt(v, d = 2) {
-  return Number.isFinite(v) ? v.toFixed(d).replace('-', '−') : '–';
+  return formatNumber(v, { decimals: d });
 }
 
 function actionText(scene, fr) {

@@ -1,39 +1,36 @@
 // The results tables: scores per variant, pairwise comparisons with their
 // verdicts, and the seeds advisor. Each render function takes a container
 // element and the parsed summary JSON (the same object `critbox run` prints)
-// and rebuilds the container's rows. Every piece of text from the summary
-// (labels, verdicts, failure reasons) is set with textContent.
+// and rebuilds the container's rows; createTablesView wires them to the page
+// (headers, colour swatches, the note on partial data). Every piece of text
+// from the summary (labels, verdicts, failure reasons) is set with
+// textContent; every number goes through numbers.js.
 
-/** A number for a table cell: 3 significant digits, − for missing. */
+import { formatNumber, MISSING } from './numbers.js';
+import { drawSample, seriesStyle, sizeCanvas } from './chart.js';
+
+/** A number for a table cell: 3 significant digits, – for missing. */
 export function fmt(x) {
-  if (typeof x !== 'number' || !Number.isFinite(x)) return '–';
-  const a = Math.abs(x);
-  if (a !== 0 && (a >= 1e6 || a < 1e-3)) return x.toExponential(2).replace('-', '−');
-  const s = a >= 100 ? x.toFixed(0) : a >= 10 ? x.toFixed(1) : a >= 1 ? x.toFixed(2) : x.toFixed(3);
-  return s.replace('-', '−');
+  return formatNumber(x);
 }
 
 /** "lo to hi" of a two-number interval, or –. */
 export function fmtInterval(ci) {
   return Array.isArray(ci) && ci.length === 2 && ci.every((v) => typeof v === 'number')
     ? `${fmt(ci[0])} to ${fmt(ci[1])}`
-    : '–';
+    : MISSING;
 }
 
-/** A p-value: 3 significant digits, "< 0.001" below that. */
+/** A p-value: 2 significant digits, "< 0.001" below that. */
 export function fmtP(p) {
-  if (typeof p !== 'number' || !Number.isFinite(p)) return '–';
+  if (typeof p !== 'number' || !Number.isFinite(p)) return MISSING;
   if (p < 0.001) return '< 0.001';
-  return p.toPrecision(2);
+  return formatNumber(p, { digits: 2 });
 }
 
-/** Environment steps: 3750, 12.5k, 1.2M. */
+/** Environment steps: 3750, 12.5K, 1.2M. */
 export function fmtSteps(v) {
-  if (typeof v !== 'number' || !Number.isFinite(v)) return '–';
-  const a = Math.abs(v);
-  if (a >= 1e6) return `${Number((v / 1e6).toFixed(2))}M`;
-  if (a >= 1e4) return `${Number((v / 1e3).toFixed(1))}k`;
-  return String(Math.round(v));
+  return formatNumber(typeof v === 'number' ? Math.round(v) : v);
 }
 
 function el(tag, text, className) {
@@ -57,9 +54,9 @@ function num2(main, sub, title) {
   return td;
 }
 
-/** A probability and its interval with 2 decimals. */
+/** A probability with 2 decimals. */
 function fmtProb(x) {
-  return typeof x === 'number' && Number.isFinite(x) ? x.toFixed(2) : '–';
+  return formatNumber(x, { decimals: 2 });
 }
 
 function emptyRow(cols, text) {
@@ -96,7 +93,7 @@ export function renderScores(tbody, summary, opts = {}) {
     const fr = v.final_return || {};
     const auc = v.auc || {};
     const reach = v.steps_to_threshold;
-    let reachText = ['–', 'no threshold set'];
+    let reachText = [MISSING, 'no threshold set'];
     let reachTitle = 'Set a threshold under Scoring to count the steps each seed needs to reach it.';
     if (reach && typeof reach === 'object') {
       const total = (reach.reached ?? 0) + (reach.never ?? 0);
@@ -162,7 +159,7 @@ export function renderComparisons(tbody, summary, opts = {}) {
     pair.scope = 'row';
     pair.append(el('span', c.b, 'pair-b'), el('span', ' against ', 'pair-vs'), el('span', c.a, 'pair-a'));
     const pi = c.prob_improvement || {};
-    const ci = Array.isArray(pi.ci95) ? `${fmtProb(pi.ci95[0])} to ${fmtProb(pi.ci95[1])}` : '–';
+    const ci = Array.isArray(pi.ci95) ? `${fmtProb(pi.ci95[0])} to ${fmtProb(pi.ci95[1])}` : MISSING;
     const w = c.welch;
     const wTitle = 'Welch\'s unequal-variance t-test on the final returns';
     tr.append(
@@ -213,10 +210,71 @@ export function renderAdvisor(tbody, summary, opts = {}) {
     }
     const need = s.seeds_per_variant;
     const enough = typeof need === 'number' && need <= have;
-    const cell = num(typeof need === 'number' ? `${need}${enough ? ' (you have enough)' : ` (you ran ${have})`}` : '–');
+    const cell = num(typeof need === 'number' ? `${need}${enough ? ' (you have enough)' : ` (you ran ${have})`}` : MISSING);
     if (typeof need === 'number' && !enough) cell.classList.add('short');
-    tr.append(pair, num(fmt(s.difference)), cell, num(typeof s.normal_approximation === 'number' ? String(s.normal_approximation) : '–'));
+    tr.append(pair, num(fmt(s.difference)), cell, num(typeof s.normal_approximation === 'number' ? String(s.normal_approximation) : MISSING));
     return tr;
   });
   tbody.replaceChildren(...rows);
+}
+
+/**
+ * The tables on the page.
+ * @param {object} app {state, controller, palette()}
+ * @returns {{render()}}
+ */
+export function createTablesView(app) {
+  const { state } = app;
+  const $ = (id) => document.getElementById(id);
+  const ui = {
+    scoresHead: $('scores-head'), scoresBody: $('scores-body'), scoresNote: $('scores-note'),
+    comparisonsHead: $('comparisons-head'), comparisonsBody: $('comparisons-body'),
+    advisorHead: $('advisor-head'), advisorBody: $('advisor-body'),
+  };
+
+  function headRow(tr, columns) {
+    if (tr.children.length) return;
+    tr.replaceChildren(...columns.map((c, i) => {
+      const th = document.createElement('th');
+      th.scope = 'col';
+      th.textContent = c;
+      if (i > 0 && i < columns.length - 1) th.className = 'num';
+      return th;
+    }));
+  }
+
+  function swatch(i) {
+    const sw = document.createElement('canvas');
+    sw.className = 'swatch';
+    const dpr = window.devicePixelRatio || 1;
+    sizeCanvas(sw, 30, 12, dpr);
+    const ctx = sw.getContext('2d');
+    ctx.setTransform(dpr, 0, 0, dpr, 0, 0);
+    drawSample(ctx, 0, 6, 30, seriesStyle(i, app.palette()));
+    sw.setAttribute('aria-hidden', 'true');
+    return sw;
+  }
+
+  function render() {
+    headRow(ui.scoresHead, SCORE_COLUMNS);
+    headRow(ui.comparisonsHead, COMPARISON_COLUMNS);
+    headRow(ui.advisorHead, ADVISOR_COLUMNS);
+    const s = state.summary;
+    const run = state.run;
+    const emptyText = app.controller.isActive() ? 'Training… filled in when the run finishes.' : 'Filled in when a run finishes.';
+    renderScores(ui.scoresBody, s, { swatch, emptyText });
+    renderComparisons(ui.comparisonsBody, s, { emptyText });
+    renderAdvisor(ui.advisorBody, s, { emptyText });
+    let note = '';
+    if (s) {
+      const frac = typeof s.final_fraction === 'number' ? s.final_fraction : null;
+      note = frac ? `(final return: mean base return over the last ${formatNumber(frac * 100)}% of each seed's steps, then over seeds)` : '';
+      if (run && run.status === 'cancelled') note += ' — run cancelled, partial data';
+      if (run && run.status === 'interrupted') note += ' — finished jobs only; the run was interrupted';
+      if (run && run.origin === 'file') note += ` — opened from ${run.fileName}`;
+    }
+    ui.scoresNote.textContent = note;
+  }
+
+  return { render };
 }
