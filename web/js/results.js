@@ -31,7 +31,7 @@ export class ResultsClient {
   /** Take trainer `id`'s chunks from `port` (transferred). */
   attach(id, port) { return this.link.request(RESULTS.attach, { id, port }, [port]); }
 
-  /** Resolves once every listed trainer's chunks up to its count have been applied. */
+  /** Resolves with the job table once every listed trainer's chunks up to its count have been applied. */
   settle(sent) { return this.link.request(RESULTS.settle, { sent }); }
 
   /** Stop listening to trainer `id` (it died or was cancelled). */

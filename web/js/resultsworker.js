@@ -80,7 +80,7 @@ function report(o) {
 function release(o) {
   o.waits = o.waits.filter((w) => {
     const ok = w.sent.every(([id, seq]) => { const p = o.ports.get(id); return !p || p.seq >= seq; });
-    if (ok) { clearTimeout(w.timer); w.resolve(null); }
+    if (ok) { clearTimeout(w.timer); w.resolve({ table: o.table.slice() }); }
     return !ok;
   });
 }

@@ -178,7 +178,8 @@ export function createRunController(app) {
   async function onPaused(run, me) {
     if (state.run !== run || run.status !== 'pausing') return;
     try {
-      await state.results.settle(me.sent());
+      const { table } = await state.results.settle(me.sent());
+      if (state.run === run) setTable(run, table);
     } catch (err) {
       app.showError(messageOf(err));
     }
@@ -210,7 +211,8 @@ export function createRunController(app) {
     run.ending = ending;
     const rc = state.results;
     try {
-      await rc.settle(me.sent());
+      const { table } = await rc.settle(me.sent());
+      if (state.run === run) setTable(run, table);
     } catch (err) {
       app.showError(messageOf(err));
     }
