@@ -84,8 +84,11 @@ export class Pool {
       } else {
         channel.port2.onmessage = (e) => { if (!this.closed) this.handlers.onProgress?.(e.data); };
       }
-      if (slot.state === 'done') continue; // died while the port was handed over
-      slot.link.post(TRAIN.start, { config: configJson, jobIds: list, chunk, batch, port: channel.port1 }, [channel.port1]);
+      if (this.closed) return; // cancelled while the ports were handed over
+      if (slot.state === 'done') continue; // died meanwhile
+      // A pause asked before this trainer started holds it from its first chunk.
+      const pause = this.pausing ? this.epoch : 0;
+      slot.link.post(TRAIN.start, { config: configJson, jobIds: list, chunk, batch, pause, port: channel.port1 }, [channel.port1]);
     }
     this.#checkDone();
   }

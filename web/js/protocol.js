@@ -45,10 +45,11 @@ export const JOB = Object.freeze({ unfinished: 0, done: 1, failed: 2 });
 /**
  * Trainer worker (trainworker.js).
  *   start  {config: JSON text, jobIds, chunk: steps per job per chunk, batch: jobs trained at once,
- *           port: MessagePort (transferred) for PORT.chunk messages}
- *   pause, resume  (no body)
+ *           pause: 0, or the epoch of a pause asked before the start, port: MessagePort (transferred)
+ *           for PORT.chunk messages}
+ *   pause {epoch}: stop after the chunk in progress; resume (no body)
  *   cancel (request) → {sent}: the Run is freed
- *   paused {sent}, done {sent}: every chunk up to `sent` is on the port
+ *   paused {sent, epoch}, done {sent}: every chunk up to `sent` is on the port; `epoch` is the pause's
  *   failed {message, jobIds, sent}: the wasm module failed or threw; jobIds are the jobs it leaves unfinished
  */
 export const TRAIN = Object.freeze({

@@ -93,7 +93,9 @@ export function createRunController(app) {
       if (state.run !== run) return;
       app.showError(`the results worker stopped, so this run's results are lost: ${message}`);
       if (pool) { pool.cancel(); pool = null; }
-      if (ACTIVE.has(run.status)) { run.status = 'cancelled'; app.changed('run'); }
+      if (!ACTIVE.has(run.status)) return;
+      if (run.status !== 'starting' && run.status !== 'finishing') go(run, 'finishing');
+      go(run, 'cancelled');
     };
   }
 

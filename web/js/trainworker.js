@@ -62,7 +62,7 @@ async function start(msg) {
   const chunk = Math.max(1, Math.floor(msg.chunk || 2000));
   const job = {
     config: msg.config, port: msg.port, batches, wasm: null, run: null, runIds: [],
-    chunk, paused: false, idle: false, epoch: 0, busy: false, scheduled: false, failuresSeen: 0, seq: 0,
+    chunk, paused: !!msg.pause, idle: false, epoch: msg.pause || 0, busy: false, scheduled: false, failuresSeen: 0, seq: 0,
   };
   current = job;
   try {
