@@ -9,7 +9,7 @@
 //                   chosen value), coloured by the value or by the action.
 // Draw functions take (ctx, data, options) and keep no state.
 
-import { SERIES_LIGHT, rampColour, rampPosition, inkOnRamp } from './palette.js';
+import { SERIES_LIGHT, AUDIT_MARK, rampColour, rampPosition, inkOnRamp } from './palette.js';
 import { formatNumber } from './numbers.js';
 
 function range(values) {
@@ -156,13 +156,13 @@ export function drawGridMap(ctx, data, options) {
         ctx.strokeStyle = colours.background;
         ctx.lineWidth = 4;
         ctx.strokeRect(x + 2, y + 2, cell - 4, cell - 4);
-        ctx.strokeStyle = '#d7263d';
+        ctx.strokeStyle = AUDIT_MARK;
         ctx.lineWidth = 2;
         ctx.setLineDash([4, 3]);
         ctx.strokeRect(x + 2, y + 2, cell - 4, cell - 4);
         ctx.setLineDash([]);
         ctx.lineWidth = 1;
-        ctx.fillStyle = '#d7263d';
+        ctx.fillStyle = AUDIT_MARK;
         ctx.textAlign = 'right';
         ctx.textBaseline = 'top';
         ctx.fillText('!', x + cell - 4, y + 2);

@@ -1,10 +1,12 @@
 // critbox's colours for data: the series colours of curves and bars (one set
 // for the light theme, one for the dark) and the diverging ramp of the value
-// maps. All come from the page's own palette — paper, sand, teal, ink — and
-// tests/node/palette.test.mjs checks them: even CIELAB lightness steps along
-// each arm of the ramp, and a least CIEDE2000 difference between any two
-// series colours under normal vision and simulated protanopia, deuteranopia
-// and tritanopia. Curves also differ by dash pattern (chart.js), a second cue.
+// maps, both built from the page's own palette (paper, sand, teal, ink),
+// plus the two marks drawn on maps and episodes (audit marks, spills).
+// tests/node/palette.test.mjs checks the series and the ramp: even CIELAB
+// lightness steps along each arm of the ramp, and a least CIEDE2000
+// difference between any two series colours under normal vision and
+// simulated protanopia, deuteranopia and tritanopia. Curves also differ by
+// dash pattern (chart.js), a second cue.
 
 /** Series colours on the light theme's paper: teal, plum, ochre, slate, rust, sage. */
 export const SERIES_LIGHT = Object.freeze(['#136a58', '#7a4682', '#b07a2e', '#323f4a', '#8c4022', '#6b8a6c']);
@@ -23,6 +25,11 @@ export const RAMP = Object.freeze([
   '#f9f3ea', // zero
   '#92ccc5', '#3e9f99', '#1d6f66', '#0d403b', // above zero, darkest last
 ]);
+
+/** Marks on a value map: cells where the shaping audit finds a changed best action. */
+export const AUDIT_MARK = '#d7263d';
+/** Spills on the rover's floor in an episode picture. */
+export const SPILL = '#3f88c5';
 
 /** Index of the zero stop in RAMP. */
 export const RAMP_ZERO = (RAMP.length - 1) / 2;

@@ -11,6 +11,7 @@
 // state / the step limit).
 
 import { formatNumber } from './numbers.js';
+import { SPILL } from './palette.js';
 
 /** Number of frames in a scene. */
 export function frameCount(scene) {
@@ -105,7 +106,7 @@ function paintGrid(ctx, scene, t, fr, a, c) {
       ctx.strokeStyle = c.grid;
       ctx.strokeRect(x + 0.5, y + 0.5, cell - 1, cell - 1);
       if (ch === '~') {
-        ctx.fillStyle = '#3f88c5';
+        ctx.fillStyle = SPILL;
         ctx.globalAlpha = 0.35;
         ctx.beginPath();
         ctx.ellipse(x + cell / 2, y + cell / 2, cell * 0.38, cell * 0.24, 0, 0, 2 * Math.PI);
