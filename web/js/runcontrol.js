@@ -24,6 +24,7 @@ import { ResultsClient } from './results.js';
 import { TABLE_STRIDE, JOB } from './protocol.js';
 import { messageOf } from './wasm.js';
 import { stepsCounted } from './state.js';
+import { readLegacyResults, dropLegacyResults } from './legacy.js';
 
 /** Every state and the states it may move to. */
 export const MOVES = Object.freeze({
@@ -242,80 +243,94 @@ export function createRunController(app) {
     }, Math.max(1500, lastKeepMs * 20));
   }
 
-  /** Have the results worker keep the run in the browser: every job when `final`, else the finished ones. */
+  /** Have the results worker keep the run in the browser: every job when `final`, else the
+   * finished ones. Resolves true when it was kept. */
   async function keep(run, final) {
     const rc = state.results;
-    if (!rc || state.run !== run) return;
+    if (!rc || state.run !== run) return false;
     const status = final ? run.status : 'running';
     try {
       const kept = await rc.keep({ status, final, origin: run.origin, fileName: run.fileName });
       lastKeepMs = kept.ms;
       checkpoints.push({ status, jobs: kept.jobs });
+      return true;
     } catch (err) {
       if (state.results === rc) app.showError(`these results could not be kept in the browser: ${messageOf(err)}; save them as a results file to keep them`);
+      return false;
     }
   }
 
   // ------------------------------------------------------------ opening
 
-  /** Show a results file; resolves true when it worked (a message says why not). */
-  async function openFile(text, fileName) {
-    if (isActive()) { app.showError('A run is in progress; cancel it before opening a results file.'); return false; }
+  /**
+   * Open results that were not trained here: `load(rc)` resolves {configJson,
+   * table, origin, fileName, status} or null (nothing there). Shows them as a
+   * run and resolves it, or null (a message, prefixed with `what`, says why).
+   */
+  async function show(what, load) {
     const rc = new ResultsClient();
     let got;
     let info;
     let summary;
     try {
-      got = await rc.openFile(text);
-      info = JSON.parse(state.wasm.validateConfig(got.configJson));
-      summary = await rc.summary();
+      got = await load(rc);
+      if (got) {
+        info = JSON.parse(state.wasm.validateConfig(got.configJson));
+        summary = await rc.summary();
+      }
     } catch (err) {
       rc.close();
-      app.showError(`${fileName} could not be opened: ${messageOf(err)}`);
-      return false;
+      app.showError(`${what}: ${messageOf(err)}`);
+      return null;
     }
-    const run = newRun(got.configJson, info, 'file', fileName);
-    run.status = 'opened';
+    if (!got) { rc.close(); return null; }
+    const origin = got.origin === 'file' ? 'file' : 'run';
+    const run = newRun(got.configJson, info, origin, got.fileName || '');
+    run.status = origin === 'file' ? 'opened' : ['done', 'cancelled'].includes(got.status) ? got.status : 'interrupted';
     adopt(run, rc);
     setTable(run, got.table);
     state.summary = summary;
-    app.changed('run');
-    app.changed('results');
-    await keep(run, true);
-    return true;
-  }
-
-  /** Show what the browser kept from the last visit; resolves true when there was something. */
-  async function restoreKept() {
-    const rc = new ResultsClient();
-    let got;
-    let info;
-    try {
-      got = await rc.restoreKept();
-      if (got) info = JSON.parse(state.wasm.validateConfig(got.configJson));
-    } catch (err) {
-      rc.close();
-      app.showError(`Results kept from the last visit could not be restored: ${messageOf(err)}`);
-      return false;
-    }
-    if (!got) { rc.close(); return false; }
-    const { meta } = got;
-    const run = newRun(got.configJson, info, meta.origin === 'file' ? 'file' : 'run', meta.fileName);
-    run.status = meta.origin === 'file' ? 'opened' : ['done', 'cancelled'].includes(meta.status) ? meta.status : 'interrupted';
-    adopt(run, rc);
-    setTable(run, got.table);
-    try {
-      state.summary = await rc.summary();
-    } catch (err) {
-      app.showError(`Results kept from the last visit could not be summarised: ${messageOf(err)}`);
-    }
     app.changed('run');
     app.changed('results');
     if (run.status === 'interrupted') {
       const done = run.jobStatus.reduce((n, st) => n + (st !== JOB.unfinished ? 1 : 0), 0);
       app.showNote(`The last run was interrupted; its ${done} finished job${done === 1 ? ' is' : 's are'} shown. Finish it to train the other ${run.jobs - done}.`, 15000);
     }
-    return true;
+    return run;
+  }
+
+  /** Show a results file and keep it; resolves true when it worked (a message says why not). */
+  async function openFile(text, fileName) {
+    if (isActive()) { app.showError('A run is in progress; cancel it before opening a results file.'); return false; }
+    const run = await show(`${fileName} could not be opened`,
+      async (rc) => ({ ...(await rc.openFile(text)), origin: 'file', fileName }));
+    if (run) await keep(run, true);
+    return !!run;
+  }
+
+  /** Show what the browser kept from the last visit (or what an older page
+   * kept in local storage, moved to IndexedDB); resolves true when there was something. */
+  async function restoreKept() {
+    const run = await show('Results kept from the last visit could not be restored', async (rc) => {
+      const got = await rc.restoreKept();
+      return got && { ...got, ...got.meta };
+    });
+    return !!run || restoreLegacy();
+  }
+
+  async function restoreLegacy() {
+    let old;
+    try {
+      old = await readLegacyResults();
+    } catch (err) {
+      app.showError(`Results an older version of this page kept could not be read (${messageOf(err)}); they are left where they were.`);
+      return false;
+    }
+    if (!old) return false;
+    const run = await show('Results an older version of this page kept could not be restored',
+      async (rc) => ({ ...(await rc.openFile(old.text)), origin: old.origin, fileName: old.fileName, status: old.status }));
+    if (run && await keep(run, run.status !== 'interrupted')) dropLegacyResults();
+    return !!run;
   }
 
   return { train, togglePause, cancel, finishInterrupted, openFile, restoreKept, isActive, checkpoints };
