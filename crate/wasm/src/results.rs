@@ -52,23 +52,22 @@ fn load_text(text: &str) -> Result<(Plan, experiment::Results), String> {
 }
 
 /// A copy of `results` holding only the jobs that are finished (done or
-/// failed); the others look as if they had not started.
-pub fn finished_only(plan: &Plan, results: &experiment::Results) -> experiment::Results {
-    let mut out = experiment::Results::new(plan);
-    for id in 0..results.job_count() {
-        let (episodes, steps_done, failed) = results.job_record(id);
-        if failed.is_none() && steps_done < plan.config.steps {
-            continue;
-        }
-        for e in episodes {
-            out.add_episode(id, *e);
-        }
-        out.set_steps(id, steps_done);
-        if let Some(reason) = failed {
-            out.mark_failed(id, reason.to_string());
+/// failed); the others look as if they had not started. Made through the
+/// results file itself (each unfinished job's entry replaced by an empty
+/// job's), so whatever the core records per job is carried, or dropped,
+/// without a list of fields here.
+pub fn finished_only(plan: &Plan, results: &experiment::Results) -> Result<experiment::Results, String> {
+    let mut file = export::save(plan, results);
+    let empty = export::save(plan, &experiment::Results::new(plan));
+    let table = job_table(plan, results);
+    if let (Some(jobs), Some(blank)) = (file["jobs"].as_array_mut(), empty["jobs"].as_array()) {
+        for (i, job) in jobs.iter_mut().enumerate() {
+            if table[i * 2 + 1] == 0.0 {
+                *job = blank[i].clone();
+            }
         }
     }
-    out
+    load_text(&file.to_string()).map(|(_, r)| r)
 }
 
 /// Per job, stride 2: steps done, status (0 not finished, 1 done, 2 failed).
@@ -139,8 +138,9 @@ impl Results {
     /// keeping a run that is still going: unfinished jobs are trained again
     /// from their start when the run is finished later.
     #[wasm_bindgen(js_name = finishedOnly)]
-    pub fn finished_only(&self) -> Results {
-        Results { inner: finished_only(&self.plan, &self.inner), plan: self.plan.clone() }
+    pub fn finished_only(&self) -> Result<Results, JsError> {
+        let inner = finished_only(&self.plan, &self.inner).map_err(|e| JsError::new(&e))?;
+        Ok(Results { inner, plan: self.plan.clone() })
     }
 
     /// Per job (in id order), stride 2: steps done, status (0 not finished,
@@ -318,7 +318,7 @@ mod tests {
         }
         r.mark_failed(3, "step 9: diverged: test".into());
         assert_eq!(job_table(&plan, &r), vec![0.0, 0.0, 600.0, 1.0, 300.0, 0.0, 0.0, 2.0]);
-        let kept = finished_only(&plan, &r);
+        let kept = finished_only(&plan, &r).unwrap();
         assert_eq!(job_table(&plan, &kept), vec![0.0, 0.0, 600.0, 1.0, 0.0, 0.0, 0.0, 2.0]);
         assert_eq!(kept.job_record(1).0, r.job_record(1).0);
         assert!(kept.job_record(2).0.is_empty());
