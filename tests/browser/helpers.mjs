@@ -1,18 +1,20 @@
-// Shared set-up for the browser tests: the static server, headless Chromium
-// (Debian's, never a downloaded one) and a page with its console watched.
+// Shared set-up for the browser tests: the page served by `critbox serve`
+// (the server users get) on 127.0.0.1, headless Chromium (Debian's, never a
+// downloaded one) and a page with its console watched.
 
 import { mkdir } from 'node:fs/promises';
 import path from 'node:path';
+import { fileURLToPath } from 'node:url';
 import { chromium } from 'playwright-core';
-import { startServer, repoRoot } from './server.mjs';
+import { startServe } from '../serve.mjs';
 
-export { repoRoot };
+export const repoRoot = process.env.CRITBOX_ROOT || path.resolve(path.dirname(fileURLToPath(import.meta.url)), '..', '..');
 export const outDir = path.join(process.env.CRITBOX_TEST_OUTPUT || path.join(repoRoot, 'test-output'), 'browser');
 
 /** Start the server and the browser; returns {server, browser, close()}. */
 export async function setUp() {
   await mkdir(outDir, { recursive: true });
-  const server = await startServer();
+  const server = await startServe(path.join(repoRoot, 'web'));
   const browser = await chromium.launch({
     executablePath: process.env.CRITBOX_CHROMIUM || '/usr/bin/chromium',
     args: ['--headless', '--no-sandbox', '--disable-gpu', '--disable-background-networking',
@@ -21,7 +23,7 @@ export async function setUp() {
   return {
     server,
     browser,
-    close: async () => { await browser.close(); server.server.closeAllConnections?.(); await server.close(); },
+    close: async () => { await browser.close(); await server.close(); },
   };
 }
 
@@ -86,7 +88,7 @@ export function nextFrame(page) {
 export async function waitForRunEnd(page, timeout = 180000) {
   await page.waitForFunction(() => {
     const r = window.__critbox.state.run;
-    return r && (r.status === 'done' || r.status === 'cancelled') && r.summarised;
+    return r && (r.status === 'done' || r.status === 'cancelled');
   }, null, { timeout, polling: 200 });
 }
 

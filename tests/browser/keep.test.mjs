@@ -5,6 +5,7 @@
 import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
 import { readFile, writeFile, mkdtemp } from 'node:fs/promises';
+import { gzipSync } from 'node:zlib';
 import { execFile } from 'node:child_process';
 import { promisify } from 'node:util';
 import os from 'node:os';
@@ -74,7 +75,12 @@ test('a reload during a run keeps the finished jobs; finishing the run gives the
     return { status: run.status, done, configJson: run.configJson };
   });
   assert.equal(after.status, 'interrupted');
-  assert.equal(after.configJson, before.configJson);
+  // The restored run's config is the kept results' (defaults filled in by the core).
+  const filled = await page.evaluate((json) => {
+    const r = new window.__critbox.state.wasm.Results(json);
+    try { return r.configJson(); } finally { r.free(); }
+  }, before.configJson);
+  assert.equal(after.configJson, filled);
   assert.ok(after.done.length >= before.saved, `${after.done.length} jobs restored, ${before.saved} were saved`);
   assert.ok(after.done.length < before.jobs, 'some jobs are left to train');
   assert.equal(await page.isVisible('#resume'), true);
@@ -82,7 +88,7 @@ test('a reload during a run keeps the finished jobs; finishing the run gives the
   await shoot(page, 'interrupted-run.png');
 
   await page.click('#resume');
-  await page.waitForFunction(() => window.__critbox.state.run.status === 'done' && window.__critbox.state.run.summarised, null, { timeout: 120000, polling: 200 });
+  await page.waitForFunction(() => window.__critbox.state.run.status === 'done', null, { timeout: 120000, polling: 200 });
   const summary = await page.evaluate(() => window.__critbox.state.summary);
   const dir = await mkdtemp(path.join(os.tmpdir(), 'critbox-'));
   await writeFile(path.join(dir, 'c.json'), before.configJson);
@@ -118,4 +124,32 @@ test('an opened results file is kept too', async () => {
   assert.deepEqual(await second.page.evaluate(() => window.__critbox.state.summary), summary);
   assert.match(await second.page.textContent('#plot-title'), /kept\.json/);
   await second.context.close();
+});
+
+test('results an older page kept in local storage are shown, then kept the new way', async () => {
+  // Written as the previous page wrote them: gzip, base64url, episode records of stride 5.
+  const preset = JSON.parse(await readFile(path.join(ROOT, 'web', 'presets', 'rover-a2c-vs-qac.json'), 'utf8'));
+  const configJson = JSON.stringify({ ...preset, seeds: 2, steps: 1500 });
+  const dir = await mkdtemp(path.join(os.tmpdir(), 'critbox-'));
+  await writeFile(path.join(dir, 'c.json'), configJson);
+  const { stdout } = await promisify(execFile)(CLI, ['run', path.join(dir, 'c.json'), '--save', path.join(dir, 'r.json')], { maxBuffer: 1 << 26 });
+  const saved = JSON.parse(await readFile(path.join(dir, 'r.json'), 'utf8'));
+  const b64url = (buf) => Buffer.from(buf).toString('base64').replace(/\+/g, '-').replace(/\//g, '_').replace(/=+$/, '');
+  const jobs = saved.jobs.map((j) => ({
+    id: j.id, steps: j.steps_done, status: j.failed ? 2 : 1, failed: j.failed,
+    episodes: b64url(new Float64Array(j.episodes.flatMap((e) => [j.id, e[0], e[1], e[2], e[3]])).buffer),
+  }));
+  const entry = JSON.stringify({ v: 1, kind: 'jobs', status: 'done', configJson, fileName: '', savedAt: 1, data: b64url(gzipSync(JSON.stringify({ jobs }))) });
+
+  const { page, context, problems } = await openPage(env);
+  await page.evaluate((e) => localStorage.setItem('critbox:results', e), entry);
+  await reload(page);
+  assert.equal(await page.evaluate(() => window.__critbox.state.run.status), 'done');
+  assert.deepEqual(await page.evaluate(() => window.__critbox.state.summary), JSON.parse(stdout));
+  await page.waitForFunction(() => localStorage.getItem('critbox:results') === null);
+  await reload(page);
+  assert.equal(await page.evaluate(() => window.__critbox.state.run.status), 'done');
+  assert.deepEqual(await page.evaluate(() => window.__critbox.state.summary), JSON.parse(stdout));
+  assert.deepEqual(problems, []);
+  await context.close();
 });

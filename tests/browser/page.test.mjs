@@ -30,7 +30,7 @@ async function shoot(page, name) {
 async function waitForRunEnd(page, timeout = 180000) {
   await page.waitForFunction(() => {
     const r = window.__critbox.state.run;
-    return r && (r.status === 'done' || r.status === 'cancelled') && r.summarised;
+    return r && (r.status === 'done' || r.status === 'cancelled');
   }, null, { timeout, polling: 200 });
 }
 
@@ -156,18 +156,14 @@ test('invalid input: the message names the field and the run button is disabled 
 });
 
 test('a worker that fails shows a message and the page keeps working', async () => {
-  // The worker script is replaced by one that throws on load.
+  // The training worker's script is replaced by one that throws on load;
+  // the results and probe workers still work.
   const { page, context } = await openPage(env, {
     before: async (_page, ctx) => {
-      // Training workers throw on load; the results and inspection workers
-      // (the same script under other names) still work.
-      await ctx.route('**/js/worker.js', async (route) => {
-        const real = await (await route.fetch()).text();
-        await route.fulfill({
-          contentType: 'text/javascript',
-          body: `if (self.name.startsWith('critbox-trainer')) throw new Error("worker could not start (test)");\n${real}`,
-        });
-      });
+      await ctx.route('**/js/trainworker.js', (route) => route.fulfill({
+        contentType: 'text/javascript',
+        body: 'throw new Error("worker could not start (test)");\n',
+      }));
     },
   });
   await page.fill('#seeds', '2');
@@ -201,7 +197,7 @@ test('pause holds the run still, resume goes on, cancel ends it with a partial s
 
   await page.click('#pause');
   assert.equal((await page.textContent('#pause')).trim(), 'Resume');
-  await page.waitForFunction(() => window.__critbox.state.run.idle === true);
+  await page.waitForFunction(() => window.__critbox.state.run.status === 'paused');
   const held = await stepsDone();
   assert.ok(held < 2 * 2 * LONG_STEPS, 'paused before the end');
   await page.waitForTimeout(400);
@@ -234,15 +230,15 @@ test('variants list: add one, override its learner, duplicate it, remove them', 
   // Focus moves to the new variant's label.
   assert.equal(await page.evaluate(() => document.activeElement.id), `f-variants-${n}-label`);
   await page.fill(`#f-variants-${n}-label`, 'QAC, small actor step');
-  await page.selectOption(`#f-variants-${n}-add`, 'algo');
-  await page.selectOption(`#f-variants-${n}-learner-algo`, 'qac');
+  await page.selectOption(`#f-variants-${n}-add`, 'family');
+  await page.selectOption(`#f-variants-${n}-learner-family`, 'qac');
   await page.selectOption(`#f-variants-${n}-add`, 'actor_step');
   // The override starts from the shared value.
   assert.equal(await page.inputValue(`#f-variants-${n}-learner-actor_step`), String(cfg.base.actor_step));
   await page.fill(`#f-variants-${n}-learner-actor_step`, '0.05');
   await page.waitForFunction((k) => /Ready: (\d+) variants/.exec(document.getElementById('run-reason').textContent)?.[1] === String(k), n + 1);
   const added = await page.evaluate((k) => window.__critbox.state.config.variants[k], n);
-  assert.deepEqual(added, { label: 'QAC, small actor step', learner: { algo: 'qac', actor_step: 0.05 } });
+  assert.deepEqual(added, { label: 'QAC, small actor step', learner: { family: 'qac', actor_step: 0.05 } });
   // The preset's own variants are untouched.
   const kept = await page.evaluate((k) => window.__critbox.state.config.variants.slice(0, k), n);
   assert.deepEqual(kept, cfg.variants);
@@ -254,11 +250,11 @@ test('variants list: add one, override its learner, duplicate it, remove them', 
   // Duplicate: a copy right after it, with a label of its own.
   await page.click(`#variants > li:nth-child(${n + 1}) button[data-duplicate]`);
   const copyOf = await page.evaluate((k) => window.__critbox.state.config.variants[k + 1], n);
-  assert.deepEqual(copyOf, { label: 'QAC, small actor step (copy)', learner: { algo: 'qac', actor_step: 0.05 } });
+  assert.deepEqual(copyOf, { label: 'QAC, small actor step (copy)', learner: { family: 'qac', actor_step: 0.05 } });
   // Dropping an override goes back to the shared value.
   await page.click(`#variants > li:nth-child(${n + 2}) button[data-drop="variants[${n + 1}].learner.actor_step"]`);
   assert.deepEqual(await page.evaluate((k) => window.__critbox.state.config.variants[k + 1], n),
-    { label: 'QAC, small actor step (copy)', learner: { algo: 'qac' } });
+    { label: 'QAC, small actor step (copy)', learner: { family: 'qac' } });
 
   await page.click(`#variants > li:nth-child(${n + 2}) button.remove`);
   await page.click(`#variants > li:nth-child(${n + 1}) button.remove`);

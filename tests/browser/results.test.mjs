@@ -46,7 +46,7 @@ test('results: tables, curve statistics, exports, and a results file opened agai
   assert.equal(verdicts.length, (n * (n - 1)) / 2);
   for (const [k, v] of verdicts.entries()) assert.equal(v, summary.comparisons[k].verdict);
   // Seeds advisor: a row per pair, the seeds needed as the summary says.
-  const advice = page.locator('#advisor-body tr');
+  const advice = page.locator('#advisor-body tr.pair-row');
   assert.equal(await advice.count(), (n * (n - 1)) / 2);
   for (let k = 0; k < summary.comparisons.length; k++) {
     const a = summary.comparisons[k].seeds_advice;
@@ -109,7 +109,7 @@ test('results: tables, curve statistics, exports, and a results file opened agai
   const [jsonDl] = await Promise.all([page.waitForEvent('download'), page.click('#save-results')]);
   const saved = await readFile(await jsonDl.path(), 'utf8');
   const file = JSON.parse(saved);
-  assert.equal(file.critbox_results, 1);
+  assert.equal(file.critbox_results, 2);
   assert.equal(file.jobs.length, n * 4);
   assert.deepEqual(file.summary, summary);
   assert.deepEqual(problems, []);
@@ -142,7 +142,7 @@ test('results: tables, curve statistics, exports, and a results file opened agai
   await second.context.close();
 });
 
-test('the page\'s summary equals `critbox run` on the same config, number for number', async () => {
+test('the page\'s summary and saved results file equal `critbox run --save` on the same config', async () => {
   const { page, context, problems } = await openPage(env);
   await page.fill('#seeds', '3');
   await page.fill('#steps', '2500');
@@ -152,13 +152,20 @@ test('the page\'s summary equals `critbox run` on the same config, number for nu
     configJson: window.__critbox.state.run.configJson,
     summary: window.__critbox.state.summary,
   }));
+  const [dl] = await Promise.all([page.waitForEvent('download'), page.click('#save-results')]);
+  const pageFile = JSON.parse(await readFile(await dl.path(), 'utf8'));
   const dir = await mkdtemp(path.join(os.tmpdir(), 'critbox-'));
   const cfgPath = path.join(dir, 'page-config.json');
+  const savePath = path.join(dir, 'cli-results.json');
   await writeFile(cfgPath, configJson);
-  const { stdout } = await promisify(execFile)(CLI, ['run', cfgPath], { maxBuffer: 1 << 26 });
+  const { stdout } = await promisify(execFile)(CLI, ['run', cfgPath, '--save', savePath], { maxBuffer: 1 << 26 });
   assert.deepEqual(summary, JSON.parse(stdout));
   assert.equal(summary.seeds, 3);
+  // The whole results file, every episode record (truncated flags included)
+  // and the config with its defaults, not only the summary.
+  const cliFile = JSON.parse(await readFile(savePath, 'utf8'));
+  assert.deepEqual(pageFile, cliFile);
+  assert.ok(pageFile.jobs.some((j) => j.episodes.some((e) => e[4] === true)), 'some rover episodes hit the time limit');
   assert.deepEqual(problems, []);
   await context.close();
 });
-

@@ -131,7 +131,7 @@ test('a link with markup in its labels shows it as text and runs nothing', async
     title: HOSTILE_TITLE,
     seeds: 2,
     steps: 1500,
-    variants: [{ label: HOSTILE_LABEL }, { label: 'QAC', learner: { algo: 'qac', actor_step: 0.01 } }],
+    variants: [{ label: HOSTILE_LABEL }, { label: 'QAC', learner: { family: 'qac', actor_step: 0.01 } }],
   };
   const { page, context, problems, dialogs } = await openAt(fragmentOf(JSON.stringify(cfg)));
   assert.equal(await page.inputValue('#title'), HOSTILE_TITLE);

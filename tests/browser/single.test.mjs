@@ -1,11 +1,13 @@
 // The single-file build (dist/critbox.html, written by scripts/build-single)
 // opened from file://: it loads with no console error, runs a preset in its
 // workers, and makes no network request at all; its Content-Security-Policy
-// refuses one when the page tries.
+// (the page's own with 'self' taken out and the inline elements' hashes let
+// in) refuses one when the page tries.
 
 import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
-import { stat, readdir } from 'node:fs/promises';
+import { stat, readdir, readFile } from 'node:fs/promises';
+import { createHash } from 'node:crypto';
 import path from 'node:path';
 import { pathToFileURL } from 'node:url';
 import { setUp, repoRoot, outDir, runToEnd } from './helpers.mjs';
@@ -23,6 +25,29 @@ async function sources() {
   const js = (await readdir(path.join(web, 'js'))).filter((f) => f.endsWith('.js')).map((f) => path.join(web, 'js', f));
   return [path.join(web, 'index.html'), path.join(web, 'style.css'), ...js];
 }
+
+/** A policy text as {directive: [sources]}. */
+const directives = (policy) => Object.fromEntries(policy.split(';').map((d) => d.trim()).filter(Boolean)
+  .map((d) => d.split(/\s+/)).map(([k, ...v]) => [k, v]));
+
+test('the single file\'s policy is the page\'s, with its inline scripts and style let in by hash', async () => {
+  const meta = (html) => /<meta http-equiv="Content-Security-Policy" content="([^"]*)">/.exec(html)[1];
+  const pagePolicy = directives(meta(await readFile(path.join(ROOT, 'web', 'index.html'), 'utf8')));
+  const html = await readFile(SINGLE, 'utf8');
+  const single = directives(meta(html));
+  // CSP Level 3, hash sources: base64 of the SHA-256 of the element's text (common practice, no source).
+  const hash = (text) => `'sha256-${createHash('sha256').update(text, 'utf8').digest('base64')}'`;
+  const scripts = [...html.matchAll(/<script id="[\w-]+">([\s\S]*?)<\/script>/g)].map((m) => hash(m[1]));
+  const styles = [...html.matchAll(/<style>([\s\S]*?)<\/style>/g)].map((m) => hash(m[1]));
+  assert.equal(scripts.length, 3, 'glue, set-up and page scripts run; the worker sources are text');
+  assert.deepEqual(Object.keys(single), Object.keys(pagePolicy));
+  for (const [name, sources] of Object.entries(pagePolicy)) {
+    const kept = sources.filter((x) => x !== "'self'");
+    const extra = { 'script-src': scripts, 'style-src': styles, 'worker-src': ['blob:'] }[name] || [];
+    const want = [...kept, ...extra];
+    assert.deepEqual(single[name], want.length ? want : ["'none'"], name);
+  }
+});
 
 test('dist/critbox.html from file:// runs a preset with zero network requests', async () => {
   const built = await stat(SINGLE).catch(() => null);

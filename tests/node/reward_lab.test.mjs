@@ -7,6 +7,7 @@ import fs from 'node:fs';
 import path from 'node:path';
 import { execFileSync } from 'node:child_process';
 import { fileURLToPath } from 'node:url';
+import { RECORD_KINDS } from '../../web/js/protocol.js';
 
 const root = process.env.CRITBOX_ROOT || path.resolve(path.dirname(fileURLToPath(import.meta.url)), '../..');
 const pkg = path.join(root, 'web/pkg');
@@ -65,7 +66,7 @@ test('curveShaped has the stride of curve and the summary carries the hacking fl
   const run = new cb.Run(json, Uint32Array.from([0, 1, 2, 3]));
   while (!run.advance(1000));
   const results = new cb.Results(json);
-  results.addEpisodes(run.takeEpisodes());
+  for (const kind of RECORD_KINDS) results.addRecords(kind, run.takeRecords(kind));
   for (let j = 0; j < 4; j++) results.setSteps(j, 4000);
   const base = results.curve(1);
   const shaped = results.curveShaped(1);

@@ -1,6 +1,7 @@
 // The WebAssembly build (run under Node, as the page's workers run it) and the
-// native CLI give identical summaries for the same config: same numbers, bit
-// for bit. Needs `scripts/build` first (web/pkg and target/release/critbox).
+// native CLI give identical results for the same config: the same summary and
+// the same results file (every episode record, truncated flags included),
+// bit for bit. Needs `scripts/build` first (web/pkg and target/release/critbox).
 import { test } from 'node:test';
 import assert from 'node:assert/strict';
 import fs from 'node:fs';
@@ -8,6 +9,7 @@ import os from 'node:os';
 import path from 'node:path';
 import { execFileSync } from 'node:child_process';
 import { fileURLToPath } from 'node:url';
+import { RECORD_KINDS, PROGRESS_STRIDE } from '../../web/js/protocol.js';
 
 const root = process.env.CRITBOX_ROOT || path.resolve(path.dirname(fileURLToPath(import.meta.url)), '../..');
 const pkg = path.join(root, 'web/pkg');
@@ -16,7 +18,9 @@ const { default: init, ...cb } = await import(path.join(pkg, 'critbox_wasm.js'))
 await init({ module_or_path: fs.readFileSync(path.join(pkg, 'critbox_wasm_bg.wasm')) });
 
 /** Runs a config the way the page does: jobs dealt to `workers` Run handles,
- * advanced in chunks, episode records fed to one Results handle. */
+ * advanced in chunks, every record kind of protocol.js moved to one Results
+ * handle as the trainers' chunks are. Returns {summary, file} (the parsed
+ * summary and results file). */
 function runLikeThePage(json, workers, chunk) {
   const plan = JSON.parse(cb.validateConfig(json));
   const owned = Array.from({ length: workers }, () => []);
@@ -27,30 +31,43 @@ function runLikeThePage(json, workers, chunk) {
   while (busy.length) {
     busy = busy.filter((run) => {
       const done = run.advance(chunk);
-      results.addEpisodes(run.takeEpisodes());
-      results.addEvaluations(run.takeEvaluations());
+      for (const kind of RECORD_KINDS) results.addRecords(kind, run.takeRecords(kind));
       const p = run.progress();
-      for (let i = 0; i < p.length; i += 3) results.setSteps(p[i], p[i + 1]);
+      for (let i = 0; i < p.length; i += PROGRESS_STRIDE) results.setSteps(p[i], p[i + 1]);
       for (const f of JSON.parse(run.failures())) results.markFailed(f.job, f.reason);
       if (done) run.free();
       return !done;
     });
   }
   const summary = JSON.parse(results.summaryJson());
+  const file = JSON.parse(results.saveJson());
   results.free();
-  return summary;
+  return { summary, file };
+}
+
+/** `critbox run CONFIG --save FILE`: {summary, file}. */
+function runNative(configPath) {
+  const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'critbox-save-'));
+  try {
+    const save = path.join(dir, 'results.json');
+    const summary = JSON.parse(execFileSync(cli, ['run', configPath, '--save', save], { encoding: 'utf8', maxBuffer: 1 << 26 }));
+    return { summary, file: JSON.parse(fs.readFileSync(save, 'utf8')) };
+  } finally {
+    fs.rmSync(dir, { recursive: true, force: true });
+  }
 }
 
 const presets = fs.readdirSync(path.join(root, 'web/presets')).filter((f) => f.endsWith('.json') && f !== 'index.json');
 
 for (const file of presets) {
-  test(`${file}: WebAssembly and native CLI agree exactly`, () => {
+  test(`${file}: WebAssembly and native CLI agree exactly, summary and results file`, () => {
     const configPath = path.join(root, 'web/presets', file);
     const json = fs.readFileSync(configPath, 'utf8');
-    const native = JSON.parse(execFileSync(cli, ['run', configPath], { encoding: 'utf8', maxBuffer: 1 << 26 }));
+    const native = runNative(configPath);
     const wasm = runLikeThePage(json, 2, 1500);
-    assert.deepEqual(wasm, native);
-    assert.ok(native.variants.length >= 1);
+    assert.deepEqual(wasm.summary, native.summary);
+    assert.deepEqual(wasm.file, native.file);
+    assert.ok(native.summary.variants.length >= 1);
   });
 }
 
@@ -80,9 +97,11 @@ for (const [name, edit] of [
     try {
       const configPath = path.join(dir, 'config.json');
       fs.writeFileSync(configPath, json);
-      const native = JSON.parse(execFileSync(cli, ['run', configPath], { encoding: 'utf8', maxBuffer: 1 << 26 }));
-      assert.deepEqual(runLikeThePage(json, 2, 1000), native);
-      assert.ok(native.variants[0].episodes > 10);
+      const native = runNative(configPath);
+      const wasm = runLikeThePage(json, 2, 1000);
+      assert.deepEqual(wasm.summary, native.summary);
+      assert.deepEqual(wasm.file, native.file);
+      assert.ok(native.summary.variants[0].episodes > 10);
     } finally {
       fs.rmSync(dir, { recursive: true, force: true });
     }
@@ -104,7 +123,10 @@ test('bad configs throw an Error naming the field, never trap', () => {
   assert.throws(() => new cb.Run('{"schema": 1', new Uint32Array([0])), /not valid JSON at line 1/);
   assert.throws(() => new cb.Run(JSON.stringify({ ...v, variants: [{ label: 'x' }] }), new Uint32Array([99])), /job id 99 is out of range/);
   const results = new cb.Results(JSON.stringify({ ...v, variants: [{ label: 'x' }] }));
-  assert.throws(() => results.addEpisodes(new Float64Array([0, 1, 2])), /groups of 5/);
+  assert.throws(() => results.addRecords('episode', new Float64Array([0, 1, 2])), /episode records come in groups of 6/);
+  assert.throws(() => results.addRecords('episode', new Float64Array([0, 1, 2, 2, 1, 7])), /episode record 0 .*truncated must be 0 or 1/);
+  assert.throws(() => results.addRecords('score', new Float64Array()), /unknown record kind "score"/);
+  assert.throws(() => cb.Results.restore(new Uint8Array([1, 2, 3])), /damaged/);
   assert.throws(() => results.curve(5), /out of range/);
   results.free();
 });

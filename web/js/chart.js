@@ -3,16 +3,22 @@
 // used (so a caller or a test can find the plot area). Each variant gets a
 // colour and a dash pattern (second cue for readers who cannot tell the
 // colours apart): a line of the chosen statistic over seeds (mean with its
-// translucent 95% band, or the IQM, or the median), optionally one thin line
-// per seed, and an optional dotted threshold line.
+// translucent pointwise 95% band, or the IQM, or the median), optionally one
+// thin line per seed, faint background curves (the return while learning
+// behind the learned policy's), an optional dotted threshold line, and a
+// note when the points average different numbers of seeds or too few for a
+// band. drawLogLines draws a few
+// series on a log-scale y axis (the gradient-variance view). Colours come
+// from palette.js, numbers are written by numbers.js.
+
+import { SERIES_LIGHT } from './palette.js';
+import { formatNumber } from './numbers.js';
 
 /** Dash patterns, one per variant in order (CSS px); the first is solid. */
 export const DASHES = [[], [9, 4], [2, 3], [11, 3, 2, 3], [5, 5], [14, 3, 2, 3, 2, 3]];
 
-/** Fallback palette if the page's CSS gives none (light theme values). Our
- * own choice: blue/orange first, the pair that stays apart for the common
- * colour-vision deficiencies, then teal, magenta, ochre, grey. */
-export const PALETTE = ['#2f5fb3', '#cf6d12', '#16866a', '#ad3c84', '#806600', '#555a60'];
+/** Series colours when the caller gives none (the light theme's). */
+export const PALETTE = SERIES_LIGHT;
 
 /** Curve record stride (contract): binEndStep, mean, lo95, hi95, nSeedsWithData. */
 export const CURVE_STRIDE = 5;
@@ -21,11 +27,14 @@ export const ROBUST_STRIDE = 2;
 
 /** The statistics a curve can show, with the y-axis title of each. */
 export const STATS = {
-  mean: 'return: mean over seeds with 95% bootstrap band',
-  iqm: 'return: interquartile mean over seeds',
-  median: 'return: median over seeds',
-  shaped: 'shaped return (trained on): mean with 95% t band',
+  mean: 'mean, pointwise 95% band',
+  iqm: 'interquartile mean',
+  median: 'median',
+  shaped: 'shaped return: mean, pointwise 95%',
 };
+
+/** What the y axis measures, before the statistic. */
+export const MEASURES = { training: 'return while learning', evaluation: 'learned policy' };
 
 export function seriesStyle(i, palette = PALETTE) {
   // Past the palette's length the dash cycle is shifted, so no two of the
@@ -59,22 +68,14 @@ export function niceTicks(min, max, target = 5) {
   return { step, ticks };
 }
 
-/** Environment-step labels: 500, 2k, 12.5k, 1.2M. */
+/** Environment-step labels: 500, 2K, 12.5K, 1.2M. */
 export function formatSteps(v) {
-  const a = Math.abs(v);
-  if (a >= 1e6) return `${trim(v / 1e6)}M`;
-  if (a >= 1e3) return `${trim(v / 1e3)}k`;
-  return trim(v);
+  return formatNumber(v);
 }
 
 /** A value label with as many decimals as the tick step needs. */
 export function formatValue(v, step) {
-  const decimals = step >= 1 ? 0 : Math.min(6, Math.ceil(-Math.log10(step) - 1e-9));
-  return v.toFixed(decimals).replace(/^-(0\.?0*)$/, '$1');
-}
-
-function trim(v) {
-  return Number(v.toFixed(2)).toString();
+  return formatNumber(v, { decimals: step >= 1 ? 0 : Math.min(6, Math.ceil(-Math.log10(step) - 1e-9)) });
 }
 
 /** Contiguous index runs where pred(i) holds. */
@@ -94,7 +95,9 @@ function runsWhere(n, pred) {
  * @param {object} data
  *   variants: [{label: string, curve: Float64Array (stride 5, see CURVE_STRIDE),
  *               robust: Float64Array (stride 2, see ROBUST_STRIDE; needed for 'iqm' and 'median'),
- *               seeds: [Float64Array] (one value per bin and seed, NaN where none; optional)}]
+ *               seeds: [Float64Array] (one value per point and seed, NaN where none; optional),
+ *               background, backgroundRobust: the same for curves drawn faintly behind (optional)}]
+ *   measure:   'training' (points are step bins) or 'evaluation' (points are checkpoints, marked)
  *   xMax:      the step budget (x runs from 0 to xMax)
  *   note:      text shown in the plot when no variant has data (optional)
  *   threshold: a return level drawn as a dotted line (optional)
@@ -114,7 +117,8 @@ export function drawCurves(ctx, data, options) {
   const family = options.font || 'sans-serif';
   const xLabel = options.xLabel ?? 'environment steps';
   const stat = STATS[options.stat] ? options.stat : 'mean';
-  const yLabel = options.yLabel ?? STATS[stat];
+  const measure = MEASURES[data.measure] ? data.measure : 'training';
+  const yLabel = options.yLabel ?? (stat === 'shaped' ? STATS[stat] : `${MEASURES[measure]}: ${STATS[stat]}`);
   const variants = data.variants || [];
   const seedLines = !!options.seedLines;
   // The value of the drawn statistic at bin k of variant v.
@@ -145,6 +149,30 @@ export function drawCurves(ctx, data, options) {
     }
     if (seedLines && v.seeds) for (const s of v.seeds) for (const y of s) widen(y);
   });
+  const backAt = variants.map((v) => {
+    const c = v.background || [];
+    const r = v.backgroundRobust || [];
+    if (stat === 'iqm') return (k) => r[k * ROBUST_STRIDE];
+    if (stat === 'median') return (k) => r[k * ROBUST_STRIDE + 1];
+    return (k) => c[k * CURVE_STRIDE + 1];
+  });
+  variants.forEach((v, i) => {
+    const n = Math.floor((v.background || []).length / CURVE_STRIDE);
+    for (let k = 0; k < n; k++) widen(backAt[i](k));
+  });
+  // How many seeds the points average (field 4): said on the plot when it
+  // varies, or when it is too few for a band.
+  let nMin = Infinity;
+  let nMax = 0;
+  variants.forEach((v, i) => {
+    const c = v.curve || [];
+    const n = Math.floor(c.length / CURVE_STRIDE);
+    for (let k = 0; k < n; k++) {
+      if (!Number.isFinite(lineAt[i](k))) continue;
+      nMin = Math.min(nMin, c[k * CURVE_STRIDE + 4]);
+      nMax = Math.max(nMax, c[k * CURVE_STRIDE + 4]);
+    }
+  });
   const hasData = yMin <= yMax;
   if (hasData && Number.isFinite(data.threshold)) widen(data.threshold);
   if (!hasData) { yMin = -1; yMax = 1; }
@@ -168,6 +196,13 @@ export function drawCurves(ctx, data, options) {
     rows[rows.length - 1].push({ i, w });
     rowWidth += (rowWidth > 0 ? gap : 0) + w;
   });
+  const hasBackground = variants.some((v) => v.background && v.background.length);
+  if (hasBackground) {
+    const w = ctx.measureText('faint: while learning').width;
+    if (rowWidth > 0 && rowWidth + gap + w > legendMax) { rows.push([]); rowWidth = 0; }
+    rows[rows.length - 1].push({ i: -1, w });
+    rowWidth += (rowWidth > 0 ? gap : 0) + w;
+  }
   const legendH = variants.length ? rows.length * 18 + 8 : 0;
   const yLabelsW = Math.max(...yTicks.ticks.map((t) => ctx.measureText(formatValue(t, yTicks.step)).width), 10);
   const plot = { x: 12 + 16 + yLabelsW + 6, y: 10 + legendH, w: 0, h: 0 };
@@ -219,6 +254,24 @@ export function drawCurves(ctx, data, options) {
     });
   }
   variants.forEach((v, i) => {
+    const c = v.background || [];
+    const n = Math.floor(c.length / CURVE_STRIDE);
+    if (!n) return;
+    const y = backAt[i];
+    ctx.strokeStyle = series[i].colour;
+    ctx.globalAlpha = 0.4;
+    ctx.lineWidth = 1.5;
+    ctx.setLineDash(series[i].dash);
+    for (const [a, b] of runsWhere(n, (k) => Number.isFinite(y(k)))) {
+      if (a === b) continue;
+      ctx.beginPath();
+      for (let k = a; k <= b; k++) ctx.lineTo(sx(c[k * CURVE_STRIDE]), sy(y(k)));
+      ctx.stroke();
+    }
+    ctx.setLineDash([]);
+    ctx.globalAlpha = 1;
+  });
+  variants.forEach((v, i) => {
     if (stat !== 'mean' && stat !== 'shaped') return;
     const c = v.curve || [];
     const n = Math.floor(c.length / CURVE_STRIDE);
@@ -256,6 +309,14 @@ export function drawCurves(ctx, data, options) {
       ctx.beginPath();
       for (let k = a; k <= b; k++) ctx.lineTo(sx(at(k, 0)), sy(y(k)));
       ctx.stroke();
+      if (measure === 'evaluation') {
+        // Evaluation points are checkpoints, not bins: mark each one.
+        for (let k = a; k <= b; k++) {
+          ctx.beginPath();
+          ctx.arc(sx(at(k, 0)), sy(y(k)), 2.2, 0, 2 * Math.PI);
+          ctx.fill();
+        }
+      }
     }
     ctx.setLineDash([]);
   });
@@ -274,6 +335,15 @@ export function drawCurves(ctx, data, options) {
     const below = ty - 16 < plot.y;
     ctx.textBaseline = below ? 'top' : 'bottom';
     ctx.fillText(`threshold ${formatValue(data.threshold, yTicks.step / 10)}`, plot.x + plot.w - 4, below ? ty + 3 : ty - 2);
+  }
+  const seedNote = !hasData ? '' : nMax < 3 && (stat === 'mean' || stat === 'shaped')
+    ? `no band: ${nMax === 1 ? 'one seed' : `${nMax} seeds`} per point (a band needs 3 or more)`
+    : nMin !== nMax ? `points average ${nMin} to ${nMax} seeds` : '';
+  if (seedNote) {
+    ctx.fillStyle = colours.muted;
+    ctx.textAlign = 'left';
+    ctx.textBaseline = 'bottom';
+    ctx.fillText(seedNote, plot.x + 6, plot.y + plot.h - 4);
   }
   ctx.restore();
 
@@ -313,6 +383,12 @@ export function drawCurves(ctx, data, options) {
     let x = plot.x;
     const y = 10 + r * 18 + 8;
     for (const { i, w } of row) {
+      if (i < 0) {
+        ctx.fillStyle = colours.muted;
+        ctx.fillText('faint: while learning', x, y);
+        x += w + gap;
+        continue;
+      }
       drawSample(ctx, x, y, sample, series[i]);
       ctx.fillStyle = colours.ink;
       ctx.fillText(variants[i].label, x + sample + 6, y);
@@ -321,7 +397,7 @@ export function drawCurves(ctx, data, options) {
   });
 
   ctx.restore();
-  return { plot, x: [0, xMax], y: [yLo, yHi], series, stat, seedLines };
+  return { plot, x: [0, xMax], y: [yLo, yHi], series, stat, seedLines, measure, seedNote };
 }
 
 /** A legend sample: band patch behind a short line in the variant's style. */
@@ -371,7 +447,7 @@ export function drawLogLines(ctx, data, options) {
   const e1 = Math.max(e0 + 1, Math.ceil(Math.log10(hi)));
   if (xMax <= xMin) { xMin -= 1; xMax += 1; }
   const legendH = 26;
-  const labW = Math.max(...Array.from({ length: e1 - e0 + 1 }, (_, i) => ctx.measureText(`1e${e0 + i}`).width)) + 8;
+  const labW = Math.max(...Array.from({ length: e1 - e0 + 1 }, (_, i) => ctx.measureText(formatNumber(10 ** (e0 + i))).width)) + 8;
   const plot = { x: 30 + labW, y: 8 + legendH, w: 0, h: 0 };
   plot.w = Math.max(10, width - plot.x - 16);
   plot.h = Math.max(10, height - plot.y - 40);
@@ -386,7 +462,7 @@ export function drawLogLines(ctx, data, options) {
   ctx.fillStyle = colours.muted;
   ctx.textAlign = 'right';
   ctx.textBaseline = 'middle';
-  for (let e = e0; e <= e1; e++) ctx.fillText(e === 0 ? '1' : `1e${e}`, plot.x - 6, sy(10 ** e));
+  for (let e = e0; e <= e1; e++) ctx.fillText(formatNumber(10 ** e), plot.x - 6, sy(10 ** e));
   const xs = [...new Set(pts.flat().map(([x]) => x))].sort((a, b) => a - b);
   ctx.textAlign = 'center';
   ctx.textBaseline = 'top';

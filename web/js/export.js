@@ -2,6 +2,8 @@
 // URL and an <a download> element (no network), opened files are read with
 // File.text(). Nothing here looks inside the data.
 
+import { formatNumber } from './numbers.js';
+
 /** Offer `data` (string or Blob) as a download named `name`. */
 export function download(name, data, type = 'application/octet-stream') {
   const blob = data instanceof Blob ? data : new Blob([data], { type });
@@ -37,7 +39,7 @@ export const MAX_OPEN_BYTES = 64 * 1024 * 1024;
 /** Read a user-chosen file as text, refusing very large ones with a clear message. */
 export async function readFileText(file) {
   if (file.size > MAX_OPEN_BYTES) {
-    throw new Error(`${file.name} is ${(file.size / 1048576).toFixed(1)} MB; the page opens results files up to ${MAX_OPEN_BYTES / 1048576} MB`);
+    throw new Error(`${file.name} is ${formatNumber(file.size / 1048576, { digits: 2 })} MB; the page opens results files up to ${MAX_OPEN_BYTES / 1048576} MB`);
   }
   return file.text();
 }

@@ -1,13 +1,14 @@
 // The experiment sheet's behaviour: every edit goes into the config at the
-// control's path (controls.applyInput), structural edits redraw the sheet,
-// formulas are checked live by the core as they are typed, and the preset
-// list starts an experiment in one click. main.js owns the state and gets
-// told through hooks.onEdit() after every change to the config.
+// control's path (configedit.applyInput), structural edits redraw the sheet
+// (controls.renderSheet), formulas are checked live by the core as they are
+// typed, and the preset list starts an experiment in one click. The
+// experiment module (experiment.js) owns the config and is told through
+// hooks.onEdit() after every change to it.
 
+import { renderSheet, showFormulaCheck } from './controls.js';
 import {
-  renderSheet, applyInput, setRewardMode, showFormulaCheck, addOverride, dropOverride, switchTask,
-  newVariant, duplicateVariant, getAt, idOf,
-} from './controls.js';
+  applyInput, setRewardMode, addOverride, dropOverride, switchTask, newVariant, duplicateVariant, getAt, idOf,
+} from './configedit.js';
 import { messageOf } from './wasm.js';
 
 /**

@@ -1,6 +1,6 @@
-// Inspection of a trained policy: the probe (a worker that re-trains one job
-// to a chosen step and answers questions about its learner, see worker.js)
-// and the value views drawn from its answers:
+// The value views of a trained policy, drawn from the probe's answers
+// (probe.js), with the diverging ramp of palette.js (hue for the sign,
+// lightness for the size):
 //   grid tasks      a map of the floor coloured by value, with the policy's
 //                   action probabilities as arrows and the shaping audit's
 //                   marks on cells where the shaped reward changes the best action;
@@ -9,135 +9,8 @@
 //                   chosen value), coloured by the value or by the action.
 // Draw functions take (ctx, data, options) and keep no state.
 
-import { makeWorker, wasmForWorker } from './platform.js';
-import { compiledModule } from './wasm.js';
-
-// ---------------------------------------------------------------- the probe
-
-/** Main-thread side of the inspection worker. One probe at a time. */
-export class Probe {
-  constructor() {
-    this.worker = null;
-    this.runId = 0;
-    this.pending = new Map();
-    this.nextQid = 1;
-    this.training = null;
-    this.onProgress = null;
-  }
-
-  #ensure() {
-    if (this.worker) return;
-    this.worker = makeWorker('critbox-inspector');
-    this.worker.onmessage = (e) => this.#receive(e.data || {});
-    this.worker.onerror = (e) => {
-      e.preventDefault();
-      this.#failAll(`the inspection worker stopped: ${e.message || 'it could not run'}`);
-      this.worker.terminate();
-      this.worker = null;
-    };
-  }
-
-  #failAll(message) {
-    if (this.training) { this.training.reject(new Error(message)); this.training = null; }
-    for (const p of this.pending.values()) p.reject(new Error(message));
-    this.pending.clear();
-  }
-
-  #receive(msg) {
-    if (msg.runId !== this.runId) return;
-    if (msg.type === 'probe-progress') { this.onProgress?.(msg.done, msg.steps); return; }
-    if (msg.type === 'probe-ready') { this.training?.resolve(msg); this.training = null; return; }
-    if (msg.type === 'probe-answer') {
-      const p = this.pending.get(msg.qid);
-      this.pending.delete(msg.qid);
-      p?.resolve(msg.data);
-      return;
-    }
-    if (msg.type === 'probe-error') {
-      if (msg.qid && this.pending.has(msg.qid)) {
-        const p = this.pending.get(msg.qid);
-        this.pending.delete(msg.qid);
-        p.reject(new Error(msg.message));
-      } else if (this.training) {
-        this.training.reject(new Error(msg.message));
-        this.training = null;
-      }
-    }
-  }
-
-  /** Re-train job `jobId` of a config to `steps` steps. Resolves with the probe-ready message. */
-  train(configJson, jobId, steps) {
-    this.#ensure();
-    this.runId += 1;
-    this.#failAll('replaced by a newer request');
-    const wasm = wasmForWorker();
-    return new Promise((resolve, reject) => {
-      this.training = { resolve, reject };
-      this.worker.postMessage({ type: 'probe-train', runId: this.runId, config: configJson, jobId, steps, chunk: 5000, wasm, module: compiledModule() }, wasm ? [wasm] : []);
-    });
-  }
-
-  /** Ask about the trained learner: kind 'inspect' {obs} or 'rollout' {maxSteps, seed, greedy}. */
-  query(kind, args) {
-    if (!this.worker) return Promise.reject(new Error('nothing is being inspected (train a seed first)'));
-    const qid = this.nextQid++;
-    return new Promise((resolve, reject) => {
-      this.pending.set(qid, { resolve, reject });
-      const transfer = args.obs ? [args.obs.buffer] : [];
-      this.worker.postMessage({ type: 'probe-query', runId: this.runId, qid, kind, ...args }, transfer);
-    });
-  }
-
-  /**
-   * The gradient-variance probe of job (variant, seed) at the given steps:
-   * resolves with its parsed JSON (see DEVELOPERS.md, WebAssembly API, probe).
-   */
-  async variance(configJson, variant, seed, checkpoints, estimates, episodes) {
-    this.#ensure();
-    const qid = this.nextQid++;
-    const wasm = wasmForWorker();
-    const text = await new Promise((resolve, reject) => {
-      this.pending.set(qid, { resolve, reject });
-      this.worker.postMessage({
-        type: 'probe-variance', runId: this.runId, qid, config: configJson, variant, seed,
-        checkpoints: Float64Array.from(checkpoints), estimates, episodes, wasm, module: compiledModule(),
-      }, wasm ? [wasm] : []);
-    });
-    return JSON.parse(text);
-  }
-
-  stop() {
-    this.#failAll('stopped');
-    if (this.worker) this.worker.terminate();
-    this.worker = null;
-  }
-}
-
-// ---------------------------------------------------------------- colours
-
-/** Our sequential ramp, dark to light (low to high values); it keeps its
- * order in lightness, so it also reads in grey and for colour-blind readers. */
-export const RAMP = ['#25164f', '#2d4a8a', '#1f7f8c', '#3fae75', '#a7cf4a', '#f3e45c'];
-
-function hexRgb(h) {
-  return [1, 3, 5].map((i) => parseInt(h.slice(i, i + 2), 16));
-}
-
-/** A colour for t in [0, 1] along the ramp. */
-export function rampColour(t) {
-  const x = Math.max(0, Math.min(1, Number.isFinite(t) ? t : 0)) * (RAMP.length - 1);
-  const i = Math.min(RAMP.length - 2, Math.floor(x));
-  const f = x - i;
-  const a = hexRgb(RAMP[i]);
-  const b = hexRgb(RAMP[i + 1]);
-  const c = a.map((v, k) => Math.round(v + (b[k] - v) * f));
-  return `rgb(${c[0]},${c[1]},${c[2]})`;
-}
-
-/** Ink that reads on a ramp colour. */
-function inkOn(t) {
-  return t > 0.55 ? '#1b1b1b' : '#ffffff';
-}
+import { SERIES_LIGHT, AUDIT_MARK, rampColour, rampPosition, inkOnRamp } from './palette.js';
+import { formatNumber } from './numbers.js';
 
 function range(values) {
   let lo = Infinity;
@@ -148,20 +21,23 @@ function range(values) {
   return [lo, hi];
 }
 
-function fmtNum(v) {
-  if (!Number.isFinite(v)) return '–';
-  const a = Math.abs(v);
-  return (a >= 100 ? v.toFixed(0) : a >= 10 ? v.toFixed(1) : v.toFixed(2)).replace('-', '−');
-}
+const fmtNum = (v) => formatNumber(v);
 
-/** A horizontal colour scale with its end values. */
+/** A horizontal colour scale with its end values (and a tick at zero when the range holds it). */
 function drawScale(ctx, x, y, w, h, lo, hi, label, colours) {
   for (let i = 0; i < w; i++) {
-    ctx.fillStyle = rampColour(i / Math.max(1, w - 1));
+    ctx.fillStyle = rampColour(lo + ((hi - lo) * i) / Math.max(1, w - 1), lo, hi);
     ctx.fillRect(x + i, y, 1, h);
   }
   ctx.strokeStyle = colours.muted;
   ctx.strokeRect(x + 0.5, y + 0.5, w - 1, h - 1);
+  if (lo < 0 && hi > 0) {
+    const zx = Math.round(x + (-lo / (hi - lo)) * (w - 1)) + 0.5;
+    ctx.beginPath();
+    ctx.moveTo(zx, y - 3);
+    ctx.lineTo(zx, y + h + 3);
+    ctx.stroke();
+  }
   ctx.fillStyle = colours.ink;
   ctx.textBaseline = 'middle';
   ctx.textAlign = 'right';
@@ -229,10 +105,9 @@ export function drawGridMap(ctx, data, options) {
         }
         continue;
       }
-      const t = (info.value - lo) / (hi - lo);
-      ctx.fillStyle = Number.isFinite(info.value) ? rampColour(t) : colours.grid;
+      ctx.fillStyle = Number.isFinite(info.value) ? rampColour(info.value, lo, hi) : colours.grid;
       ctx.fillRect(x, y, cell, cell);
-      const ink = inkOn(t);
+      const ink = inkOnRamp(rampPosition(info.value, lo, hi));
       if (ch === '~') { // a spill: hatch it
         ctx.strokeStyle = ink;
         ctx.globalAlpha = 0.5;
@@ -281,13 +156,13 @@ export function drawGridMap(ctx, data, options) {
         ctx.strokeStyle = colours.background;
         ctx.lineWidth = 4;
         ctx.strokeRect(x + 2, y + 2, cell - 4, cell - 4);
-        ctx.strokeStyle = '#d7263d';
+        ctx.strokeStyle = AUDIT_MARK;
         ctx.lineWidth = 2;
         ctx.setLineDash([4, 3]);
         ctx.strokeRect(x + 2, y + 2, cell - 4, cell - 4);
         ctx.setLineDash([]);
         ctx.lineWidth = 1;
-        ctx.fillStyle = '#d7263d';
+        ctx.fillStyle = AUDIT_MARK;
         ctx.textAlign = 'right';
         ctx.textBaseline = 'top';
         ctx.fillText('!', x + cell - 4, y + 2);
@@ -312,7 +187,7 @@ export function drawGridMap(ctx, data, options) {
 export function drawStateList(ctx, data, options) {
   const { width, height, dpr = 1 } = options;
   const colours = { background: '#fff', ink: '#222', muted: '#666', grid: '#ddd', ...options.colours };
-  const palette = options.palette && options.palette.length ? options.palette : ['#2f5fb3', '#cf6d12', '#16866a', '#ad3c84', '#806600', '#555a60'];
+  const palette = options.palette && options.palette.length ? options.palette : SERIES_LIGHT;
   const font = options.font || 'sans-serif';
   ctx.save();
   ctx.setTransform(dpr, 0, 0, dpr, 0, 0);
@@ -352,7 +227,7 @@ export function drawStateList(ctx, data, options) {
     if (Number.isFinite(s.value)) {
       const a = vx(Math.min(0, s.value));
       const b = vx(Math.max(0, s.value));
-      ctx.fillStyle = rampColour((s.value - lo) / (hi - lo));
+      ctx.fillStyle = rampColour(s.value, lo, hi);
       ctx.fillRect(a, y + 2, Math.max(1, b - a), rowH - 4);
       if (rowH >= 12) {
         ctx.fillStyle = colours.ink;
@@ -403,7 +278,7 @@ export function drawSlice(ctx, data, options) {
   for (let j = 0; j < data.ny; j++) {
     for (let i = 0; i < data.nx; i++) {
       const v = data.z[j * data.nx + i];
-      ctx.fillStyle = Number.isFinite(v) ? rampColour((v - lo) / (hi - lo)) : colours.grid;
+      ctx.fillStyle = Number.isFinite(v) ? rampColour(v, lo, hi) : colours.grid;
       ctx.fillRect(plot.x + i * cw, plot.y + plot.h - (j + 1) * ch, Math.ceil(cw), Math.ceil(ch));
     }
   }

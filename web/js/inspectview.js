@@ -1,12 +1,15 @@
 // The "Inspect a trained policy" panel: pick a variant, a seed and a step;
-// the probe re-trains that job in its own worker and the panel shows its
-// values and policy (inspect.js) and plays episodes of it (rollout.js).
+// the probe (probe.js) re-trains that job in its own worker and the panel
+// shows its values and policy (inspect.js) and plays episodes of it
+// (rollout.js).
 
-import { Probe, drawGridMap, drawStateList, drawSlice, sliceObservations } from './inspect.js';
+import { Probe } from './probe.js';
+import { drawGridMap, drawStateList, drawSlice, sliceObservations } from './inspect.js';
 import { drawFrame, frameCount, frameAt } from './rollout.js';
 import { sizeCanvas } from './chart.js';
 import { canvasPng, download, fileStem } from './export.js';
 import { messageOf } from './wasm.js';
+import { formatNumber, formatCount } from './numbers.js';
 
 /**
  * @param {object} app {state, showError, colours(), palette(), font()}
@@ -65,7 +68,7 @@ export function createInspectView(app) {
     }
     stopAnim();
     ui.go.disabled = true;
-    ui.status.textContent = `Training ${run.labels[variant]}, seed ${seed} to step ${steps.toLocaleString('en')}…`;
+    ui.status.textContent = `Training ${run.labels[variant]}, seed ${seed} to step ${formatCount(steps)}…`;
     probe.onProgress = (done, total) => {
       ui.status.textContent = `Training ${run.labels[variant]}, seed ${seed}: ${Math.floor((100 * done) / Math.max(1, total))}%`;
     };
@@ -83,8 +86,8 @@ export function createInspectView(app) {
     ui.go.disabled = false;
     cur = { configJson: run.configJson, info, variant, seed, steps, ready, critic: null, slice: null, scene: null, audit: null, label: run.labels[variant] };
     ui.status.textContent = ready.status === 2
-      ? `This seed failed before step ${steps.toLocaleString('en')}: ${ready.failure}`
-      : `${run.labels[variant]}, seed ${seed}, after ${ready.done.toLocaleString('en')} steps.`;
+      ? `This seed failed before step ${formatCount(steps)}: ${ready.failure}`
+      : `${run.labels[variant]}, seed ${seed}, after ${formatCount(ready.done)} steps.`;
     ui.views.hidden = ready.status === 2;
     if (ready.status === 2) return;
     setUpValueTools();
@@ -203,7 +206,7 @@ export function createInspectView(app) {
         if (cur.audit) {
           const diff = cur.audit.differing_states || [];
           note = (note ? `${note} ` : '') + (diff.length
-            ? `Shaping audit: in ${diff.length} cell${diff.length === 1 ? '' : 's'} (dashed) the best action under this variant's reward differs from the task's own; following it costs ${Number(cur.audit.base_value_loss).toFixed(2)} of task return from the start.`
+            ? `Shaping audit: in ${diff.length} cell${diff.length === 1 ? '' : 's'} (dashed) the best action under this variant's reward differs from the task's own; following it costs ${formatNumber(Number(cur.audit.base_value_loss))} of task return from the start.`
             : `Shaping audit: this variant's reward leaves the best actions unchanged${cur.audit.potential_based ? ' (potential-based)' : ''}.`);
           ui.auditList.replaceChildren(...diff.map((d) => {
             const li = document.createElement('li');
@@ -365,7 +368,4 @@ export function createInspectView(app) {
   };
 }
 
-function fmt(v) {
-  if (!Number.isFinite(v)) return '–';
-  return Number.isInteger(v) ? String(v) : v.toFixed(2);
-}
+const fmt = (v) => formatNumber(v);

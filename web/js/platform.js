@@ -1,23 +1,27 @@
 // Where the page's files come from. Served (scripts/serve): ES modules next
 // to this one, the wasm package in ../pkg, presets in ../presets, workers as
-// module workers. Single file (dist/critbox.html, scripts/build-single): the
-// build defines globalThis.__CRITBOX_BUNDLE__ with the wasm bytes, the
-// presets and the worker source, and nothing is fetched. Only this module
-// and wasm.js look at the difference.
+// module workers (trainworker.js, resultsworker.js, probeworker.js). Single
+// file (dist/critbox.html, scripts/build-single): the build defines
+// globalThis.__CRITBOX_BUNDLE__ with the wasm bytes, the presets and each
+// worker's source, and nothing is fetched. Only this module and wasm.js look
+// at the difference.
 
 /** The single-file bundle's description, or null when served. */
 export const bundle = globalThis.__CRITBOX_BUNDLE__ || null;
 
-const WORKER_URL = bundle ? null : new URL('./worker.js', import.meta.url);
-let workerBlobUrl = null;
+/** The page's worker scripts (module names in this folder). */
+export const WORKER_SCRIPTS = ['trainworker', 'resultsworker', 'probeworker'];
 
-/** A new training worker. Throws when the browser refuses one. */
-export function makeWorker(name) {
-  if (!bundle) return new Worker(WORKER_URL, { type: 'module', name });
-  if (!workerBlobUrl) {
-    workerBlobUrl = URL.createObjectURL(new Blob([bundle.workerSource()], { type: 'text/javascript' }));
+const blobUrls = new Map();
+
+/** A new worker running `script` (one of WORKER_SCRIPTS). Throws when the browser refuses one. */
+export function makeWorker(script, name) {
+  if (!WORKER_SCRIPTS.includes(script)) throw new Error(`no worker script called ${JSON.stringify(script)}`);
+  if (!bundle) return new Worker(new URL(`./${script}.js`, import.meta.url), { type: 'module', name });
+  if (!blobUrls.has(script)) {
+    blobUrls.set(script, URL.createObjectURL(new Blob([bundle.workerSource(script)], { type: 'text/javascript' })));
   }
-  return new Worker(workerBlobUrl, { name });
+  return new Worker(blobUrls.get(script), { name });
 }
 
 /** What a worker's start message must carry so the worker can load the

@@ -1,58 +1,41 @@
-// Worker pool: spreads the jobs of one run over module workers and relays
-// what they report. One Pool serves one run; make a new Pool per run.
+// The trainer pool: spreads the jobs of one run over training workers
+// (trainworker.js) and tells its owner when they pause, finish or fail. One
+// Pool serves one run; make a new Pool per run.
 //
 // Workers: min(navigator.hardwareConcurrency || 2, jobs). The job ids of a
-// run (all of them, or the unfinished ones when a run is resumed) are put in
-// seed-major order (seed 0 of every variant, then seed 1, ...) and dealt
-// round-robin over the workers; each worker trains its list in batches of
-// ceil(variants / workers) jobs, so every variant's curve grows from the start
-// and jobs finish batch by batch. Job ids follow the contract:
+// run (all of them, or the unfinished ones when a run is finished later) are
+// put in seed-major order (seed 0 of every variant, then seed 1, ...) and
+// dealt round-robin over the workers; each worker trains its list in batches
+// of ceil(variants / workers) jobs, so every variant's curve grows from the
+// start and jobs finish batch by batch. Job ids follow the contract
 // job = variant_index * seeds + seed_index.
 //
-// Message protocol (every message is a plain object with a `type` and the
-// `runId` it belongs to; a message whose runId is not the pool's is ignored):
-//
-//   page → worker
-//     {type:'start',  runId, config: string /* config JSON */, jobIds: number[], chunk: number /* steps per job per chunk */,
-//        batch: number /* jobs trained at once */,
-//        wasm: ArrayBuffer | null /* the module's bytes in the single-file build (see platform.js) */,
-//        module: WebAssembly.Module | null /* served: the module the page compiled (see wasm.js) */}
-//     {type:'pause',  runId}   stop after the chunk in progress
-//     {type:'resume', runId}   go on from where it paused
-//     {type:'cancel', runId}   stop and free the Run; answered by 'cancelled'
-//
-//   worker → page
-//     {type:'progress', runId,
-//        progress: Float64Array /* stride 3: jobId, stepsDone, status 0 running|1 done|2 failed */,
-//        episodes: Float64Array /* stride 5: jobId, endStep, baseReturn, shapedReturn, length; new since the last message */,
-//        failures: [{job, reason}] /* jobs that failed since the last message */}
-//       sent after every chunk; both arrays' buffers are transferred.
-//     {type:'paused', runId}     the worker is idle until 'resume' or 'cancel'
-//     {type:'done', runId}       every job of this worker is finished (done or failed)
-//     {type:'cancelled', runId}  the Run is freed
-//     {type:'error', runId, message}  the wasm module failed to load or threw;
-//       the worker has freed its Run and its unfinished jobs count as failed.
-//   A worker that dies without a message (uncaught error, bad message data) is
-//   reported through the same onError path by the pool itself.
+// Each trainer gets a MessageChannel of its own for its chunks: one end goes
+// to the trainer, the other to the results (opts.results, a ResultsClient),
+// so records never pass through this thread. Without opts.results (the
+// benchmark page) the pool listens on the other end itself and hands every
+// chunk to handlers.onProgress. Messages are listed in protocol.js (TRAIN).
 
-import { makeWorker, wasmForWorker } from './platform.js';
-import { compiledModule } from './wasm.js';
-
-let nextRunId = 1;
+import { WorkerClient, POST_FAILED } from './rpc.js';
+import { TRAIN } from './protocol.js';
 
 export class Pool {
   /**
    * @param {object} handlers
-   *   onProgress({progress, episodes, failures}), onError(message, jobIds),
-   *   onPaused(), onDone()  — onDone fires once, when every worker is done or dead.
-   * @param {object} [opts] {concurrency}
+   *   onError(message, jobIds)  a trainer failed or died; jobIds are the jobs it leaves unfinished
+   *   onPaused()                every trainer is idle (or finished) after pause()
+   *   onDone()                  once, when every trainer is finished or dead
+   *   onProgress(chunk)         only without opts.results: each trainer chunk
+   * @param {object} [opts] {concurrency, results}
    */
   constructor(handlers, opts = {}) {
     this.handlers = handlers;
     this.concurrency = opts.concurrency || navigator.hardwareConcurrency || 2;
-    this.runId = nextRunId++;
-    this.slots = [];      // {worker, jobIds, state: 'running'|'paused'|'done'}
+    this.results = opts.results || null;
+    this.slots = []; // {id, link, jobIds, state: 'running'|'paused'|'done', sent}
     this.closed = false;
+    this.epoch = 0; // counts pauses and resumes, so a late acknowledgement of an old pause is ignored
+    this.pausing = false;
   }
 
   /** Number of workers a run of `jobs` jobs gets. */
@@ -74,102 +57,107 @@ export class Pool {
 
   /**
    * Start the run: config JSON text, the job ids to run, steps per job per
-   * chunk, and the plan's shape {variants, seeds}.
+   * chunk, and the plan's shape {variants, seeds}. Resolves once every
+   * trainer has its work (and the results listen to its port).
    */
-  start(configJson, jobIds, chunk = 2000, shape = { variants: 1, seeds: 1 }) {
+  async start(configJson, jobIds, chunk = 2000, shape = { variants: 1, seeds: 1 }) {
     const ids = Pool.seedMajor(jobIds, Math.max(1, shape.seeds));
     const n = Pool.workerCount(ids.length, this.concurrency);
     const batch = Math.max(1, Math.ceil(shape.variants / n));
-    for (const jobIds of Pool.deal(ids, n)) {
-      let worker;
+    for (const list of Pool.deal(ids, n)) {
+      const slot = { id: this.slots.length, link: null, jobIds: list, state: 'running', sent: 0 };
+      this.slots.push(slot);
       try {
-        worker = makeWorker(`critbox-trainer-${this.slots.length}`);
+        slot.link = new WorkerClient('trainworker', `critbox-trainer-${slot.id}`);
       } catch (err) {
-        const slot = { worker: null, jobIds, state: 'done' };
-        this.slots.push(slot);
-        this.handlers.onError(`could not start a worker: ${err.message || err}`, jobIds);
+        this.#fail(slot, `could not start a worker: ${err.message || err}`);
         continue;
       }
-      const slot = { worker, jobIds, state: 'running' };
-      this.slots.push(slot);
-      worker.onmessage = (e) => this.#receive(slot, e.data);
-      worker.onerror = (e) => {
-        e.preventDefault();
-        const where = e.filename ? ` (${e.filename.split('/').pop()}:${e.lineno})` : '';
-        this.#fail(slot, `worker error: ${e.message || 'the worker script could not run'}${where}`);
-      };
-      worker.onmessageerror = () => this.#fail(slot, 'worker sent a message that could not be read');
-      const wasm = wasmForWorker();
-      const module = compiledModule();
-      worker.postMessage({ type: 'start', runId: this.runId, config: configJson, jobIds, chunk, batch, wasm, module },
-        wasm ? [wasm] : []);
+      slot.link.on(TRAIN.paused, ({ sent, epoch }) => this.#paused(slot, sent, epoch));
+      slot.link.on(TRAIN.done, ({ sent }) => { slot.sent = sent; this.#retire(slot); });
+      slot.link.on(TRAIN.failed, ({ message, jobIds: left, sent }) => { slot.sent = sent; this.#fail(slot, message, left); });
+      slot.link.on(POST_FAILED, ({ message }) => this.#fail(slot, message));
+      slot.link.onDeath = (message) => this.#fail(slot, message);
+      const channel = new MessageChannel();
+      if (this.results) {
+        await this.results.attach(slot.id, channel.port2);
+      } else {
+        channel.port2.onmessage = (e) => { if (!this.closed) this.handlers.onProgress?.(e.data); };
+      }
+      if (this.closed) return; // cancelled while the ports were handed over
+      if (slot.state === 'done') continue; // died meanwhile
+      // A pause asked before this trainer started holds it from its first chunk.
+      const pause = this.pausing ? this.epoch : 0;
+      slot.link.post(TRAIN.start, { config: configJson, jobIds: list, chunk, batch, pause, port: channel.port1 }, [channel.port1]);
     }
     this.#checkDone();
   }
 
-  pause() { this.#broadcast('pause'); }
-  resume() {
+  /** Ask every trainer to stop after its chunk; onPaused fires once all have. */
+  pause() {
+    this.epoch += 1;
+    this.pausing = true;
     for (const s of this.slots) if (s.state === 'paused') s.state = 'running';
-    this.#broadcast('resume');
+    this.#broadcast(TRAIN.pause, { epoch: this.epoch });
   }
 
-  /** Stop every worker; no handler is called after this. */
-  cancel() {
-    this.#broadcast('cancel');
+  resume() {
+    this.epoch += 1;
+    this.pausing = false;
+    for (const s of this.slots) if (s.state === 'paused') s.state = 'running';
+    this.#broadcast(TRAIN.resume);
+  }
+
+  /** [[trainer id, chunks sent]] as the trainers last said: what the results must have seen. */
+  sent() {
+    return this.slots.map((s) => [s.id, s.sent]);
+  }
+
+  /**
+   * Stop every trainer; no handler is called after this. Resolves once each
+   * has freed its Run and said how many chunks it sent (see sent()), or has
+   * been stopped by force after `ms` (its port is then detached from the
+   * results, so nothing late arrives).
+   */
+  async cancel(ms = 2000) {
     this.closed = true;
-    // The worker frees its Run on 'cancel'; terminate it shortly after in any
-    // case, so a worker stuck in a long chunk cannot hold a core.
-    for (const s of this.slots) {
-      const w = s.worker;
-      if (!w) continue;
-      const timer = setTimeout(() => w.terminate(), 2000);
-      w.onmessage = (e) => {
-        if (e.data && e.data.type === 'cancelled') { clearTimeout(timer); w.terminate(); }
-      };
-      w.onerror = null;
+    await Promise.all(this.slots.map(async (s) => {
+      if (!s.link || s.link.dead) return;
+      let timer = 0;
+      const late = new Promise((resolve) => { timer = setTimeout(() => resolve(null), ms); });
+      const answer = await Promise.race([s.link.request(TRAIN.cancel).catch(() => null), late]);
+      clearTimeout(timer);
+      if (answer) s.sent = answer.sent;
+      else if (this.results) await this.results.detach(s.id).catch(() => {});
+      s.link.close('cancelled');
       s.state = 'done';
-    }
+    }));
   }
 
-  #broadcast(type) {
+  #broadcast(type, body = {}) {
     if (this.closed) return;
-    for (const s of this.slots) {
-      if (s.worker && s.state !== 'done') s.worker.postMessage({ type, runId: this.runId });
-    }
+    for (const s of this.slots) if (s.link && s.state !== 'done') s.link.post(type, body);
   }
 
-  #receive(slot, msg) {
-    if (this.closed || !msg || msg.runId !== this.runId) return;
-    switch (msg.type) {
-      case 'progress':
-        this.handlers.onProgress({ progress: msg.progress, episodes: msg.episodes, failures: msg.failures || [] });
-        break;
-      case 'paused':
-        slot.state = 'paused';
-        if (this.slots.every((s) => s.state !== 'running')) this.handlers.onPaused?.();
-        break;
-      case 'done':
-        this.#retire(slot);
-        break;
-      case 'error':
-        this.#fail(slot, msg.message);
-        break;
-      case 'cancelled':
-        break;
-      default:
-        this.#fail(slot, `unknown message from worker: ${JSON.stringify(msg.type)}`);
-    }
+  #paused(slot, sent, epoch) {
+    if (this.closed || slot.state === 'done' || !this.pausing || epoch !== this.epoch) return;
+    slot.sent = sent;
+    slot.state = 'paused';
+    if (this.slots.every((s) => s.state !== 'running')) this.handlers.onPaused?.();
   }
 
-  #fail(slot, message) {
+  #fail(slot, message, jobIds = slot.jobIds) {
     if (this.closed || slot.state === 'done') return;
-    this.handlers.onError(message, slot.jobIds);
+    // A worker that died cannot say what it sent: stop listening to it.
+    if (slot.link?.dead && this.results) this.results.detach(slot.id).catch(() => {});
+    this.handlers.onError(message, jobIds);
     this.#retire(slot);
   }
 
   #retire(slot) {
+    if (slot.state === 'done') return;
     slot.state = 'done';
-    if (slot.worker) slot.worker.terminate();
+    slot.link?.close('finished');
     this.#checkDone();
   }
 
@@ -178,6 +166,8 @@ export class Pool {
     if (this.slots.every((s) => s.state === 'done')) {
       this.closed = true;
       this.handlers.onDone();
+    } else if (this.pausing && this.slots.every((s) => s.state !== 'running')) {
+      this.handlers.onPaused?.(); // the last running trainer finished during a pause
     }
   }
 }

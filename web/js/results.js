@@ -1,90 +1,54 @@
-// The page's side of the results worker (protocol in worker.js): the
-// experiment's Results handle lives in a worker, so curves, bootstrap bands
-// and summaries are computed off the main thread. Episode records are
-// forwarded as the training workers send them; answers come back as
-// promises, in order.
+// The page's side of the results worker (resultsworker.js): one client per
+// run or opened file. It opens results, hands the worker the trainers' ports,
+// asks for curves, summaries and exports, and has the worker keep the
+// results in IndexedDB or read them back. Answers come as promises, in the
+// order asked; the worker's progress events (the job table) go to
+// onProgress. Messages are listed in protocol.js (RESULTS).
 
-import { makeWorker, wasmForWorker } from './platform.js';
-import { compiledModule } from './wasm.js';
+import { WorkerClient } from './rpc.js';
+import { RESULTS } from './protocol.js';
 
 export class ResultsClient {
   constructor() {
-    this.worker = makeWorker('critbox-results');
-    this.pending = new Map();
-    this.nextQid = 1;
-    this.dead = null;
-    this.sentWasm = false;
-    this.worker.onmessage = (e) => this.#receive(e.data || {});
-    this.worker.onerror = (e) => {
-      e.preventDefault();
-      this.#die(`the results worker stopped: ${e.message || 'it could not run'}`);
-    };
+    this.link = new WorkerClient('resultsworker', 'critbox-results');
+    /** Called with {table: Float64Array, error?} when the job table changes. */
+    this.onProgress = null;
+    this.link.on(RESULTS.progress, (body) => this.onProgress?.(body));
   }
 
-  #die(message) {
-    this.dead = message;
-    for (const p of this.pending.values()) p.reject(new Error(message));
-    this.pending.clear();
-    this.worker.terminate();
-  }
+  /** Set a handler for the worker dying unasked. */
+  set onDeath(fn) { this.link.onDeath = fn; }
 
-  #receive(msg) {
-    const p = this.pending.get(msg.qid);
-    if (!p) return;
-    this.pending.delete(msg.qid);
-    if (msg.type === 'res-error') p.reject(new Error(msg.message));
-    else p.resolve(msg);
-  }
+  /** Empty results for a config (JSON text); resolves {jobs}. */
+  open(configJson) { return this.link.request(RESULTS.open, { config: configJson }); }
 
-  #send(msg, transfer = []) {
-    if (this.dead) throw new Error(this.dead);
-    if (!this.sentWasm) {
-      this.sentWasm = true;
-      const wasm = wasmForWorker();
-      if (wasm) { msg.wasm = wasm; transfer = [...transfer, wasm]; }
-      const module = compiledModule();
-      if (module) msg.module = module;
-    }
-    this.worker.postMessage(msg, transfer);
-  }
+  /** Results from a results file's text; resolves {configJson, table}. */
+  openFile(text) { return this.link.request(RESULTS.openFile, { text }); }
 
-  #ask(msg, transfer = []) {
-    if (this.dead) return Promise.reject(new Error(this.dead));
-    const qid = this.nextQid++;
-    return new Promise((resolve, reject) => {
-      this.pending.set(qid, { resolve, reject });
-      this.#send({ ...msg, qid }, transfer);
-    });
-  }
+  /** The results kept from the last visit, or null; resolves {meta, configJson, table}. */
+  restoreKept() { return this.link.request(RESULTS.restoreKept); }
 
-  /** Empty results for a config (JSON text). */
-  open(configJson) { return this.#ask({ type: 'res-open', config: configJson }); }
+  /** Take trainer `id`'s chunks from `port` (transferred). */
+  attach(id, port) { return this.link.request(RESULTS.attach, { id, port }, [port]); }
 
-  /** Results from a results file's text; resolves {configJson, jobs}. */
-  openSaved(text) { return this.#ask({ type: 'res-open-saved', text }); }
+  /** Resolves with the job table once every listed trainer's chunks up to its count have been applied. */
+  settle(sent) { return this.link.request(RESULTS.settle, { sent }); }
 
-  /** Results from what storage kept (see pack); resolves {jobs}. */
-  restore(configJson, data) { return this.#ask({ type: 'res-restore', config: configJson, data }); }
+  /** Stop listening to trainer `id` (it died or was cancelled). */
+  detach(id) { return this.link.request(RESULTS.detach, { id }); }
 
-  /** A training worker's progress message, forwarded (its arrays are transferred). */
-  add(progress, episodes, failures) {
-    this.#send({ type: 'res-add', progress, episodes, failures }, [progress.buffer, episodes.buffer]);
-  }
+  /** Mark the unfinished ones among `jobs` as failed. */
+  fail(jobs, reason) { return this.link.request(RESULTS.fail, { jobs, reason }); }
 
-  /** A job that failed outside the learner (a worker that died). */
-  fail(job, reason) { this.#send({ type: 'res-fail', job, reason }); }
+  /** Curves of every variant: {measure, curves, robust, seeds, background, backgroundRobust} (see protocol.js). */
+  curves(stat, seeds, measure) { return this.link.request(RESULTS.curves, { stat, seeds, measure }); }
 
-  /** Curves of every variant: {curves, robust, seeds} (see worker.js). */
-  curves(stat, seeds) { return this.#ask({ type: 'res-curves', stat, seeds }); }
+  async summary() { return JSON.parse(await this.link.request(RESULTS.summary)); }
+  saveJson() { return this.link.request(RESULTS.save); }
+  tidyCsv() { return this.link.request(RESULTS.csv); }
 
-  async summary() { return JSON.parse((await this.#ask({ type: 'res-summary' })).text); }
-  async saveJson() { return (await this.#ask({ type: 'res-save' })).text; }
-  async tidyCsv() { return (await this.#ask({ type: 'res-csv' })).text; }
+  /** Keep the results in IndexedDB: {status, final, origin, fileName} → {jobs, bytes, ms}. */
+  keep(what) { return this.link.request(RESULTS.keep, what); }
 
-  /** The results packed for local storage: every job when final, else the finished ones. */
-  async pack(final) { return (await this.#ask({ type: 'res-pack', final })).text; }
-
-  close() {
-    if (!this.dead) this.#die('closed');
-  }
+  close() { this.link.close(); }
 }

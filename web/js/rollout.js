@@ -10,6 +10,9 @@
 // on, 1 the step ended the episode, 2/3 the final frame after a terminal
 // state / the step limit).
 
+import { formatNumber } from './numbers.js';
+import { SPILL } from './palette.js';
+
 /** Number of frames in a scene. */
 export function frameCount(scene) {
   return Math.floor(scene.frames.length / scene.stride);
@@ -37,8 +40,9 @@ export function returnBefore(scene, t) {
   return g;
 }
 
+/** A read-out number with `d` decimals. */
 function fmt(v, d = 2) {
-  return Number.isFinite(v) ? v.toFixed(d).replace('-', '−') : '–';
+  return formatNumber(v, { decimals: d });
 }
 
 function actionText(scene, fr) {
@@ -102,7 +106,7 @@ function paintGrid(ctx, scene, t, fr, a, c) {
       ctx.strokeStyle = c.grid;
       ctx.strokeRect(x + 0.5, y + 0.5, cell - 1, cell - 1);
       if (ch === '~') {
-        ctx.fillStyle = '#3f88c5';
+        ctx.fillStyle = SPILL;
         ctx.globalAlpha = 0.35;
         ctx.beginPath();
         ctx.ellipse(x + cell / 2, y + cell / 2, cell * 0.38, cell * 0.24, 0, 0, 2 * Math.PI);

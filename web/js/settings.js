@@ -173,12 +173,12 @@ const approx = (key, label, help) => ({
   },
 });
 
-const uses = (...algos) => (env) => algos.includes(env.setup.algo || 'a2c');
+const uses = (...families) => (env) => families.includes(env.setup.family || 'a2c');
 
 /** The learner setup (config `base`, and what a variant's `learner` overrides). */
 export const LEARNER_FIELDS = [
   {
-    key: 'algo', label: 'Learner', type: 'choice', def: 'A2C', value: 'a2c', wide: true,
+    key: 'family', label: 'Learner', type: 'choice', def: 'A2C', value: 'a2c', wide: true,
     help: 'Which actor-critic family trains the policy.',
     choices: [
       ['a2c', 'A2C: state-value critic, TD or n-step/GAE advantages'],
@@ -189,18 +189,18 @@ export const LEARNER_FIELDS = [
       ['differential', 'Differential actor-critic (average reward, continuing tasks)'],
     ],
   },
-  num('discount', 'Discount γ', 0.99, '[0, 1]', 'Weight of a reward one step later.', { def: "the task's", value: 0.99, optional: true, when: (env) => env.setup.algo !== 'differential' }),
+  num('discount', 'Discount γ', 0.99, '[0, 1]', 'Weight of a reward one step later.', { def: "the task's", value: 0.99, optional: true, when: (env) => env.setup.family !== 'differential' }),
   num('actor_step', 'Actor step size', 0.1, '(0, 10]', 'Policy learning rate (per tiling with tile coding).'),
   num('critic_step', 'Critic step size', 0.2, '(0, 10]', 'Value learning rate (per tiling with tile coding).'),
-  num('entropy', 'Entropy bonus β', 0, '[0, 10]', 'Pushes the policy to keep exploring.', { when: (env) => env.setup.algo !== 'deterministic' }),
+  num('entropy', 'Entropy bonus β', 0, '[0, 10]', 'Pushes the policy to keep exploring.', { when: (env) => env.setup.family !== 'deterministic' }),
   {
     key: 'baseline', label: 'Baseline', type: 'choice', def: 'none', value: 'none', when: uses('reinforce'),
     help: 'What REINFORCE subtracts from the return to cut the gradient\'s variance.',
     choices: [['none', 'None'], ['average', 'Running average of returns'], ['value', 'Learned state value (critic)'], ['optimal', 'Variance-minimising constant']],
   },
   num('baseline_rate', 'Baseline rate', 0.05, '(0, 1]', 'Rate of the running averages behind the average and optimal baselines.',
-    { when: (env) => env.setup.algo === 'reinforce' && ['average', 'optimal'].includes(env.setup.baseline) }),
-  int('n_steps', 'Steps per update n', 1, '[1, 1000]', 'A2C updates every n steps from n-step returns.', { when: uses('a2c') }),
+    { when: (env) => env.setup.family === 'reinforce' && ['average', 'optimal'].includes(env.setup.baseline) }),
+  int('segment', 'Steps per update n', 1, '[1, 1000]', 'A2C updates every n steps from n-step returns.', { when: uses('a2c') }),
   num('lambda', 'GAE λ', 1, '[0, 1]', 'Within a segment: 1 gives n-step returns, 0 the one-step TD error.', { when: uses('a2c') }),
   {
     key: 'behaviour', label: 'Behaviour policy', type: 'object', when: uses('off_policy'),
@@ -239,10 +239,10 @@ export const LEARNER_FIELDS = [
     ],
   },
   {
-    key: 'policy', label: 'Gaussian policy', type: 'object', when: (env) => env.continuous && env.setup.algo !== 'deterministic',
+    key: 'policy', label: 'Gaussian policy', type: 'object', when: (env) => env.continuous && env.setup.family !== 'deterministic',
     fields: [
       num('log_std', 'Initial log SD', -0.5, '[−10, 2]', 'Log standard deviation before squashing.'),
-      { key: 'learn_std', label: 'Learn the SD', type: 'bool', def: 'on', value: true, help: 'Otherwise the SD stays fixed.' },
+      { key: 'sd_trainable', label: 'Learn the SD', type: 'bool', def: 'on', value: true, help: 'Otherwise the SD stays fixed.' },
     ],
   },
 ];

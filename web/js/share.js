@@ -16,6 +16,8 @@
 // When the format changes, add a decoder for the new version and keep the
 // old ones in DECODERS, so links made by older pages keep working.
 
+import { formatCount } from './numbers.js';
+
 /** The link format this page writes. */
 export const LINK_VERSION = 1;
 /** Longest fragment accepted, in characters. */
@@ -140,7 +142,7 @@ export async function decodeFragment(hash) {
   if (frag === '') return null;
   const fail = (message) => ({ ok: false, message });
   if (frag.length > MAX_FRAGMENT) {
-    return fail(`the link is ${frag.length.toLocaleString('en')} characters after the #; critbox links are at most ${MAX_FRAGMENT.toLocaleString('en')}, so it was not read`);
+    return fail(`the link is ${formatCount(frag.length)} characters after the #; critbox links are at most ${formatCount(MAX_FRAGMENT)}, so it was not read`);
   }
   const m = /^v(\d{1,6})\.(.*)$/s.exec(frag);
   if (!m) return fail('the part after # is not a critbox experiment (a critbox link ends in #v1. followed by its data)');

@@ -1,5 +1,11 @@
-// The one app-state object. main.js creates it, passes it to the views and is
-// the only module that changes it. Nothing in here touches the DOM.
+// The one app-state object and what is computed from it. main.js creates
+// it and passes it to every module; each part has one owner that changes it
+// (the run controller: run, results, summary; the experiment: config, check,
+// presets; the curves view: curves; the message area: messages); the views
+// only read it. Also the run record's derived numbers (share done, time
+// left). Nothing in here touches the DOM.
+
+import { formatNumber } from './numbers.js';
 
 /**
  * @returns {object} a fresh state:
@@ -8,11 +14,13 @@
  *   presetFile  file of the preset last loaded, or ''
  *   config      the experiment config object being edited (schema 1)
  *   check       {ok: true, info} from validateConfig, or {ok: false, message, path}
- *   run         null, or the current/last run (see newRun)
- *   results     the ResultsClient (results.js) of the last run, or null (closed by main.js)
+ *   run         null, or the current or last run: the run controller's record (runcontrol.js),
+ *               with stepsDone[j] and jobStatus[j] (0 unfinished, 1 done, 2 failed) copied from
+ *               the results' job table
+ *   results     the ResultsClient (results.js) of that run, or null
  *   curves      the last curves the results worker sent: {key, run, stat, curves, robust, seeds}, or null
  *   summary     parsed summaryJson() of the last finished or cancelled run, or null
- *   view        how results are shown: {stat: 'mean'|'iqm'|'median', seedLines: bool, tab}
+ *   view        how results are shown: {stat: 'mean'|'iqm'|'median'|'shaped', seedLines: bool, tab}
  *   messages    [{id, text}] errors shown in the message area
  */
 export function createState() {
@@ -26,41 +34,9 @@ export function createState() {
     results: null,
     curves: null,
     summary: null,
-    view: { stat: 'mean', seedLines: false, tab: 'results' },
+    view: { stat: 'mean', seedLines: false, measure: 'evaluation', tab: 'results' },
     messages: [],
     formErrors: new Map(), // config path → {path, message} for text the form cannot read
-  };
-}
-
-/**
- * A run record.
- * status: 'running' | 'paused' | 'done' | 'cancelled' | 'interrupted' (a reload
- *   cut it; its finished jobs are kept) | 'opened' (read from a results file)
- * stepsDone[j], jobStatus[j] per job (0 running or not started, 1 done, 2 failed).
- * origin: 'run' | 'file' | 'storage'; fileName for opened files.
- */
-export function newRun(configJson, info, origin = 'run') {
-  const jobs = info.jobs;
-  return {
-    configJson,
-    title: info.title,
-    labels: info.labels.slice(),
-    seeds: info.seeds,
-    steps: info.steps,
-    threshold: null,
-    jobs,
-    status: 'running',
-    origin,
-    fileName: '',
-    idle: false,        // true once every worker has acknowledged a pause
-    workers: 0,
-    stepsDone: new Float64Array(jobs),
-    jobStatus: new Uint8Array(jobs),
-    episodes: 0,
-    activeMs: 0,        // time spent running (not paused), for the time-left estimate
-    resumedAt: 0,       // performance.now() when it last started running, 0 while paused
-    stepsAtStart: 0,    // steps already done when this session of training started (resumed runs)
-    version: 0,         // bumped whenever the results change (caches key on it)
   };
 }
 
@@ -95,7 +71,7 @@ export function variantFractions(run) {
 
 /** Seconds of training left, from the rate so far; null when too early to say. */
 export function secondsLeft(run, now) {
-  if (!run || (run.status !== 'running' && run.status !== 'paused')) return null;
+  if (!run || !['running', 'pausing', 'paused'].includes(run.status)) return null;
   const active = run.activeMs + (run.resumedAt ? now - run.resumedAt : 0);
   const done = stepsCounted(run) - run.stepsAtStart;
   const total = run.jobs * run.steps;
@@ -109,7 +85,7 @@ export function formatLeft(sec) {
   if (sec < 1.5) return 'almost done';
   if (sec < 90) return `about ${Math.round(sec)} s left`;
   if (sec < 5400) return `about ${Math.round(sec / 60)} min left`;
-  return `about ${(sec / 3600).toFixed(1)} h left`;
+  return `about ${formatNumber(sec / 3600, { digits: 2 })} h left`;
 }
 
 let nextMessageId = 1;

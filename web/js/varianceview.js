@@ -3,11 +3,12 @@
 // checkpoints, drawn as the trace of the gradient estimate's covariance per
 // baseline option (log scale) with a table of the numbers.
 
-import { Probe } from './inspect.js';
+import { Probe } from './probe.js';
 import { drawLogLines, sizeCanvas } from './chart.js';
 import { canvasPng, download, fileStem } from './export.js';
-import { readNumber } from './controls.js';
+import { readNumber } from './configedit.js';
 import { messageOf } from './wasm.js';
+import { formatNumber } from './numbers.js';
 
 const BASELINE_NAMES = {
   none: 'no baseline',
@@ -81,12 +82,11 @@ export function createVarianceView(app) {
   }
 
   function renderTable() {
-    const fmt = (v) => (typeof v === 'number' && Number.isFinite(v) ? (Math.abs(v) >= 1000 || (Math.abs(v) < 0.01 && v !== 0) ? v.toExponential(2) : v.toPrecision(3)) : '–');
     const rows = [];
     for (const c of result.checkpoints) {
       for (const o of c.options) {
         const tr = document.createElement('tr');
-        const cells = [String(c.step), BASELINE_NAMES[o.baseline] || o.baseline, fmt(o.trace_cov), fmt(o.mean_norm), fmt(o.constant)];
+        const cells = [String(c.step), BASELINE_NAMES[o.baseline] || o.baseline, formatNumber(o.trace_cov), formatNumber(o.mean_norm), formatNumber(o.constant)];
         cells.forEach((t, i) => {
           const td = document.createElement('td');
           td.textContent = t;

@@ -2,7 +2,9 @@
 // wasm-bindgen with --target web, imported as an ES module. Single file: the
 // no-modules glue is already in the page (or the worker) as the global
 // `wasm_bindgen`, and the bytes come from the bundle (page) or from the
-// start message (worker, see provideWasmBytes). Each realm loads it once.
+// first message every worker gets from rpc.js (see provideWasmBytes); a
+// served worker gets the page's compiled module the same way. Each realm
+// loads it once.
 
 import { bundle } from './platform.js';
 

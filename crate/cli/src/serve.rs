@@ -5,7 +5,8 @@
 //! response. Request paths are percent-decoded and checked segment by
 //! segment: `..`, NUL, backslashes, hidden (dot) names and anything whose
 //! real path (after following symlinks) leaves the root are refused. Every
-//! answer carries the page's Content-Security-Policy, `Cache-Control:
+//! answer carries the page's Content-Security-Policy (read at build time
+//! from the meta element of `web/index.html`, its one definition), `Cache-Control:
 //! no-store` and `X-Content-Type-Options: nosniff`.
 //!
 //! Main items: [`serve`] (bind, report the address, serve forever),
@@ -22,11 +23,62 @@ use std::sync::Arc;
 use std::thread;
 use std::time::Duration;
 
-/// The Content-Security-Policy sent with every response: the page loads
-/// only its own files, may compile WebAssembly, and may start workers from
-/// its own files or `blob:` URLs.
-pub const CSP: &str = "default-src 'self'; script-src 'self' 'wasm-unsafe-eval'; \
-worker-src 'self' blob:; style-src 'self'; img-src 'self' data: blob:; connect-src 'self'";
+/// The page, whose `<meta http-equiv="Content-Security-Policy">` is the one
+/// place the policy is written (the single-file build derives its own from
+/// it the same way, see scripts/build-single).
+const PAGE: &str = include_str!("../../../web/index.html");
+
+/// The Content-Security-Policy sent with every response: the page's own
+/// policy, read from `web/index.html` when the binary is built (a page
+/// without one, or with one spread over lines, fails the build). Workers
+/// take their policy from their own response, so they run under the same
+/// rules as the page: its own files only, WebAssembly compilation allowed,
+/// no connection anywhere else.
+pub const CSP: &str = meta_policy(PAGE);
+
+/// The `content` of the Content-Security-Policy meta element in `html`.
+/// A `const fn`, so a page whose policy cannot be found stops the build.
+const fn meta_policy(html: &str) -> &str {
+    let bytes = html.as_bytes();
+    let Some(at) = find(bytes, b"http-equiv=\"Content-Security-Policy\"", 0) else {
+        panic!("web/index.html has no <meta http-equiv=\"Content-Security-Policy\">");
+    };
+    let Some(open) = find(bytes, b"content=\"", at) else {
+        panic!("web/index.html: the Content-Security-Policy meta element has no content=\"...\"");
+    };
+    let start = open + 9;
+    let mut end = start;
+    while end < bytes.len() && bytes[end] != b'"' {
+        if bytes[end] == b'\n' || bytes[end] == b'\r' {
+            panic!(
+                "web/index.html: keep the Content-Security-Policy on one line (it is also an HTTP header)"
+            );
+        }
+        end += 1;
+    }
+    let (_, tail) = bytes.split_at(start);
+    let (policy, _) = tail.split_at(end - start);
+    match std::str::from_utf8(policy) {
+        Ok(p) => p,
+        Err(_) => panic!("web/index.html: the Content-Security-Policy is not UTF-8"),
+    }
+}
+
+/// Index of the first `needle` in `hay` at or after `from`.
+const fn find(hay: &[u8], needle: &[u8], from: usize) -> Option<usize> {
+    let mut i = from;
+    while i + needle.len() <= hay.len() {
+        let mut k = 0;
+        while k < needle.len() && hay[i + k] == needle[k] {
+            k += 1;
+        }
+        if k == needle.len() {
+            return Some(i);
+        }
+        i += 1;
+    }
+    None
+}
 
 /// Largest request head (request line and headers) read, in bytes.
 const MAX_HEAD: usize = 16 * 1024;
@@ -597,10 +649,21 @@ mod tests {
         assert_eq!(r.header("Content-Length"), Some("26"));
         assert_eq!(r.header("Content-Security-Policy"), Some(CSP));
         assert!(CSP.contains("script-src 'self' 'wasm-unsafe-eval'"));
-        assert!(CSP.contains("worker-src 'self' blob:"));
+        assert!(CSP.contains("connect-src 'self'"));
         assert_eq!(r.header("Cache-Control"), Some("no-store"));
         assert_eq!(r.header("X-Content-Type-Options"), Some("nosniff"));
         assert_eq!(r.header("Connection"), Some("close"));
+    }
+
+    #[test]
+    fn the_policy_is_the_pages_own_meta_element() {
+        // Common practice, no source: one definition, read back independently.
+        let meta = PAGE.split("http-equiv=\"Content-Security-Policy\"").nth(1).unwrap();
+        let content = meta.split("content=\"").nth(1).unwrap().split('"').next().unwrap();
+        assert_eq!(CSP, content);
+        assert!(CSP.starts_with("default-src 'none';"));
+        assert!(!CSP.contains('\n'));
+        assert_eq!(meta_policy("<meta http-equiv=\"Content-Security-Policy\" content=\"a 'b'\">"), "a 'b'");
     }
 
     #[test]

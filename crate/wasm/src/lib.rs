@@ -2,23 +2,31 @@
 //!
 //! Thin handles over core types; JS holds a handle and calls a few coarse
 //! functions. Bulk data crosses as `Float64Array` copies whose layout
-//! (stride and order) is documented on each accessor. Every error reaches JS
+//! (stride and order) is documented on each accessor; the records a
+//! trainer's `Run` hands to the results' `Results` (`results.rs`) are
+//! laid out once, in `records.rs`. Every error reaches JS
 //! as an exception carrying the core's message; user input never traps.
 //! JS-style (camelCase) names appear only here.
 
 use wasm_bindgen::prelude::*;
 
 use critbox_core::experiment::config::TaskConfig;
-use critbox_core::experiment::{self, inspect, EpisodeRecord, Job, JobStatus, Plan};
+use critbox_core::experiment::{self, inspect, Job, JobStatus, Plan};
 use critbox_core::task::Task;
 
 /// Installs the panic hook so a programming error shows its message in the console.
+mod records;
+mod results;
+
+pub use records::record_layouts;
+pub use results::Results;
+
 #[wasm_bindgen(start)]
 pub fn start() {
     console_error_panic_hook::set_once();
 }
 
-fn plan_of(json: &str) -> Result<Plan, JsError> {
+pub(crate) fn plan_of(json: &str) -> Result<Plan, JsError> {
     experiment::parse(json).map_err(|e| JsError::new(&e.to_string()))
 }
 
@@ -27,7 +35,9 @@ fn plan_of(json: &str) -> Result<Plan, JsError> {
 /// `task_kind`, `state_names`, `state_low`/`state_high` (typical ranges),
 /// `action_names`, `continuous` (whether actions are continuous),
 /// `grid_map` (a grid's map rows, a named layout's included; null otherwise)
-/// and `notes` (old key names that still load, and what they are called now).
+/// `notes` (old key names that still load, and what they are called now),
+/// `evaluation` (`{every, episodes, greedy, checkpoints}`, null when off) and
+/// `score_on` (`"evaluation"` or `"training"`).
 #[wasm_bindgen(js_name = validateConfig)]
 pub fn validate_config(json: &str) -> Result<String, JsError> {
     let plan = plan_of(json)?;
@@ -49,6 +59,10 @@ pub fn validate_config(json: &str) -> Result<String, JsError> {
         "state_names": plan.spec.state_vars.iter().map(|v| v.name.clone()).collect::<Vec<_>>(),
         "action_names": plan.spec.actions.names().to_vec(),
         "notes": plan.notes,
+        "evaluation": plan.evaluation.as_ref().map(|e| serde_json::json!({
+            "every": e.every, "episodes": e.episodes, "greedy": e.greedy, "checkpoints": e.checkpoints,
+        })),
+        "score_on": plan.score_on.name(),
     });
     Ok(v.to_string())
 }
@@ -253,45 +267,13 @@ impl Run {
         Ok(inspect::rollout(learner, task.as_mut(), max_steps, seed as u64, greedy).frames(width))
     }
 
-    /// Episodes finished since the last call, stride 5: job id, end step,
-    /// base return, shaped return, length.
-    #[wasm_bindgen(js_name = takeEpisodes)]
-    pub fn take_episodes(&mut self) -> Vec<f64> {
-        let mut out = Vec::new();
-        for j in &mut self.jobs {
-            let id = j.id() as f64;
-            for e in j.take_new_episodes() {
-                out.extend_from_slice(&[
-                    id,
-                    e.end_step as f64,
-                    e.base_return,
-                    e.shaped_return,
-                    f64::from(e.length),
-                ]);
-            }
-        }
-        out
-    }
-
-    /// Evaluation checkpoints taken since the last call, stride 5: job id,
-    /// checkpoint index, step, mean evaluation return, episodes evaluated
-    /// (empty when the plan does not evaluate).
-    #[wasm_bindgen(js_name = takeEvaluations)]
-    pub fn take_evaluations(&mut self) -> Vec<f64> {
-        let mut out = Vec::new();
-        for j in &mut self.jobs {
-            let id = j.id() as f64;
-            for e in j.take_new_evaluations() {
-                out.extend_from_slice(&[
-                    id,
-                    f64::from(e.checkpoint),
-                    e.step as f64,
-                    e.mean_return,
-                    f64::from(e.episodes),
-                ]);
-            }
-        }
-        out
+    /// The owned jobs' records of kind `kind` not taken before, one after
+    /// another (layouts: `recordLayouts()`, documented in `records.rs`);
+    /// the jobs forget what they hand out, so their memory stays flat.
+    #[wasm_bindgen(js_name = takeRecords)]
+    pub fn take_records(&mut self, kind: &str) -> Result<Vec<f64>, JsError> {
+        let kind = records::kind(kind).map_err(|e| JsError::new(&e))?;
+        Ok(kind.take_all(&mut self.jobs))
     }
 
     /// Failed jobs as JSON: `[{"job": id, "reason": text}]`.
@@ -335,205 +317,5 @@ impl Run {
             }
         }
         out
-    }
-}
-
-/// The results of a whole experiment, fed with episode records from the workers.
-#[wasm_bindgen]
-pub struct Results {
-    inner: experiment::Results,
-    plan: Plan,
-    variants: usize,
-}
-
-#[wasm_bindgen]
-impl Results {
-    /// Empty results for a config.
-    #[wasm_bindgen(constructor)]
-    pub fn new(json: &str) -> Result<Results, JsError> {
-        let plan = plan_of(json)?;
-        Ok(Results { inner: experiment::Results::new(&plan), variants: plan.variants.len(), plan })
-    }
-
-    /// Rebuilds results from a saved results file (see `saveJson`) without
-    /// re-running; throws with the field that is wrong.
-    #[wasm_bindgen(js_name = fromSaved)]
-    pub fn from_saved(text: &str) -> Result<Results, JsError> {
-        let (plan, inner) = experiment::export::load(text).map_err(|e| JsError::new(&e.to_string()))?;
-        Ok(Results { inner, variants: plan.variants.len(), plan })
-    }
-
-    /// The config (defaults filled in) as JSON text.
-    #[wasm_bindgen(js_name = configJson)]
-    pub fn config_json(&self) -> String {
-        serde_json::to_string(&self.plan.config).unwrap_or_default()
-    }
-
-    /// The results file (config, every episode record, summary) as JSON text.
-    #[wasm_bindgen(js_name = saveJson)]
-    pub fn save_json(&self) -> String {
-        experiment::export::save(&self.plan, &self.inner).to_string()
-    }
-
-    /// The tidy CSV: `variant,label,seed,step,metric,value`.
-    #[wasm_bindgen(js_name = tidyCsv)]
-    pub fn tidy_csv(&self) -> String {
-        experiment::export::tidy_csv(&self.inner)
-    }
-
-    /// A variant's robust curve, stride 2 per bin: IQM and median over seeds.
-    #[wasm_bindgen(js_name = curveRobust)]
-    pub fn curve_robust(&self, variant: u32) -> Result<Vec<f64>, JsError> {
-        if variant as usize >= self.variants {
-            return Err(JsError::new(&format!(
-                "variant {variant} is out of range ({} variants)",
-                self.variants
-            )));
-        }
-        Ok(self.inner.curve(variant as usize).iter().flat_map(|p| [p.iqm, p.median]).collect())
-    }
-
-    /// One seed's binned curve (NaN where it has no data yet), for thin per-seed lines.
-    #[wasm_bindgen(js_name = seedCurve)]
-    pub fn seed_curve(&self, variant: u32, seed: u32) -> Result<Vec<f64>, JsError> {
-        if variant as usize >= self.variants || seed as usize >= self.inner.seeds() {
-            return Err(JsError::new(&format!("variant {variant} / seed {seed} is out of range")));
-        }
-        Ok(self.inner.seed_curve(variant as usize, seed as usize))
-    }
-
-    /// Adds episode records, stride 5 as [`Run::take_episodes`] gives them.
-    #[wasm_bindgen(js_name = addEpisodes)]
-    pub fn add_episodes(&mut self, records: &[f64]) -> Result<(), JsError> {
-        if !records.len().is_multiple_of(5) {
-            return Err(JsError::new(&format!(
-                "episode records come in groups of 5; got {} numbers",
-                records.len()
-            )));
-        }
-        let n = self.inner.job_count();
-        for r in records.chunks_exact(5) {
-            let ok = r.iter().all(|v| v.is_finite()) && r[0] >= 0.0 && (r[0] as usize) < n && r[1] >= 1.0;
-            if !ok {
-                return Err(JsError::new(&format!("invalid episode record {r:?}")));
-            }
-            self.inner.add_episode(
-                r[0] as usize,
-                EpisodeRecord {
-                    end_step: r[1] as u64,
-                    base_return: r[2],
-                    shaped_return: r[3],
-                    length: r[4] as u32,
-                    truncated: false,
-                },
-            );
-        }
-        Ok(())
-    }
-
-    /// Adds evaluation records, stride 5 as [`Run::take_evaluations`] gives them.
-    #[wasm_bindgen(js_name = addEvaluations)]
-    pub fn add_evaluations(&mut self, records: &[f64]) -> Result<(), JsError> {
-        if !records.len().is_multiple_of(5) {
-            return Err(JsError::new(&format!(
-                "evaluation records come in groups of 5; got {} numbers",
-                records.len()
-            )));
-        }
-        let n = self.inner.job_count();
-        let checkpoints = self.inner.checkpoints().len();
-        for r in records.chunks_exact(5) {
-            let ok = r.iter().all(|v| v.is_finite())
-                && r[0] >= 0.0
-                && (r[0] as usize) < n
-                && r[1] >= 0.0
-                && (r[1] as usize) < checkpoints
-                && r[2] >= 0.0
-                && r[4] >= 1.0;
-            if !ok {
-                return Err(JsError::new(&format!("invalid evaluation record {r:?}")));
-            }
-            self.inner.add_evaluation(
-                r[0] as usize,
-                experiment::EvalRecord {
-                    checkpoint: r[1] as u32,
-                    step: r[2] as u64,
-                    mean_return: r[3],
-                    episodes: r[4] as u32,
-                },
-            );
-        }
-        Ok(())
-    }
-
-    /// A variant's evaluation curve, stride 5 per checkpoint: step, mean,
-    /// lower and upper pointwise 95% bounds (NaN under 3 seeds), seeds with
-    /// data; empty when the plan does not evaluate.
-    #[wasm_bindgen(js_name = curveEval)]
-    pub fn curve_eval(&self, variant: u32) -> Result<Vec<f64>, JsError> {
-        if variant as usize >= self.variants {
-            return Err(JsError::new(&format!(
-                "variant {variant} is out of range ({} variants)",
-                self.variants
-            )));
-        }
-        let mut out = Vec::new();
-        for p in self.inner.eval_curve(variant as usize) {
-            out.extend_from_slice(&[p.step as f64, p.mean, p.lo, p.hi, p.n as f64]);
-        }
-        Ok(out)
-    }
-
-    /// Records a job's progress (so curves carry values only as far as it got).
-    #[wasm_bindgen(js_name = setSteps)]
-    pub fn set_steps(&mut self, job: u32, steps_done: f64) {
-        if steps_done.is_finite() && steps_done >= 0.0 {
-            self.inner.set_steps(job as usize, steps_done as u64);
-        }
-    }
-
-    /// Marks a job as failed.
-    #[wasm_bindgen(js_name = markFailed)]
-    pub fn mark_failed(&mut self, job: u32, reason: &str) {
-        self.inner.mark_failed(job as usize, reason.to_string());
-    }
-
-    /// A variant's curve, stride 5 per bin: upper step edge, mean, lower and
-    /// upper 95% bounds (NaN where undefined), seeds with data.
-    pub fn curve(&self, variant: u32) -> Result<Vec<f64>, JsError> {
-        if variant as usize >= self.variants {
-            return Err(JsError::new(&format!(
-                "variant {variant} is out of range ({} variants)",
-                self.variants
-            )));
-        }
-        let mut out = Vec::new();
-        for p in self.inner.curve(variant as usize) {
-            out.extend_from_slice(&[p.step as f64, p.mean, p.lo, p.hi, p.n as f64]);
-        }
-        Ok(out)
-    }
-
-    /// A variant's curve of the shaped return (what the learner was trained
-    /// on), stride 5 per bin as [`Results::curve`] (Student-t bounds).
-    #[wasm_bindgen(js_name = curveShaped)]
-    pub fn curve_shaped(&self, variant: u32) -> Result<Vec<f64>, JsError> {
-        if variant as usize >= self.variants {
-            return Err(JsError::new(&format!(
-                "variant {variant} is out of range ({} variants)",
-                self.variants
-            )));
-        }
-        let mut out = Vec::new();
-        for p in self.inner.shaped_curve(variant as usize) {
-            out.extend_from_slice(&[p.step as f64, p.mean, p.lo, p.hi, p.n as f64]);
-        }
-        Ok(out)
-    }
-
-    /// The summary JSON, the same as `critbox run` prints.
-    #[wasm_bindgen(js_name = summaryJson)]
-    pub fn summary_json(&self) -> String {
-        self.inner.summary().to_string()
     }
 }
