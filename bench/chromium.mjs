@@ -3,6 +3,10 @@
 // `critbox serve` on 127.0.0.1. Prints one JSON object on stdout.
 // usage: node bench/chromium.mjs single CONFIG.json STEPS [RUNS]
 //        node bench/chromium.mjs pool CONFIG.json WORKERS[,WORKERS...] [RUNS]
+//        node bench/chromium.mjs page CONFIG.json - [RUNS]
+// `page` opens the page itself (web/index.html) with the config in a share
+// link, presses Train and times the whole run to its summary (a study's two
+// stages included), as a user would see it.
 // RUNS measurements (default 1) in one browser, printed as a JSON array; for
 // pool, each run measures every listed worker count in turn (paired rounds).
 import path from 'node:path';
@@ -16,8 +20,8 @@ const { chromium } = require('playwright-core');
 
 const [mode, configPath, arg, runsArg] = process.argv.slice(2);
 const runs = Math.max(1, Number(runsArg || 1));
-if (!['single', 'pool'].includes(mode) || !configPath || !arg) {
-  console.error('usage: node bench/chromium.mjs single|pool CONFIG.json STEPS|WORKERS');
+if (!['single', 'pool', 'page'].includes(mode) || !configPath || !arg) {
+  console.error('usage: node bench/chromium.mjs single|pool|page CONFIG.json STEPS|WORKERS|-');
   process.exit(2);
 }
 
@@ -43,6 +47,32 @@ try {
   const page = await browser.newPage();
   const pageErrors = [];
   page.on('pageerror', (e) => pageErrors.push(String(e)));
+  if (mode === 'page') {
+    const { readFileSync } = await import('node:fs');
+    const config = JSON.parse(readFileSync(configPath, 'utf8'));
+    const out = [];
+    for (let r = 0; r < runs; r++) {
+      await page.goto(`${base}/web/index.html`);
+      await page.waitForFunction(() => window.__critbox && window.__critbox.ready, null, { timeout: 30000 });
+      const hash = await page.evaluate(async (c) => (await import('/web/js/share.js')).encodeConfig(c), config);
+      await page.goto(`${base}/web/index.html${hash}`);
+      await page.waitForFunction(() => window.__critbox && window.__critbox.ready && window.__critbox.state.check.ok, null, { timeout: 30000 });
+      const seconds = await page.evaluate(() => new Promise((resolve) => {
+        const t0 = performance.now();
+        document.getElementById('train').click();
+        const poll = () => {
+          const run = window.__critbox.state.run;
+          if (run && run.status === 'done' && window.__critbox.state.summary) resolve((performance.now() - t0) / 1000);
+          else setTimeout(poll, 20);
+        };
+        poll();
+      }));
+      out.push({ seconds, jobs: await page.evaluate(() => window.__critbox.state.run.jobs) });
+    }
+    if (pageErrors.length) throw new Error(`the page failed: ${pageErrors.join('; ')}`);
+    console.log(JSON.stringify(out));
+    process.exit(0);
+  }
   await page.goto(`${base}/bench/page.html`);
   await page.waitForFunction(() => window.__bench, null, { timeout: 20000 });
   const url = `${base}/${path.relative(root, path.resolve(configPath))}`;

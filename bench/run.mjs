@@ -75,6 +75,11 @@ for (const workers of [1, 2]) {
 }
 w4.speedup = pairedMedian(raw.w4_1_workers_seconds, raw.w4_2_workers_seconds);
 
+log('w5: a study (2 variants x 8 points x 10 tuning seeds, then 10 fresh seeds, 30 000 rover steps) through the page, Train to summary');
+const w5runs = json('node', [path.join(root, 'bench/chromium.mjs'), 'page', cfg('w5'), '-', String(quick ? 1 : 3)]);
+raw.w5_seconds = w5runs.map((r) => r.seconds);
+const w5 = median(raw.w5_seconds);
+
 log(`w1 resident memory at ${S.rss.join(' and ')} steps (native)`);
 const rssRun = json(cli, ['bench', cfg('w1'), '--steps', String(S.rss[1]), '--rss-at', S.rss.join(',')]);
 const [rssA, rssB] = rssRun.rss.map((r) => r.rss_kib);
@@ -93,6 +98,7 @@ row('W2 native / NumPy peer', r2, 'x', '>= 20', r2 >= 20);
 row('W4 wall time, 2 workers', w4[2], 's', '< 3', w4[2] < 3);
 const sp = w4.speedup;
 row('W4 speed-up, 2 workers over 1', sp, 'x', '>= 1.8', sp >= 1.8);
+row('W5 study in the page, Train to summary', w5, 's', '< 10', w5 < 10);
 const growth = ratio(rssB, rssA) - 1;
 row(`W1 resident memory growth ${S.rss[0]} -> ${S.rss[1]} steps`, growth * 100, '%', '<= 10', Math.abs(growth) <= 0.1);
 
@@ -109,6 +115,7 @@ for (const w of ['w1', 'w2', 'w3']) {
 console.log(`W4 (30 jobs x 50 000 steps, page worker pool in Chromium): 1 worker ${fmt(w4[1])} s, 2 workers ${fmt(w4[2])} s, `
   + `speed-up ${fmt(w4.speedup)} x `
   + `(first progress after ${fmt(w4.first_1)} s and ${fmt(w4.first_2)} s)`);
+console.log(`W5 (a study of 180 jobs x 30 000 rover steps in the page, two stages): ${fmt(w5)} s from Train to the summary`);
 const [ra, rb] = rssRun.rss;
 console.log(`W1 resident memory: ${rssA} KiB at ${S.rss[0]} steps, ${rssB} KiB at ${S.rss[1]} steps `
   + `(episode records taken after every chunk as a page worker does: ${ra.episodes} -> ${rb.episodes} episodes, `
@@ -125,6 +132,7 @@ const out = {
   steps_per_sec: med,
   ratios: pairs,
   w4_seconds: { workers_1: w4[1], workers_2: w4[2], speedup: w4.speedup, first_progress_1: w4.first_1, first_progress_2: w4.first_2 },
+  w5_seconds: w5,
   w1_rss_kib: { [S.rss[0]]: rssA, [S.rss[1]]: rssB },
   w1_rss_detail: rssRun,
   targets: rows,

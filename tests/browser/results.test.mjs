@@ -90,8 +90,8 @@ test('results: tables, curve statistics, exports, and a results file opened agai
   assert.match(csvDl.suggestedFilename(), /\.csv$/);
   const csv = await readFile(await csvDl.path(), 'utf8');
   const lines = csv.trim().split('\n');
-  assert.equal(lines[0], 'variant,label,seed,step,metric,value');
-  const finals = lines.slice(1).map((l) => l.match(/^(\d+),.*,(\d+),(\d+),final_return,(.*)$/)).filter(Boolean);
+  assert.equal(lines[0], 'variant,label,seed,step,metric,value,settings');
+  const finals = lines.slice(1).map((l) => l.match(/^(\d+),.*,(\d+),(\d+),final_return,([^,]*),$/)).filter(Boolean);
   const expected = summary.variants.flatMap((v) => v.per_seed_final.filter((x) => x !== null)).length;
   assert.equal(finals.length, expected);
   for (const m of finals) {

@@ -23,22 +23,31 @@ await init({ module_or_path: fs.readFileSync(path.join(pkg, 'critbox_wasm_bg.was
  * summary and results file). */
 function runLikeThePage(json, workers, chunk) {
   const plan = JSON.parse(cb.validateConfig(json));
-  const owned = Array.from({ length: workers }, () => []);
-  for (let id = 0; id < plan.jobs; id++) owned[id % workers].push(id);
-  const runs = owned.filter((ids) => ids.length).map((ids) => new cb.Run(json, Uint32Array.from(ids)));
   const results = new cb.Results(json);
-  let busy = runs.slice();
-  while (busy.length) {
-    busy = busy.filter((run) => {
-      const done = run.advance(chunk);
-      for (const kind of RECORD_KINDS) results.addRecords(kind, run.takeRecords(kind));
-      const p = run.progress();
-      for (let i = 0; i < p.length; i += PROGRESS_STRIDE) results.setSteps(p[i], p[i + 1]);
-      for (const f of JSON.parse(run.failures())) results.markFailed(f.job, f.reason);
-      if (done) run.free();
-      return !done;
-    });
-  }
+  const stage = (ids, chosen) => {
+    const owned = Array.from({ length: workers }, () => []);
+    ids.forEach((id, k) => owned[k % workers].push(id));
+    const runs = owned.filter((list) => list.length).map((list) => (chosen
+      ? cb.Run.withChoice(json, Uint32Array.from(chosen), Uint32Array.from(list))
+      : new cb.Run(json, Uint32Array.from(list))));
+    let busy = runs.slice();
+    while (busy.length) {
+      busy = busy.filter((run) => {
+        const done = run.advance(chunk);
+        for (const kind of RECORD_KINDS) results.addRecords(kind, run.takeRecords(kind));
+        const p = run.progress();
+        for (let i = 0; i < p.length; i += PROGRESS_STRIDE) results.setSteps(p[i], p[i + 1]);
+        for (const f of JSON.parse(run.failures())) results.markFailed(f.job, f.reason);
+        if (done) run.free();
+        return !done;
+      });
+    }
+  };
+  const all = Array.from({ length: plan.jobs }, (_, id) => id);
+  // A study: its tuning jobs, then the fresh jobs of the chosen points.
+  stage(all.slice(0, plan.tuning_jobs), null);
+  const chosen = plan.tuning_jobs ? Array.from(results.choice()) : null;
+  stage(all.slice(plan.tuning_jobs), chosen);
   const summary = JSON.parse(results.summaryJson());
   const file = JSON.parse(results.saveJson());
   results.free();

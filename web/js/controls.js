@@ -5,6 +5,7 @@
 // finding the control of a path named in a message. Text from configs is
 // only ever set as .value or .textContent.
 
+import { studySection } from './studyedit.js';
 import { TASKS, LEARNER_FIELDS, REWARD_MODES, explain, overridable, taskFacts } from './settings.js';
 import { idOf, merge, constantsText, fieldByKey } from './configedit.js';
 
@@ -330,6 +331,7 @@ function variantCard(doc, config, variant, i, count) {
   }
   if (v.reward === undefined) add.append(el(doc, 'option', { value: '#reward', text: 'Its own reward' }));
   li.append(el(doc, 'div', { className: 'field add' }, el(doc, 'label', { for: addId, className: 'visually-hidden', text: `Change a setting for variant ${i + 1}` }), add));
+  li.append(studySection(doc, v, i, env, setup, v.reward !== undefined ? v.reward : config.reward));
   return li;
 }
 

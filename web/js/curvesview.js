@@ -108,7 +108,9 @@ export function createCurvesView(app) {
       if (!c || c.stat !== stat) drawStat = c ? c.stat : 'mean';
       xMax = run.steps;
       threshold = run.threshold;
-      note = run.status === 'running' ? 'Waiting for the first finished episodes…' : 'No finished episodes to show.';
+      note = run.stage === 'tuning' && run.status !== 'done'
+        ? 'Tuning: every grid point on the tuning seeds; the curves show the chosen points on fresh seeds next.'
+        : run.status === 'running' ? 'Waiting for the first finished episodes…' : 'No finished episodes to show.';
       const where = run.origin === 'file' ? ` — opened from ${run.fileName}` : ` — ${STATUS_WORD[run.status] || run.status}`;
       ui.title.textContent = `${run.title || 'Untitled experiment'}${where}`;
     } else {

@@ -5,9 +5,10 @@
 // experiment module (experiment.js) owns the config and is told through
 // hooks.onEdit() after every change to it.
 
-import { renderSheet, showFormulaCheck } from './controls.js';
+import { addSweep, applySweepEdit, dropSweep, sweepable } from './studyedit.js';
+import { renderSheet, showFormulaCheck, envFor } from './controls.js';
 import {
-  applyInput, setRewardMode, addOverride, dropOverride, switchTask, newVariant, duplicateVariant, getAt, idOf,
+  applyInput, setRewardMode, addOverride, dropOverride, switchTask, newVariant, duplicateVariant, getAt, idOf, merge,
 } from './configedit.js';
 import { messageOf } from './wasm.js';
 
@@ -80,6 +81,28 @@ export function bindForm(state, els, hooks) {
       afterEdit(el, true);
       return;
     }
+    if (el.dataset.sweepAdd !== undefined) {
+      if (e.type !== 'change' || !el.value) return;
+      const i = Number(el.dataset.sweepAdd);
+      const v = state.config.variants[i];
+      const setup = merge(state.config.base || {}, (v && v.learner) || {});
+      const reward = v && v.reward !== undefined ? v.reward : state.config.reward;
+      const choice = sweepable(envFor(state.config, setup), setup, reward).find((c) => c.key === el.value);
+      addSweep(state.config, i, el.value, choice ? choice.value : undefined);
+      redraw();
+      focusPath(`variants[${i}].sweep.${el.value}`);
+      hooks.onEdit();
+      return;
+    }
+    if (el.dataset.sweep !== undefined) {
+      const texty = el.tagName === 'INPUT' && el.type === 'text';
+      if (texty !== (e.type === 'input')) return;
+      const path = `variants[${el.dataset.sweep}].sweep.${el.dataset.sweepKey}`;
+      const r = applySweepEdit(state.config, el);
+      if (r.error) state.formErrors.set(path, { path, message: `${path}: ${r.error}` }); else state.formErrors.delete(path);
+      afterEdit(el, r.structural);
+      return;
+    }
     if (el.dataset.addOverride !== undefined) {
       if (e.type !== 'change' || !el.value) return;
       const i = Number(el.dataset.addOverride);
@@ -133,6 +156,14 @@ export function bindForm(state, els, hooks) {
   function onClick(e) {
     const b = e.target.closest('button');
     if (!b || !state.config || !els.form.contains(b)) return;
+    if (b.dataset.sweepDrop !== undefined) {
+      const i = Number(b.dataset.sweepDrop);
+      dropSweep(state.config, i, b.dataset.sweepKey);
+      state.formErrors.delete(`variants[${i}].sweep.${b.dataset.sweepKey}`);
+      redraw();
+      hooks.onEdit();
+      return;
+    }
     if (b.dataset.insert) {
       const ta = doc.getElementById(b.dataset.into);
       if (!ta) return;

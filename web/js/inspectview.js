@@ -15,6 +15,12 @@ import { formatNumber, formatCount } from './numbers.js';
  * @param {object} app {state, showError, colours(), palette(), font()}
  * @returns {{refresh(), draw(), stop()}}
  */
+/** A study's chosen grid point per variant, from its summary (null outside a study). */
+export function chosenOf(summary) {
+  if (!summary || !summary.study) return null;
+  return summary.variants.map((v) => (v.study && typeof v.study.chosen_point === 'number' ? v.study.chosen_point : 0));
+}
+
 export function createInspectView(app) {
   const $ = (id) => document.getElementById(id);
   const ui = {
@@ -74,7 +80,7 @@ export function createInspectView(app) {
     };
     let ready;
     try {
-      ready = await probe.train(run.configJson, variant * run.seeds + seed, steps);
+      ready = await probe.train(run.configJson, run.tuningJobs + variant * run.seeds + seed, steps, chosenOf(app.state.summary));
     } catch (err) {
       ui.go.disabled = false;
       if (!/replaced|stopped/.test(messageOf(err))) {

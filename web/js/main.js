@@ -16,6 +16,7 @@ import { createCurvesView } from './curvesview.js';
 import { createTablesView } from './tables.js';
 import { createFileBar } from './filebar.js';
 import { createInspectView } from './inspectview.js';
+import { createSensitivityView } from './sensitivityview.js';
 import { createVarianceView } from './varianceview.js';
 import { seriesColours } from './palette.js';
 
@@ -59,8 +60,10 @@ const tables = createTablesView(app);
 const fileBar = createFileBar(app);
 const inspector = createInspectView(app);
 const variance = createVarianceView(app);
+const sensitivity = createSensitivityView(app);
 debug.inspected = () => inspector.debug();
 debug.variance = () => variance.debug();
+debug.sensitivity = () => sensitivity.debug();
 
 /** The run controller says what changed: 'run' (its state), 'progress' (the job table), 'results' (the summary). */
 function changed(what) {
@@ -76,6 +79,7 @@ function changed(what) {
     tables.render();
     inspector.refresh();
     variance.refresh();
+    sensitivity.render();
   }
 }
 
@@ -111,6 +115,7 @@ function selectTab(tab, focus = false) {
   curves.schedule();
   if (state.view.tab === 'inspect') { inspector.refresh(); requestAnimationFrame(() => inspector.draw()); }
   if (state.view.tab === 'variance') { variance.refresh(); requestAnimationFrame(() => variance.draw()); }
+  if (state.view.tab === 'study') requestAnimationFrame(() => sensitivity.draw());
 }
 
 tabs.forEach((t, i) => {
@@ -126,6 +131,7 @@ darkScheme.addEventListener('change', () => {
   curves.schedule();
   inspector.draw();
   variance.draw();
+  sensitivity.draw();
   tables.render();
 });
 

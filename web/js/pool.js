@@ -50,18 +50,21 @@ export class Pool {
     return lists;
   }
 
-  /** Job ids in seed-major order (ids are variant * seeds + seed). */
-  static seedMajor(ids, seeds) {
-    return Array.from(ids).sort((a, b) => (a % seeds) - (b % seeds) || a - b);
+  /** Job ids in seed-major order (ids are offset + group * seeds + seed). */
+  static seedMajor(ids, seeds, offset = 0) {
+    const seed = (j) => (j - offset) % seeds;
+    return Array.from(ids).sort((a, b) => seed(a) - seed(b) || a - b);
   }
 
   /**
    * Start the run: config JSON text, the job ids to run, steps per job per
-   * chunk, and the plan's shape {variants, seeds}. Resolves once every
-   * trainer has its work (and the results listen to its port).
+   * chunk, the shape of the ids {variants, seeds, offset} (ids are offset +
+   * group * seeds + seed), and for a study's fresh jobs each variant's
+   * chosen grid point (`chosen`, else null). Resolves once every trainer has
+   * its work (and the results listen to its port).
    */
-  async start(configJson, jobIds, chunk = 2000, shape = { variants: 1, seeds: 1 }) {
-    const ids = Pool.seedMajor(jobIds, Math.max(1, shape.seeds));
+  async start(configJson, jobIds, chunk = 2000, shape = { variants: 1, seeds: 1 }, chosen = null) {
+    const ids = Pool.seedMajor(jobIds, Math.max(1, shape.seeds), shape.offset || 0);
     const n = Pool.workerCount(ids.length, this.concurrency);
     const batch = Math.max(1, Math.ceil(shape.variants / n));
     for (const list of Pool.deal(ids, n)) {
@@ -88,7 +91,7 @@ export class Pool {
       if (slot.state === 'done') continue; // died meanwhile
       // A pause asked before this trainer started holds it from its first chunk.
       const pause = this.pausing ? this.epoch : 0;
-      slot.link.post(TRAIN.start, { config: configJson, jobIds: list, chunk, batch, pause, port: channel.port1 }, [channel.port1]);
+      slot.link.post(TRAIN.start, { config: configJson, jobIds: list, chunk, batch, pause, chosen, port: channel.port1 }, [channel.port1]);
     }
     this.#checkDone();
   }

@@ -25,12 +25,13 @@ export class Probe {
     return this.link;
   }
 
-  /** Re-train job `jobId` of a config to `steps` steps; resolves with
+  /** Re-train job `jobId` of a config to `steps` steps (a study's fresh job
+   * needs each variant's chosen point, `chosen`); resolves with
    * {done, status, failure, policyWidth, states, values}. */
-  train(configJson, jobId, steps) {
+  train(configJson, jobId, steps, chosen = null) {
     const link = this.#ensure();
     this.training = link.peekId();
-    return link.request(PROBE.train, { config: configJson, jobId, steps, chunk: 5000 });
+    return link.request(PROBE.train, { config: configJson, jobId, steps, chunk: 5000, chosen });
   }
 
   /** Ask about the trained learner: kind 'inspect' {obs} or 'rollout' {maxSteps, seed, greedy}. */
@@ -43,9 +44,9 @@ export class Probe {
    * The gradient-variance probe of job (variant, seed) at the given steps:
    * resolves with its parsed JSON (see DEVELOPERS.md, WebAssembly API, probe).
    */
-  async variance(configJson, variant, seed, checkpoints, estimates, episodes) {
+  async variance(configJson, variant, seed, checkpoints, estimates, episodes, chosen = null) {
     const text = await this.#ensure().request(PROBE.variance, {
-      config: configJson, variant, seed, checkpoints: Float64Array.from(checkpoints), estimates, episodes,
+      config: configJson, variant, seed, checkpoints: Float64Array.from(checkpoints), estimates, episodes, chosen,
     });
     return JSON.parse(text);
   }

@@ -23,7 +23,7 @@ function owned(arr) {
   return arr.byteOffset === 0 && arr.byteLength === arr.buffer.byteLength ? arr : arr.slice();
 }
 
-async function train({ config, jobId, steps, chunk }, id) {
+async function train({ config, jobId, steps, chunk, chosen }, id) {
   freeProbe();
   const me = { id, run: null };
   probe = me;
@@ -31,7 +31,9 @@ async function train({ config, jobId, steps, chunk }, id) {
   const wasm = await loadWasm();
   replaced();
   try {
-    me.run = new wasm.Run(config, Uint32Array.from([jobId]));
+    me.run = Array.isArray(chosen)
+      ? wasm.Run.withChoice(config, Uint32Array.from(chosen), Uint32Array.from([jobId]))
+      : new wasm.Run(config, Uint32Array.from([jobId]));
   } catch (err) {
     if (probe === me) probe = null;
     throw err;
@@ -66,9 +68,9 @@ function query({ kind, obs, maxSteps, seed, greedy }) {
   return new Reply(out, [out.buffer]);
 }
 
-async function variance({ config, variant, seed, checkpoints, estimates, episodes }) {
+async function variance({ config, variant, seed, checkpoints, estimates, episodes, chosen }) {
   const wasm = await loadWasm();
-  return wasm.probe(config, variant, seed, checkpoints, estimates, episodes);
+  return wasm.probe(config, variant, seed, checkpoints, estimates, episodes, Uint32Array.from(chosen || []));
 }
 
 serve({ [PROBE.train]: train, [PROBE.query]: query, [PROBE.variance]: variance });

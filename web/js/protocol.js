@@ -46,6 +46,7 @@ export const JOB = Object.freeze({ unfinished: 0, done: 1, failed: 2 });
 /**
  * Trainer worker (trainworker.js).
  *   start  {config: JSON text, jobIds, chunk: steps per job per chunk, batch: jobs trained at once,
+ *           chosen: each variant's chosen grid point for a study's fresh jobs, or null,
  *           pause: 0, or the epoch of a pause asked before the start, port: MessagePort (transferred)
  *           for PORT.chunk messages}
  *   pause {epoch}: stop after the chunk in progress; resume (no body)
@@ -81,6 +82,7 @@ export const PORT = Object.freeze({ chunk: 'port.chunk' });
  *                                         'evaluation' | 'both' (evaluation curves with the training ones
  *                                         as background); the answer's measure is what was drawn
  *   summary | save | csv               → text
+ *   choice                             → {chosen: [point per variant] | null}: a study's tuning choice
  *   keep {status, final, origin, fileName} → {jobs, bytes, ms}: packed into IndexedDB (all jobs when final,
  *                                         else the finished ones)
  *   progress (event) {table: Float64Array (TABLE_STRIDE)}: after chunks change it, at most about 4 a
@@ -89,17 +91,18 @@ export const PORT = Object.freeze({ chunk: 'port.chunk' });
 export const RESULTS = Object.freeze({
   open: 'results.open', openFile: 'results.openFile', restoreKept: 'results.restoreKept',
   attach: 'results.attach', settle: 'results.settle', detach: 'results.detach', fail: 'results.fail',
-  curves: 'results.curves', summary: 'results.summary', save: 'results.save', csv: 'results.csv',
+  curves: 'results.curves', summary: 'results.summary', save: 'results.save', csv: 'results.csv', choice: 'results.choice',
   keep: 'results.keep', progress: 'results.progress',
 });
 
 /**
  * Probe worker (probeworker.js): one job re-trained to a step, then asked about.
- *   train {config, jobId, steps, chunk} → {done, status, failure, policyWidth, states, values}
+ *   train {config, jobId, steps, chunk, chosen} → {done, status, failure, policyWidth, states, values}
+ *       (chosen: a study's chosen point per variant, for its fresh jobs; null otherwise)
  *       (a newer train request makes an older one fail with "replaced by a newer request")
  *   progress (event, for the train request) {done, steps}
  *   query {kind: 'inspect', obs} | {kind: 'rollout', maxSteps, seed, greedy} → Float64Array
- *   variance {config, variant, seed, checkpoints: Float64Array, estimates, episodes} → JSON text
+ *   variance {config, variant, seed, checkpoints: Float64Array, estimates, episodes, chosen} → JSON text
  */
 export const PROBE = Object.freeze({
   train: 'probe.train', progress: 'probe.progress', query: 'probe.query', variance: 'probe.variance',

@@ -40,6 +40,9 @@ export class ResultsClient {
   /** Mark the unfinished ones among `jobs` as failed. */
   fail(jobs, reason) { return this.link.request(RESULTS.fail, { jobs, reason }); }
 
+  /** A study's tuning choice: {chosen: [point per variant] | null}. */
+  choice() { return this.link.request(RESULTS.choice); }
+
   /** Curves of every variant: {measure, curves, robust, seeds, background, backgroundRobust} (see protocol.js). */
   curves(stat, seeds, measure) { return this.link.request(RESULTS.curves, { stat, seeds, measure }); }
 

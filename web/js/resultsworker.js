@@ -208,6 +208,10 @@ serve({
   },
   [RESULTS.curves]: (body) => curves(mustOpen(), body),
   [RESULTS.summary]: () => mustOpen().results.summaryJson(),
+  [RESULTS.choice]: () => {
+    const c = mustOpen().results.choice();
+    return { chosen: c.length ? Array.from(c) : null };
+  },
   [RESULTS.save]: () => mustOpen().results.saveJson(),
   [RESULTS.csv]: () => mustOpen().results.tidyCsv(),
   [RESULTS.keep]: (body) => keep(mustOpen(), body),

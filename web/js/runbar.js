@@ -31,10 +31,14 @@ export function createRunBar(app) {
     const active = controller.isActive();
     const c = state.check;
     if (c.ok && active) {
-      ui.reason.textContent = `Training ${run.jobs} jobs on ${run.workers} worker${run.workers === 1 ? '' : 's'}; edits apply to the next run.`;
+      const stage = run.tuningJobs ? ` (study: ${run.stage === 'tuning' ? `tuning, ${run.tuningJobs} jobs, then the chosen points on fresh seeds` : 'the chosen points on fresh seeds'})` : '';
+      ui.reason.textContent = `Training ${run.jobs} jobs on ${run.workers} worker${run.workers === 1 ? '' : 's'}${stage}; edits apply to the next run.`;
     } else if (c.ok) {
       const i = c.info;
-      ui.reason.textContent = `Ready: ${i.labels.length} variant${i.labels.length === 1 ? '' : 's'} × ${i.seeds} seed${i.seeds === 1 ? '' : 's'} = ${i.jobs} jobs of ${formatCount(i.steps)} steps.`;
+      const fresh = i.jobs - (i.tuning_jobs || 0);
+      ui.reason.textContent = i.tuning_jobs
+        ? `Ready: a study of ${i.tuning_jobs} tuning jobs (every grid point), then ${i.labels.length} variant${i.labels.length === 1 ? '' : 's'} × ${i.seeds} fresh seed${i.seeds === 1 ? '' : 's'} = ${fresh} jobs, ${formatCount(i.steps)} steps each.`
+        : `Ready: ${i.labels.length} variant${i.labels.length === 1 ? '' : 's'} × ${i.seeds} seed${i.seeds === 1 ? '' : 's'} = ${i.jobs} jobs of ${formatCount(i.steps)} steps.`;
     } else {
       ui.reason.textContent = c.message;
     }

@@ -7,6 +7,10 @@
 // functions. How far each job got is the results' job table, copied into
 // the run record as the results worker reports it (never counted here).
 //
+// A study trains in two stages inside `running` (run.stage 'tuning', then
+// 'fresh'): the tuning jobs, then the fresh jobs of each variant's chosen
+// grid point, which the results choose once every tuning chunk is recorded.
+//
 // States (run.status):
 //   starting     the results and the trainers are being set up
 //   running      trainers are training
@@ -76,6 +80,8 @@ export function createRunController(app) {
       configJson, origin, fileName, title: info.title, labels: info.labels.slice(), seeds: info.seeds,
       steps: info.steps, jobs: info.jobs, threshold: typeof config.threshold === 'number' ? config.threshold : null,
       evaluates: !!info.evaluation, scoreOn: info.score_on || 'training',
+      tuningJobs: info.tuning_jobs || 0, tuningSeeds: info.tuning_seeds || info.seeds,
+      tuningPoints: info.tuning_points || null, stage: 'fresh', cancelAsked: false,
       status: 'starting', ending: 'done', workers: 0,
       stepsDone: new Float64Array(info.jobs), jobStatus: new Uint8Array(info.jobs),
       activeMs: 0, resumedAt: 0, stepsAtStart: 0, version: 0,
@@ -157,17 +163,60 @@ export function createRunController(app) {
     await launch(run, left);
   }
 
+  /**
+   * Train `jobIds`. A study trains in two stages: its tuning jobs first, then
+   * (once every tuning chunk is recorded) the results choose each variant's
+   * grid point and the fresh jobs of the chosen points train.
+   */
   async function launch(run, jobIds) {
+    const tuning = jobIds.filter((j) => j < run.tuningJobs);
+    const fresh = jobIds.filter((j) => j >= run.tuningJobs);
+    go(run, 'running');
+    if (!tuning.length) { await startFresh(run, fresh); return; }
+    run.stage = 'tuning';
+    await startPool(run, tuning, { variants: run.labels.length, seeds: run.tuningSeeds, offset: 0 }, null, async (me) => {
+      try {
+        const { table } = await state.results.settle(me.sent());
+        if (state.run === run) setTable(run, table);
+      } catch (err) {
+        app.showError(messageOf(err));
+      }
+      await startFresh(run, fresh);
+    });
+  }
+
+  /** The fresh stage (every job of a run that is no study): the study's choice, then train. */
+  async function startFresh(run, fresh) {
+    if (state.run !== run) return;
+    let chosen = null;
+    if (run.tuningJobs > 0) {
+      try {
+        chosen = (await state.results.choice()).chosen;
+      } catch (err) {
+        app.showError(`could not choose the study's points: ${messageOf(err)}`);
+        await finish(run, null, 'cancelled');
+        return;
+      }
+    }
+    run.stage = 'fresh';
+    if (run.cancelAsked) { await finish(run, null, 'cancelled'); return; }
+    if (!fresh.length) { await finish(run, null, 'done'); return; }
+    await startPool(run, fresh, { variants: run.labels.length, seeds: run.seeds, offset: run.tuningJobs }, chosen,
+      (me) => finish(run, me, 'done'));
+  }
+
+  async function startPool(run, jobIds, shape, chosen, onDone) {
     run.workers = Pool.workerCount(jobIds.length);
     const me = new Pool({
       onError: (message, jobs) => onTrainerError(run, message, jobs),
       onPaused: () => onPaused(run, me),
-      onDone: () => { if (pool === me) { pool = null; finish(run, me, 'done'); } },
+      onDone: () => { if (pool === me) { pool = null; onDone(me); } },
     }, { results: state.results });
     pool = me;
-    go(run, 'running');
+    // A pause asked between the stages holds the next stage from its start.
+    if (run.status === 'pausing' || run.status === 'paused') me.pause();
     try {
-      await me.start(run.configJson, jobIds, CHUNK_STEPS, { variants: run.labels.length, seeds: run.seeds });
+      await me.start(run.configJson, jobIds, CHUNK_STEPS, shape, chosen);
     } catch (err) {
       app.showError(`could not start training: ${messageOf(err)}`);
     }
@@ -199,7 +248,9 @@ export function createRunController(app) {
 
   async function cancel() {
     const run = state.run;
-    if (!run || !pool || !['running', 'pausing', 'paused'].includes(run.status)) return;
+    if (!run || !['running', 'pausing', 'paused'].includes(run.status)) return;
+    // Between a study's stages no trainer runs: the next stage sees this and stops.
+    if (!pool) { run.cancelAsked = true; return; }
     const me = pool;
     pool = null;
     go(run, 'finishing');
@@ -214,11 +265,13 @@ export function createRunController(app) {
     if (run.status !== 'finishing') go(run, 'finishing');
     run.ending = ending;
     const rc = state.results;
-    try {
-      const { table } = await rc.settle(me.sent());
-      if (state.run === run) setTable(run, table);
-    } catch (err) {
-      app.showError(messageOf(err));
+    if (me) {
+      try {
+        const { table } = await rc.settle(me.sent());
+        if (state.run === run) setTable(run, table);
+      } catch (err) {
+        app.showError(messageOf(err));
+      }
     }
     try {
       const summary = await rc.summary();

@@ -58,13 +58,18 @@ export function stepsCounted(run) {
 /** Per variant: fraction of its steps done. */
 export function variantFractions(run) {
   const out = [];
+  const tuning = run.tuningJobs || 0;
+  let base = 0;
   for (let v = 0; v < run.labels.length; v++) {
+    // A study's variant owns its tuning jobs (points × tuning seeds) and its fresh ones.
+    const ids = [];
+    const mine = run.tuningPoints ? run.tuningPoints[v] * run.tuningSeeds : 0;
+    for (let j = base; j < base + mine; j++) ids.push(j);
+    base += mine;
+    for (let s = 0; s < run.seeds; s++) ids.push(tuning + v * run.seeds + s);
     let done = 0;
-    for (let s = 0; s < run.seeds; s++) {
-      const j = v * run.seeds + s;
-      done += run.jobStatus[j] === 0 ? Math.min(run.stepsDone[j], run.steps) : run.steps;
-    }
-    out.push(done / (run.seeds * run.steps));
+    for (const j of ids) done += run.jobStatus[j] === 0 ? Math.min(run.stepsDone[j], run.steps) : run.steps;
+    out.push(done / (ids.length * run.steps));
   }
   return out;
 }

@@ -61,7 +61,7 @@ async function start(msg) {
   for (let k = 0; k < ids.length; k += size) batches.push(ids.slice(k, k + size));
   const chunk = Math.max(1, Math.floor(msg.chunk || 2000));
   const job = {
-    config: msg.config, port: msg.port, batches, wasm: null, run: null, runIds: [],
+    config: msg.config, chosen: Array.isArray(msg.chosen) ? msg.chosen : null, port: msg.port, batches, wasm: null, run: null, runIds: [],
     chunk, paused: !!msg.pause, idle: false, epoch: msg.pause || 0, busy: false, scheduled: false, failuresSeen: 0, seq: 0,
   };
   current = job;
@@ -86,7 +86,9 @@ function nextBatch(job) {
   const ids = job.batches.shift();
   if (!ids) return false;
   try {
-    job.run = new job.wasm.Run(job.config, Uint32Array.from(ids));
+    job.run = job.chosen
+      ? job.wasm.Run.withChoice(job.config, Uint32Array.from(job.chosen), Uint32Array.from(ids))
+      : new job.wasm.Run(job.config, Uint32Array.from(ids));
     job.runIds = ids;
     job.failuresSeen = 0;
   } catch (err) {

@@ -3,6 +3,7 @@
 // checkpoints, drawn as the trace of the gradient estimate's covariance per
 // baseline option (log scale) with a table of the numbers.
 
+import { chosenOf } from './inspectview.js';
 import { Probe } from './probe.js';
 import { drawLogLines, sizeCanvas } from './chart.js';
 import { canvasPng, download, fileStem } from './export.js';
@@ -61,7 +62,7 @@ export function createVarianceView(app) {
     ui.go.disabled = true;
     ui.status.textContent = `Measuring ${run.labels[variant]}, seed ${seed} at ${n} checkpoints…`;
     try {
-      result = await probe.variance(run.configJson, variant, seed, checkpoints, k.value, m.value);
+      result = await probe.variance(run.configJson, variant, seed, checkpoints, k.value, m.value, chosenOf(app.state.summary));
       label = `${run.labels[variant]}, seed ${seed}`;
       ui.status.textContent = `${label}: ${k.value} estimates of ${m.value} episodes each per baseline and checkpoint.`;
       ui.fig.hidden = false;

@@ -61,7 +61,7 @@ pub const COMMANDS: &[Command] = &[
         opts: &[opt("csv", "FILE", Kind::Path), opt("save", "FILE", Kind::Path)],
         help: &[
             "run every (variant, seed) job and print the summary JSON;",
-            "--csv writes the tidy CSV (variant,label,seed,step,metric,value),",
+            "--csv writes the tidy CSV (variant,label,seed,step,metric,value,settings),",
             "--save a results file that `critbox open` and the page reopen",
         ],
     },

@@ -97,8 +97,8 @@ fn csv_and_saved_results_round_trip() {
         .unwrap();
     assert!(out.status.success(), "{}", String::from_utf8_lossy(&out.stderr));
     let text = std::fs::read_to_string(&csv).unwrap();
-    assert!(text.starts_with("variant,label,seed,step,metric,value\n"));
-    assert!(text.lines().any(|l| l.ends_with(&format!(",final_return,{}", {
+    assert!(text.starts_with("variant,label,seed,step,metric,value,settings\n"));
+    assert!(text.lines().any(|l| l.ends_with(&format!(",final_return,{},", {
         let v: serde_json::Value = serde_json::from_slice(&out.stdout).unwrap();
         v["variants"][0]["per_seed_final"][0].as_f64().unwrap()
     }))));

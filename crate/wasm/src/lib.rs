@@ -37,7 +37,10 @@ pub(crate) fn plan_of(json: &str) -> Result<Plan, JsError> {
 /// `grid_map` (a grid's map rows, a named layout's included; null otherwise)
 /// `notes` (old key names that still load, and what they are called now),
 /// `evaluation` (`{every, episodes, greedy, checkpoints}`, null when off) and
-/// `score_on` (`"evaluation"` or `"training"`).
+/// `score_on` (`"evaluation"` or `"training"`), and for a study
+/// `tuning_jobs`, `tuning_seeds` and `tuning_points` (grid points per
+/// variant; tuning job ids run variant by variant, point by point, seed by
+/// seed, before the fresh ones).
 #[wasm_bindgen(js_name = validateConfig)]
 pub fn validate_config(json: &str) -> Result<String, JsError> {
     let plan = plan_of(json)?;
@@ -63,6 +66,9 @@ pub fn validate_config(json: &str) -> Result<String, JsError> {
             "every": e.every, "episodes": e.episodes, "greedy": e.greedy, "checkpoints": e.checkpoints,
         })),
         "score_on": plan.score_on.name(),
+        "tuning_jobs": plan.tuning_jobs(),
+        "tuning_seeds": plan.study.as_ref().map(|s| s.tuning_seeds),
+        "tuning_points": plan.study.as_ref().map(|s| s.grids.iter().map(|g| g.points.len()).collect::<Vec<_>>()),
     });
     Ok(v.to_string())
 }
@@ -119,8 +125,13 @@ pub fn probe(
     checkpoints: &[f64],
     estimates: u32,
     episodes: u32,
+    chosen: &[u32],
 ) -> Result<String, JsError> {
-    let plan = plan_of(json)?;
+    let mut plan = plan_of(json)?;
+    if plan.study.is_some() && !chosen.is_empty() {
+        let chosen: Vec<usize> = chosen.iter().map(|&c| c as usize).collect();
+        plan = plan.with_choice(&chosen).map_err(|e| JsError::new(&format!("chosen: {e}")))?;
+    }
     if checkpoints.iter().any(|c| !(c.is_finite() && *c >= 0.0)) {
         return Err(JsError::new("checkpoints: step counts must be finite and >= 0"));
     }
@@ -153,15 +164,42 @@ pub struct Run {
 
 #[wasm_bindgen]
 impl Run {
-    /// Creates the jobs `job_ids` (`id = variant * seeds + seed`) of a config.
+    /// Creates the jobs `job_ids` of a config (numbered as
+    /// `Plan::job_spec`: outside a study `id = variant * seeds + seed`; in a
+    /// study the tuning jobs come first, and the fresh ones need
+    /// [`Run::with_choice`]).
     #[wasm_bindgen(constructor)]
     pub fn new(json: &str, job_ids: &[u32]) -> Result<Run, JsError> {
+        Run::build(plan_of(json)?, job_ids)
+    }
+
+    /// Creates jobs of a study with each variant's chosen grid point set
+    /// (`chosen`, one index per variant, as `Results.choice()` gives it), so
+    /// its fresh jobs can be built; for a plan without a study `chosen` is
+    /// ignored.
+    #[wasm_bindgen(js_name = withChoice)]
+    pub fn with_choice(json: &str, chosen: &[u32], job_ids: &[u32]) -> Result<Run, JsError> {
         let plan = plan_of(json)?;
+        let plan = if plan.study.is_some() {
+            let chosen: Vec<usize> = chosen.iter().map(|&c| c as usize).collect();
+            plan.with_choice(&chosen).map_err(|e| JsError::new(&format!("chosen: {e}")))?
+        } else {
+            plan
+        };
+        Run::build(plan, job_ids)
+    }
+
+    fn build(plan: Plan, job_ids: &[u32]) -> Result<Run, JsError> {
         let n = plan.job_count();
         let mut jobs = Vec::with_capacity(job_ids.len());
         for &id in job_ids {
             if id as usize >= n {
                 return Err(JsError::new(&format!("job id {id} is out of range: the plan has {n} jobs")));
+            }
+            if plan.job_spec(id as usize).is_none() {
+                return Err(JsError::new(&format!(
+                    "job {id} is a fresh job of a study: build it with Run.withChoice once the tuning jobs have chosen"
+                )));
             }
             jobs.push(Job::new(&plan, id as usize));
         }

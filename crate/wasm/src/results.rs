@@ -162,7 +162,7 @@ impl Results {
         export::save(&self.plan, &self.inner).to_string()
     }
 
-    /// The tidy CSV: `variant,label,seed,step,metric,value`.
+    /// The tidy CSV: `variant,label,seed,step,metric,value,settings`.
     #[wasm_bindgen(js_name = tidyCsv)]
     pub fn tidy_csv(&self) -> String {
         export::tidy_csv(&self.inner)
@@ -207,6 +207,19 @@ impl Results {
             .iter()
             .flat_map(|p| [p.step as f64, p.mean, p.lo, p.hi, p.n as f64])
             .collect())
+    }
+
+    /// Each variant's chosen grid point (a study's tuning choice, see the
+    /// core's `Results::choice`); empty outside a study. Ask once the tuning
+    /// jobs have finished.
+    pub fn choice(&self) -> Vec<u32> {
+        self.inner.choice().map_or_else(Vec::new, |c| c.into_iter().map(|p| p as u32).collect())
+    }
+
+    /// Whether every tuning job of a study has finished (true outside a study).
+    #[wasm_bindgen(js_name = tuningFinished)]
+    pub fn tuning_finished(&self) -> bool {
+        self.inner.tuning_finished()
     }
 
     /// The evaluation checkpoints' steps (empty when the plan does not evaluate).

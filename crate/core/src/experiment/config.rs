@@ -11,6 +11,7 @@
 use serde::{Deserialize, Serialize};
 use serde_json::{Map, Value};
 
+use crate::experiment::study::{self, Axis, ChooseBy};
 use crate::learn::LearnerSetup;
 use crate::reward::RewardConfig;
 use crate::task::cartpole::{CartPole, CartPoleConfig};
@@ -87,6 +88,10 @@ pub struct VariantConfig {
     /// `reward` whole. Default: the experiment's.
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub reward: Option<RewardConfig>,
+    /// A sweep over one or two of this variant's settings (a study; see
+    /// [`crate::experiment::study`]). Default none.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub sweep: Option<Value>,
 }
 
 fn empty_object() -> Value {
@@ -164,6 +169,14 @@ pub struct Config {
     /// of every pair. Default absent (every pair).
     #[serde(default, skip_serializing_if = "Option::is_none")]
     pub reference: Option<String>,
+    /// In a study, the seeds every grid point runs on to choose each
+    /// variant's point, in [1, 100]. Default: `seeds`.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub tuning_seeds: Option<u32>,
+    /// In a study, what each variant's point is chosen by: `"auc"` (default)
+    /// or `"final"`, on the scored measure.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub choose_by: Option<ChooseBy>,
 }
 
 /// The two measures of a variant's performance.
@@ -359,18 +372,160 @@ pub struct Plan {
     pub reference: Option<usize>,
     /// Notes on the config that are not problems (old key names that still load).
     pub notes: Vec<String>,
+    /// The study, when some variant sweeps a setting.
+    pub study: Option<StudyPlan>,
+}
+
+/// One grid point of a variant: its value index on every axis and what it runs.
+#[derive(Clone, Debug, PartialEq)]
+pub struct GridPoint {
+    /// The value index along each axis.
+    pub index: Vec<usize>,
+    /// The learner setup at this point.
+    pub setup: LearnerSetup,
+    /// The reward at this point.
+    pub reward: RewardConfig,
+}
+
+/// A variant's grid: its swept settings and their combinations.
+#[derive(Clone, Debug, PartialEq)]
+pub struct Grid {
+    /// The swept settings (none for a variant without a sweep).
+    pub axes: Vec<Axis>,
+    /// Every combination, the first axis varying slowest (one point without a sweep).
+    pub points: Vec<GridPoint>,
+}
+
+/// A study: the grids, the tuning seeds and how points are chosen.
+#[derive(Clone, Debug, PartialEq)]
+pub struct StudyPlan {
+    /// Seeds each grid point runs on (seed indices 0 … tuning_seeds − 1).
+    pub tuning_seeds: u32,
+    /// What each variant's point is chosen by.
+    pub choose_by: ChooseBy,
+    /// One grid per variant.
+    pub grids: Vec<Grid>,
+    /// Each variant's chosen point, once the tuning stage has chosen (the
+    /// fresh jobs run them); see [`Plan::with_choice`].
+    pub chosen: Option<Vec<usize>>,
+}
+
+/// What one job runs: a variant, at one of its grid points, on one seed index.
+#[derive(Clone, Copy, Debug, PartialEq, Eq)]
+pub struct JobSpec {
+    /// The variant.
+    pub variant: usize,
+    /// The grid point (0 outside a study).
+    pub point: usize,
+    /// The seed index (in a study, fresh jobs' indices follow the tuning ones).
+    pub seed: usize,
+    /// Whether the job is of a study's tuning stage.
+    pub tuning: bool,
 }
 
 impl Plan {
-    /// Number of jobs: variants × seeds.
+    /// Number of jobs: the tuning jobs of a study (every variant's grid
+    /// points × tuning seeds), then variants × seeds.
     pub fn job_count(&self) -> usize {
-        self.variants.len() * self.config.seeds as usize
+        self.tuning_jobs() + self.variants.len() * self.config.seeds as usize
     }
 
-    /// The (variant, seed index) of a job id (`id = variant * seeds + seed`).
+    /// Jobs of a study's tuning stage (0 without a study); ids `0 … n − 1`,
+    /// numbered by (variant, grid point, seed index).
+    pub fn tuning_jobs(&self) -> usize {
+        self.study
+            .as_ref()
+            .map_or(0, |s| s.grids.iter().map(|g| g.points.len()).sum::<usize>() * s.tuning_seeds as usize)
+    }
+
+    /// The id of the (fresh) job of `variant` and seed `seed` (0-based among
+    /// the `seeds` that are scored).
+    pub fn fresh_job_id(&self, variant: usize, seed: usize) -> usize {
+        self.tuning_jobs() + variant * self.config.seeds as usize + seed
+    }
+
+    /// The (variant, seed) of a scored (fresh) job id: `id = tuning jobs +
+    /// variant * seeds + seed`. Panics for a tuning job id (a programming error).
     pub fn job_coords(&self, id: usize) -> (usize, usize) {
         let seeds = self.config.seeds as usize;
-        (id / seeds, id % seeds)
+        let k = id.checked_sub(self.tuning_jobs()).expect("job_coords of a tuning job");
+        (k / seeds, k % seeds)
+    }
+
+    /// What job `id` runs; `None` when it is out of range, or a fresh job of
+    /// a study whose tuning stage has not chosen yet.
+    pub fn job_spec(&self, id: usize) -> Option<JobSpec> {
+        if id >= self.job_count() {
+            return None;
+        }
+        let Some(study) = &self.study else {
+            let (variant, seed) = self.job_coords(id);
+            return Some(JobSpec { variant, point: 0, seed, tuning: false });
+        };
+        let ts = study.tuning_seeds as usize;
+        let mut base = 0;
+        for (variant, g) in study.grids.iter().enumerate() {
+            let n = g.points.len() * ts;
+            if id < base + n {
+                let k = id - base;
+                return Some(JobSpec { variant, point: k / ts, seed: k % ts, tuning: true });
+            }
+            base += n;
+        }
+        let (variant, seed) = self.job_coords(id);
+        let point = *study.chosen.as_ref()?.get(variant)?;
+        Some(JobSpec { variant, point, seed: ts + seed, tuning: false })
+    }
+
+    /// The tuning job ids of a variant's grid point, in seed order.
+    pub fn tuning_job_ids(&self, variant: usize, point: usize) -> std::ops::Range<usize> {
+        let Some(study) = &self.study else { return 0..0 };
+        let ts = study.tuning_seeds as usize;
+        let base: usize =
+            study.grids[..variant].iter().map(|g| g.points.len() * ts).sum::<usize>() + point * ts;
+        base..base + ts
+    }
+
+    /// The learner setup of a variant at a grid point.
+    pub fn setup_of(&self, variant: usize, point: usize) -> &LearnerSetup {
+        match &self.study {
+            Some(s) => &s.grids[variant].points[point].setup,
+            None => &self.variants[variant].setup,
+        }
+    }
+
+    /// The reward of a variant at a grid point.
+    pub fn reward_of(&self, variant: usize, point: usize) -> &RewardConfig {
+        match &self.study {
+            Some(s) => &s.grids[variant].points[point].reward,
+            None => &self.variants[variant].reward,
+        }
+    }
+
+    /// This plan with each variant's chosen grid point set, so its fresh
+    /// jobs can be built (no change without a study). `chosen` must name a
+    /// point of every variant; a wrong one is refused with the reason.
+    pub fn with_choice(&self, chosen: &[usize]) -> Result<Plan, String> {
+        let mut p = self.clone();
+        if let Some(s) = &mut p.study {
+            if chosen.len() != s.grids.len() {
+                return Err(format!(
+                    "the choice names {} points; the study has {} variants",
+                    chosen.len(),
+                    s.grids.len()
+                ));
+            }
+            for (v, (&c, g)) in chosen.iter().zip(&s.grids).enumerate() {
+                if c >= g.points.len() {
+                    return Err(format!(
+                        "variant {v}: point {c} is out of range ({} points)",
+                        g.points.len()
+                    ));
+                }
+            }
+            s.chosen = Some(chosen.to_vec());
+        }
+        Ok(p)
     }
 
     /// A fresh instance of the task.
@@ -591,6 +746,8 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
         }
     }
     let mut variants = Vec::new();
+    let mut grids: Vec<Option<Grid>> = Vec::new();
+    let mut extra = Vec::new();
     for (i, v) in config.variants.iter().enumerate() {
         let n = v.label.chars().count();
         if n == 0 || n > 60 || v.label.chars().any(char::is_control) {
@@ -608,35 +765,31 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
             bad(format!("variants[{i}].learner"), "must be an object of learner settings".into());
             continue;
         }
-        let origin = |field: &str| -> String {
-            let key = field.split(['.', '[']).next().unwrap_or("");
-            if v.learner.get(key).is_some() {
-                join(&format!("variants[{i}].learner"), field)
-            } else {
-                join("base", field)
+        let (resolved, found) = resolve_variant(&config, spec.as_ref(), i, &v.learner, v.reward.as_ref());
+        extra.extend(found);
+        let Some((setup, reward)) = resolved else { continue };
+        if let Some(sweep) = &v.sweep {
+            match study::parse_sweep(sweep) {
+                Err(ps) => {
+                    for p in ps {
+                        extra.push(Problem {
+                            path: join(&format!("variants[{i}].sweep"), &p.field),
+                            message: p.message,
+                        });
+                    }
+                }
+                Ok(axes) => {
+                    let (points, found) = grid_points(&config, spec.as_ref(), i, v, &axes);
+                    extra.extend(found);
+                    grids.push(Some(Grid { axes, points }));
+                }
             }
-        };
-        let merged = merge(&config.base, &v.learner);
-        let setup: LearnerSetup = match serde_path_to_error::deserialize(&merged) {
-            Ok(s) => s,
-            Err(e) => {
-                bad(origin(&path_string(e.path())), e.into_inner().to_string());
-                continue;
-            }
-        };
-        if let Some(spec) = &spec {
-            for e in setup.check(spec) {
-                bad(origin(&e.field), e.message);
-            }
-        }
-        let reward = v.reward.clone().unwrap_or_else(|| config.reward.clone());
-        if let (Some(spec), Some(_)) = (&spec, &v.reward) {
-            for p in reward.check(spec, setup.shaping_discount(spec)) {
-                bad(format!("variants[{i}].reward.{}", p.field), p.message);
-            }
+        } else {
+            grids.push(None);
         }
         variants.push(VariantPlan { label: v.label.clone(), setup, reward });
     }
+    problems.extend(extra);
     // A problem in `base` shows once, not once per variant.
     let mut seen = std::collections::HashSet::new();
     problems.retain(|p| seen.insert((p.path.clone(), p.message.clone())));
@@ -645,7 +798,207 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
     }
     let spec = spec.expect("no problems means the task built");
     let (evaluation, score_on, reference) = resolve_scoring(&config, &variants)?;
-    Ok(Plan { config, spec, variants, evaluation, score_on, reference, notes })
+    let study = resolve_study(&config, &variants, grids)?;
+    Ok(Plan { config, spec, variants, evaluation, score_on, reference, notes, study })
+}
+
+/// Resolves one variant's learner setup (its `learner` object deep-merged
+/// over `base`) and reward (its own, or the experiment's), with every
+/// problem named at the field it comes from.
+fn resolve_variant(
+    config: &Config,
+    spec: Option<&TaskSpec>,
+    i: usize,
+    learner: &Value,
+    own_reward: Option<&RewardConfig>,
+) -> (Option<(LearnerSetup, RewardConfig)>, Vec<Problem>) {
+    let mut problems = Vec::new();
+    let origin = |field: &str| -> String {
+        let key = field.split(['.', '[']).next().unwrap_or("");
+        if learner.get(key).is_some() {
+            join(&format!("variants[{i}].learner"), field)
+        } else {
+            join("base", field)
+        }
+    };
+    let merged = merge(&config.base, learner);
+    let setup: LearnerSetup = match serde_path_to_error::deserialize(&merged) {
+        Ok(s) => s,
+        Err(e) => {
+            problems
+                .push(Problem { path: origin(&path_string(e.path())), message: e.into_inner().to_string() });
+            return (None, problems);
+        }
+    };
+    if let Some(spec) = spec {
+        for e in setup.check(spec) {
+            problems.push(Problem { path: origin(&e.field), message: e.message });
+        }
+    }
+    let reward = own_reward.cloned().unwrap_or_else(|| config.reward.clone());
+    if let (Some(spec), Some(_)) = (spec, own_reward) {
+        for p in reward.check(spec, setup.shaping_discount(spec)) {
+            problems.push(Problem { path: format!("variants[{i}].reward.{}", p.field), message: p.message });
+        }
+    }
+    (Some((setup, reward)), problems)
+}
+
+/// Sets a dotted path in a JSON object, making the objects on the way.
+fn set_path(obj: &mut Value, path: &[&str], value: Value) {
+    let Some((last, head)) = path.split_last() else { return };
+    let mut at = obj;
+    for key in head {
+        if !at.get(*key).is_some_and(Value::is_object) {
+            at[*key] = Value::Object(Map::new());
+        }
+        at = &mut at[*key];
+    }
+    at[*last] = value;
+}
+
+/// The grid points of variant `i`'s sweep, each resolved like a variant;
+/// a value that makes a setting invalid is named at `variants[i].sweep.PATH`.
+fn grid_points(
+    config: &Config,
+    spec: Option<&TaskSpec>,
+    i: usize,
+    v: &VariantConfig,
+    axes: &[Axis],
+) -> (Vec<GridPoint>, Vec<Problem>) {
+    let mut problems = Vec::new();
+    let mut points = Vec::new();
+    let base_reward = v.reward.clone().unwrap_or_else(|| config.reward.clone());
+    for index in study::grid_indices(axes) {
+        let mut learner = v.learner.clone();
+        let mut reward = base_reward.clone();
+        let mut reward_swept = false;
+        let mut unknown = false;
+        for (a, &k) in axes.iter().zip(&index) {
+            let value = a.values[k];
+            let parts: Vec<&str> = a.path.split('.').collect();
+            if let ["reward", "constants", name] = parts[..] {
+                if !reward.constants.contains_key(name) {
+                    let names: Vec<&String> = reward.constants.keys().collect();
+                    problems.push(Problem {
+                        path: format!("variants[{i}].sweep.{}", a.path),
+                        message: format!(
+                            "the reward has no constant `{name}` to sweep (its constants: {})",
+                            if names.is_empty() { "none".into() } else { format!("{names:?}") }
+                        ),
+                    });
+                    unknown = true;
+                    continue;
+                }
+                reward.constants.insert(name.to_string(), value);
+                reward_swept = true;
+            } else if parts[0] == "reward" {
+                problems.push(Problem {
+                    path: format!("variants[{i}].sweep.{}", a.path),
+                    message: "of the reward only `reward.constants.NAME` can be swept".into(),
+                });
+                unknown = true;
+            } else {
+                set_path(&mut learner, &parts, serde_json::json!(value));
+            }
+        }
+        if unknown {
+            break;
+        }
+        let own = if reward_swept { Some(&reward) } else { v.reward.as_ref() };
+        let (resolved, found) = resolve_variant(config, spec, i, &learner, own);
+        for p in found {
+            let swept = axes.iter().zip(&index).find(|(a, _)| {
+                let learner_path = format!("variants[{i}].learner.{}", a.path);
+                let reward_path = format!("variants[{i}].{}", a.path);
+                p.path == learner_path
+                    || p.path.starts_with(&format!("{learner_path}."))
+                    || p.path == reward_path
+                    || (p.path == format!("variants[{i}].learner")
+                        && p.message.contains(&format!("`{}`", a.path.split('.').next().unwrap_or(""))))
+            });
+            let (path, message) = match swept {
+                Some((a, &k)) => (
+                    format!("variants[{i}].sweep.{}", a.path),
+                    format!("value {}: {}", crate::experiment::compare::fmt(a.values[k]), p.message),
+                ),
+                None => {
+                    (format!("variants[{i}].sweep"), format!("at this grid point, {}: {}", p.path, p.message))
+                }
+            };
+            problems.push(Problem { path, message });
+        }
+        if let Some((setup, reward)) = resolved {
+            points.push(GridPoint { index, setup, reward });
+        }
+    }
+    (points, problems)
+}
+
+/// The study of a config whose variants are valid: grids for every variant
+/// when any sweeps, `tuning_seeds` and `choose_by` checked.
+fn resolve_study(
+    config: &Config,
+    variants: &[VariantPlan],
+    grids: Vec<Option<Grid>>,
+) -> Result<Option<StudyPlan>, ConfigError> {
+    let mut problems = Vec::new();
+    let any = grids.iter().any(Option::is_some);
+    if !any {
+        for (key, set) in
+            [("tuning_seeds", config.tuning_seeds.is_some()), ("choose_by", config.choose_by.is_some())]
+        {
+            if set {
+                problems.push(Problem {
+                    path: key.into(),
+                    message: "applies to studies only: give a variant a `sweep` over a setting".into(),
+                });
+            }
+        }
+        return if problems.is_empty() { Ok(None) } else { Err(ConfigError { problems }) };
+    }
+    let tuning_seeds = config.tuning_seeds.unwrap_or(config.seeds);
+    if !(1..=MAX_SEEDS).contains(&tuning_seeds) {
+        problems.push(Problem {
+            path: "tuning_seeds".into(),
+            message: format!("must be in [1, {MAX_SEEDS}], got {tuning_seeds}"),
+        });
+    }
+    let grids: Vec<Grid> = grids
+        .into_iter()
+        .zip(variants)
+        .map(|(g, v)| {
+            g.unwrap_or_else(|| Grid {
+                axes: Vec::new(),
+                points: vec![GridPoint {
+                    index: Vec::new(),
+                    setup: v.setup.clone(),
+                    reward: v.reward.clone(),
+                }],
+            })
+        })
+        .collect();
+    let jobs = grids.iter().map(|g| g.points.len()).sum::<usize>() * tuning_seeds as usize
+        + variants.len() * config.seeds as usize;
+    if jobs > study::MAX_STUDY_JOBS {
+        problems.push(Problem {
+            path: "variants".into(),
+            message: format!(
+                "the study makes {jobs} jobs (grid points × tuning seeds, plus variants × seeds); at most {} are allowed",
+                study::MAX_STUDY_JOBS
+            ),
+        });
+    }
+    if problems.is_empty() {
+        Ok(Some(StudyPlan {
+            tuning_seeds,
+            choose_by: config.choose_by.unwrap_or_default(),
+            grids,
+            chosen: None,
+        }))
+    } else {
+        Err(ConfigError { problems })
+    }
 }
 
 /// Resolves the evaluation settings, the scored measure and the reference

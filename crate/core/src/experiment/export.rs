@@ -34,42 +34,66 @@ fn csv_num(x: f64) -> String {
     }
 }
 
-/// The tidy CSV of a results set. Metrics: `base_return` (the seed's binned
-/// training curve value, one row per bin where it has data), `eval_return`
-/// (one row per evaluation checkpoint, at its step), `final_return` (final
-/// training return), `final_eval_return` and `auc` (of the scored measure),
-/// one row per seed at the budget's last step.
+/// The tidy CSV of a results set, columns
+/// `variant,label,seed,step,metric,value,settings`. Metrics: `base_return`
+/// (the seed's binned training curve value, one row per bin where it has
+/// data), `eval_return` (one row per evaluation checkpoint, at its step),
+/// `final_return` (final training return), `final_eval_return` and `auc`
+/// (of the scored measure), one row per seed at the budget's last step. In a
+/// study the scored seeds are the fresh ones, numbered from 0 as in the
+/// summary, and `settings` holds the chosen point's settings
+/// (`path=value;path=value`); every tuning seed of every grid point adds a
+/// row of metric `tuning_auc` or `tuning_final` (the study's criterion),
+/// seed = its tuning seed index, with that point's settings. Outside a
+/// study `settings` is empty.
 pub fn tidy_csv(r: &Results) -> String {
-    let mut out = String::from("variant,label,seed,step,metric,value\n");
+    let mut out = String::from("variant,label,seed,step,metric,value,settings\n");
     let edges = r.bin_edges();
     let checkpoints = r.checkpoints();
+    let text = |m: &std::collections::BTreeMap<String, f64>| {
+        csv_field(&m.iter().map(|(k, v)| format!("{k}={v}")).collect::<Vec<_>>().join(";"))
+    };
+    let choice = r.choice();
     for (v, label) in r.labels().iter().enumerate() {
         let label = csv_field(label);
         let finals = r.final_per_seed(v);
         let evals = r.eval_final_per_seed(v);
         let aucs = r.auc_per_seed(v);
-        let mut row = |s: usize, step: u64, metric: &str, value: f64| {
-            out.push_str(&format!("{v},{label},{s},{step},{metric},{}\n", csv_num(value)));
+        let points = r.point_settings(v);
+        let chosen = choice.as_ref().and_then(|c| points.get(c[v])).map(text).unwrap_or_default();
+        let mut row = |s: usize, step: u64, metric: &str, value: f64, settings: &str| {
+            out.push_str(&format!("{v},{label},{s},{step},{metric},{},{settings}\n", csv_num(value)));
         };
         for s in 0..r.seeds() {
             for (b, value) in r.seed_curve(v, s).into_iter().enumerate() {
                 if !value.is_nan() {
-                    row(s, edges[b], "base_return", value);
+                    row(s, edges[b], "base_return", value, &chosen);
                 }
             }
             for (k, value) in r.seed_eval_curve(v, s).into_iter().enumerate() {
                 if !value.is_nan() {
-                    row(s, checkpoints[k], "eval_return", value);
+                    row(s, checkpoints[k], "eval_return", value, &chosen);
                 }
             }
             if let Some(f) = finals[s] {
-                row(s, r.steps(), "final_return", f);
+                row(s, r.steps(), "final_return", f, &chosen);
             }
             if let Some(f) = evals[s] {
-                row(s, r.steps(), "final_eval_return", f);
+                row(s, r.steps(), "final_eval_return", f, &chosen);
             }
             if let Some(a) = aucs[s] {
-                row(s, r.steps(), "auc", a);
+                row(s, r.steps(), "auc", a, &chosen);
+            }
+        }
+        if let Some(by) = r.choose_by() {
+            let metric = format!("tuning_{}", by.name());
+            for (p, vals) in r.tuning_values(v).iter().enumerate() {
+                let settings = text(&points[p]);
+                for (s, x) in vals.iter().enumerate() {
+                    if let Some(x) = x {
+                        row(s, r.steps(), &metric, *x, &settings);
+                    }
+                }
             }
         }
     }
@@ -232,12 +256,14 @@ mod tests {
         let r = run_all(&plan);
         let csv = tidy_csv(&r);
         let mut lines = csv.lines();
-        assert_eq!(lines.next(), Some("variant,label,seed,step,metric,value"));
+        assert_eq!(lines.next(), Some("variant,label,seed,step,metric,value,settings"));
         let mut n_final = 0;
         for line in lines {
-            // Labels here hold a comma or quotes, so split from the right.
-            let parts: Vec<&str> = line.rsplitn(5, ',').collect();
-            let (value, metric, step, seed) = (parts[0], parts[1], parts[2], parts[3]);
+            // Labels here hold a comma or quotes, so split from the right
+            // (the settings column is empty outside a study).
+            let parts: Vec<&str> = line.rsplitn(6, ',').collect();
+            assert_eq!(parts[0], "");
+            let (value, metric, step, seed) = (parts[1], parts[2], parts[3], parts[4]);
             let v: usize = line.split(',').next().unwrap().parse().unwrap();
             let seed: usize = seed.parse().unwrap();
             let value: f64 = value.parse().unwrap();

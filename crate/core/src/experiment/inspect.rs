@@ -324,9 +324,18 @@ pub fn rollout(
     Rollout { steps, last_obs: obs, end }
 }
 
+/// The learner setup a variant's scored jobs run: its own, or in a study
+/// with a choice the chosen grid point's.
+pub fn setup_of(plan: &Plan, variant: usize) -> &crate::learn::LearnerSetup {
+    match plan.study.as_ref().and_then(|s| s.chosen.as_ref()) {
+        Some(chosen) => plan.setup_of(variant, chosen[variant]),
+        None => &plan.variants[variant].setup,
+    }
+}
+
 /// The discount a variant's learner uses: its own, or the task's default.
 pub fn discount(plan: &Plan, variant: usize) -> f64 {
-    plan.variants[variant].setup.discount.unwrap_or(plan.spec.default_discount)
+    setup_of(plan, variant).discount.unwrap_or(plan.spec.default_discount)
 }
 
 /// Job (`variant`, `seed`) of the plan trained for `at` steps (fewer if it
@@ -343,7 +352,10 @@ pub fn train(plan: &Plan, variant: usize, seed: usize, at: u64) -> Result<Job, I
     if at > plan.config.steps {
         return Err(InspectError::Step { given: at, budget: plan.config.steps });
     }
-    let mut job = Job::new(plan, variant * seeds + seed);
+    // A study's scored job runs the variant's chosen point: choose first
+    // when the plan holds no choice yet.
+    let scored = crate::experiment::scored_plan(plan);
+    let mut job = Job::new(&scored, scored.fresh_job_id(variant, seed));
     job.advance(at);
     Ok(job)
 }
@@ -555,7 +567,7 @@ fn states_and_exact(
 
 /// The features a variant's actor is linear in (`None` for an MLP actor).
 fn actor_features(plan: &Plan, variant: usize) -> Option<FeatureConfig> {
-    let setup = &plan.variants[variant].setup;
+    let setup = setup_of(plan, variant);
     match setup.actor_or_default() {
         ApproxConfig::Linear { features } => {
             Some(features.unwrap_or_else(|| setup.features_or_default(&plan.spec)))
@@ -567,7 +579,7 @@ fn actor_features(plan: &Plan, variant: usize) -> Option<FeatureConfig> {
 fn actor_report(plan: &Plan, variant: usize, learner: &dyn Learner) -> Option<ActorReport> {
     let params = learner.actor_params()?;
     Some(ActorReport {
-        approximator: plan.variants[variant].setup.actor_or_default(),
+        approximator: setup_of(plan, variant).actor_or_default(),
         features: actor_features(plan, variant),
         weights: params.weights.iter().copied().map(finite).collect(),
         log_std: params.log_std.iter().copied().map(finite).collect(),
@@ -622,7 +634,7 @@ fn regulator(plan: &Plan, variant: usize, learner: &mut dyn Learner) -> Option<R
     };
     let slope = finite((mu(step) - mu(-step)) / (2.0 * step));
     let linear_poly1 = matches!(actor_features(plan, variant), Some(FeatureConfig::Poly { degree: 1 }));
-    let weights_gain = if plan.variants[variant].setup.family == Family::Deterministic && linear_poly1 {
+    let weights_gain = if setup_of(plan, variant).family == Family::Deterministic && linear_poly1 {
         learner.actor_params().and_then(|p| finite(-2.0 * p.weights[1] / (var.high - var.low)))
     } else {
         None
@@ -672,6 +684,7 @@ pub fn report(plan: &Plan, variant: usize, seed: usize, job: &mut Job) -> Inspec
 /// Re-trains job (`variant`, `seed`) to step `at` ([`train`]) and reports
 /// what it has learned ([`report`]).
 pub fn inspect(plan: &Plan, variant: usize, seed: usize, at: u64) -> Result<InspectReport, InspectError> {
-    let mut job = train(plan, variant, seed, at)?;
-    Ok(report(plan, variant, seed, &mut job))
+    let scored = crate::experiment::scored_plan(plan);
+    let mut job = train(&scored, variant, seed, at)?;
+    Ok(report(&scored, variant, seed, &mut job))
 }

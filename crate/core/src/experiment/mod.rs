@@ -22,16 +22,47 @@ pub mod inspect;
 pub mod probe;
 pub mod results;
 pub mod runner;
+pub mod study;
 
-pub use config::{parse, Config, ConfigError, Measure, Plan, Problem, VariantPlan, SCHEMA};
+pub use config::{parse, Config, ConfigError, JobSpec, Measure, Plan, Problem, VariantPlan, SCHEMA};
 pub use results::{CurvePoint, Results};
 pub use runner::{EpisodeRecord, EvalRecord, Job, JobStatus};
 
 /// Runs every job of a plan to the end and collects the results (the CLI's
-/// path; the page spreads the same jobs over workers).
+/// path; the page spreads the same jobs over workers). A study runs its
+/// tuning jobs first, chooses each variant's point from them
+/// ([`Results::choice`]), then runs the fresh jobs of the chosen points.
 pub fn run_all(plan: &Plan) -> Results {
     let mut results = Results::new(plan);
-    for id in 0..plan.job_count() {
+    let tuning = plan.tuning_jobs();
+    run_jobs(plan, 0..tuning, &mut results);
+    let fresh = match results.choice() {
+        Some(chosen) => plan.with_choice(&chosen).expect("the choice names a point of every variant"),
+        None => plan.clone(),
+    };
+    run_jobs(&fresh, tuning..plan.job_count(), &mut results);
+    results
+}
+
+/// The plan its scored jobs are built from: a study's plan with each
+/// variant's chosen point set (running its tuning jobs to choose, as
+/// [`run_all`] does, unless the plan already holds a choice); any other plan
+/// as it is. Inspecting or probing a scored job of a study needs it.
+pub fn scored_plan(plan: &Plan) -> Plan {
+    match &plan.study {
+        Some(s) if s.chosen.is_none() => {
+            let mut results = Results::new(plan);
+            run_jobs(plan, 0..plan.tuning_jobs(), &mut results);
+            let chosen = results.choice().expect("a study has a choice");
+            plan.with_choice(&chosen).expect("the choice names a point of every variant")
+        }
+        _ => plan.clone(),
+    }
+}
+
+/// Runs jobs `ids` of a plan to the end into `results`.
+pub fn run_jobs(plan: &Plan, ids: std::ops::Range<usize>, results: &mut Results) {
+    for id in ids {
         let mut job = Job::new(plan, id);
         job.advance(u64::MAX);
         for rec in job.take_new_episodes() {
@@ -45,5 +76,4 @@ pub fn run_all(plan: &Plan) -> Results {
             results.mark_failed(id, reason.clone());
         }
     }
-    results
 }

@@ -278,9 +278,14 @@ pub fn probe(plan: &Plan, variant: usize, seed: usize, s: &ProbeSettings) -> Res
     if spec.continuing {
         return Err(ProbeError::Unsupported("it needs episodes; this task is continuing".into()));
     }
-    let v = &plan.variants[variant];
-    let feats = match v.setup.actor_or_default() {
-        ApproxConfig::Linear { features } => features.unwrap_or_else(|| v.setup.features_or_default(spec)),
+    // A study's scored job runs the variant's chosen point.
+    let scored = crate::experiment::scored_plan(plan);
+    let plan = &scored;
+    let id = plan.fresh_job_id(variant, seed);
+    let point = plan.job_spec(id).expect("a scored plan builds its fresh jobs").point;
+    let (setup, reward) = (plan.setup_of(variant, point), plan.reward_of(variant, point));
+    let feats = match setup.actor_or_default() {
+        ApproxConfig::Linear { features } => features.unwrap_or_else(|| setup.features_or_default(spec)),
         _ => {
             return Err(ProbeError::Unsupported(
                 "it needs a linear actor; this variant's actor is an MLP".into(),
@@ -288,10 +293,9 @@ pub fn probe(plan: &Plan, variant: usize, seed: usize, s: &ProbeSettings) -> Res
         }
     };
     let features = build_features(&feats, spec).map_err(|e| ProbeError::Unsupported(e.to_string()))?;
-    let gamma = v.setup.shaping_discount(spec);
-    let mut shaper = Shaper::new(&v.reward, spec, gamma)
+    let gamma = setup.shaping_discount(spec);
+    let mut shaper = Shaper::new(reward, spec, gamma)
         .map_err(|_| ProbeError::Unsupported("the variant's reward does not compile".into()))?;
-    let id = variant * cfg.seeds as usize + seed;
     let mut checkpoints = s.checkpoints.clone();
     checkpoints.sort_unstable();
     checkpoints.dedup();
@@ -323,7 +327,7 @@ pub fn probe(plan: &Plan, variant: usize, seed: usize, s: &ProbeSettings) -> Res
         }));
     }
     Ok(json!({
-        "variant": v.label,
+        "variant": plan.variants[variant].label,
         "seed": seed,
         "estimates": s.estimates,
         "episodes": s.episodes,

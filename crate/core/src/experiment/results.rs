@@ -25,14 +25,18 @@
 //! named in every verdict about its variant. [`Results::summary`] is the
 //! report the CLI prints and the page shows, so both give the same numbers.
 
+use std::collections::BTreeMap;
+
 use serde::Serialize;
 
 use crate::experiment::compare::{compare_all, pairs, score, Comparison, Entry, Score};
 use crate::experiment::config::{Measure, Plan, SCHEMA};
 use crate::experiment::hacking::{trend, Hacking};
 use crate::experiment::runner::{bin_edges, bin_of, EpisodeRecord, EvalRecord};
+use crate::experiment::study::{self, Axis, ChooseBy, PointScores};
 use crate::learn::Family;
-use crate::report::{nums, Num};
+use crate::report::{nums, pair, Num, Pair};
+use crate::rng::{Purpose, Stream};
 use crate::stats;
 
 /// One point of a curve.
@@ -117,7 +121,21 @@ pub struct Results {
     evaluation: Option<EvaluationInfo>,
     score_on: Measure,
     reference: Option<usize>,
+    study: Option<StudyInfo>,
+    fresh_base: usize,
     jobs: Vec<JobResults>,
+}
+
+/// What the results need to know of a study: the grids' axes and points,
+/// where each variant's tuning jobs are, and how points are chosen.
+#[derive(Clone, Debug)]
+struct StudyInfo {
+    tuning_seeds: usize,
+    choose_by: ChooseBy,
+    axes: Vec<Vec<Axis>>,
+    points: Vec<Vec<Vec<usize>>>,
+    /// First tuning job id of each variant.
+    bases: Vec<usize>,
 }
 
 /// A curve as the summary reports it.
@@ -241,6 +259,82 @@ pub struct VariantReport {
     pub curve: CurveReport,
     /// The evaluation return's curve (null when evaluation is off).
     pub eval_curve: Option<CurveReport>,
+    /// The variant's part of the study (null outside a study).
+    pub study: Option<VariantStudy>,
+}
+
+/// One swept setting, as the summary reports it.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct AxisReport {
+    /// The setting's path.
+    pub path: String,
+    /// The values tried.
+    pub values: Vec<f64>,
+    /// The values were a log2 range (plot on a log axis).
+    pub log: bool,
+}
+
+/// One grid point of a variant's study.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct PointReport {
+    /// The point's settings, `{PATH: value}`.
+    pub settings: BTreeMap<String, f64>,
+    /// Mean of the criterion over the tuning seeds that have one.
+    pub mean: Num,
+    /// Its Student-t 95% interval.
+    pub ci95: Pair,
+    /// Tuning seeds with a value.
+    pub n: usize,
+    /// Tuning seeds that failed or have no value yet.
+    pub lost: usize,
+}
+
+/// The bootstrap of the maximum over a variant's grid.
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct MaxBootstrap {
+    /// Mean of the resampled maxima.
+    pub mean: Num,
+    /// Their 2.5% and 97.5% quantiles.
+    pub ci95: Pair,
+}
+
+/// A variant's part of a study (`variants[].study`).
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct VariantStudy {
+    /// The swept settings (empty for a variant without a sweep).
+    pub axes: Vec<AxisReport>,
+    /// Every grid point, the first axis varying slowest.
+    pub points: Vec<PointReport>,
+    /// The chosen point's settings (empty without a sweep; null before the
+    /// tuning stage has chosen).
+    pub chosen: Option<BTreeMap<String, f64>>,
+    /// The chosen point's index in `points`.
+    pub chosen_point: Option<usize>,
+    /// The criterion's mean over the chosen point's tuning seeds.
+    pub tuning_score: Num,
+    /// The criterion's mean over the fresh seeds (the variant's scored runs).
+    pub fresh_score: Num,
+    /// The bootstrap of the maximum from the tuning runs.
+    pub max_bootstrap: MaxBootstrap,
+    /// The edge warning, when the chosen point is at the edge of the grid.
+    pub warnings: Vec<String>,
+}
+
+/// The study as a whole (`study` at the top of the summary).
+#[derive(Clone, Debug, PartialEq, Serialize)]
+pub struct StudySummary {
+    /// Seeds every grid point ran on to choose.
+    pub tuning_seeds: usize,
+    /// Fresh seeds the chosen points are reported on.
+    pub fresh_seeds: usize,
+    /// `"auc"` or `"final"`.
+    pub choose_by: &'static str,
+    /// The measure the criterion reads (`score_on`).
+    pub measure: &'static str,
+    /// The two stages in words.
+    pub text: String,
+    /// Warnings about the study as a whole (unequal tuning budgets).
+    pub warnings: Vec<String>,
 }
 
 /// The summary (what `critbox run` prints).
@@ -270,6 +364,8 @@ pub struct Summary {
     pub reference: Option<String>,
     /// The variants.
     pub variants: Vec<VariantReport>,
+    /// The study (null outside a study).
+    pub study: Option<StudySummary>,
     /// The comparisons.
     pub comparisons: Vec<Comparison>,
 }
@@ -304,6 +400,14 @@ impl Results {
             evaluation,
             score_on: plan.score_on,
             reference: plan.reference,
+            study: plan.study.as_ref().map(|st| StudyInfo {
+                tuning_seeds: st.tuning_seeds as usize,
+                choose_by: st.choose_by,
+                axes: st.grids.iter().map(|g| g.axes.clone()).collect(),
+                points: st.grids.iter().map(|g| g.points.iter().map(|p| p.index.clone()).collect()).collect(),
+                bases: (0..st.grids.len()).map(|v| plan.tuning_job_ids(v, 0).start).collect(),
+            }),
+            fresh_base: plan.tuning_jobs(),
             jobs: vec![JobResults::default(); plan.job_count()],
         }
     }
@@ -383,8 +487,9 @@ impl Results {
         (&j.episodes, &j.evals, j.steps_done, j.failed.as_deref())
     }
 
+    /// The scored (fresh) job of a variant's seed.
     fn job(&self, variant: usize, seed: usize) -> &JobResults {
-        &self.jobs[variant * self.seeds + seed]
+        &self.jobs[self.fresh_base + variant * self.seeds + seed]
     }
 
     fn failed(&self, variant: usize, seed: usize) -> bool {
@@ -398,7 +503,10 @@ impl Results {
 
     /// Per-bin base (or, with `shaped`, shaped) training returns of one seed.
     pub fn seed_curve_of(&self, variant: usize, seed: usize, shaped: bool) -> Vec<f64> {
-        let j = self.job(variant, seed);
+        self.job_curve(self.job(variant, seed), shaped)
+    }
+
+    fn job_curve(&self, j: &JobResults, shaped: bool) -> Vec<f64> {
         let mut sums = vec![0.0; self.edges.len()];
         let mut counts = vec![0u32; self.edges.len()];
         for e in &j.episodes {
@@ -423,13 +531,25 @@ impl Results {
     /// Per-checkpoint evaluation returns of one seed (NaN where it has none;
     /// empty when evaluation is off).
     pub fn seed_eval_curve(&self, variant: usize, seed: usize) -> Vec<f64> {
+        self.job_eval_curve(self.job(variant, seed))
+    }
+
+    fn job_eval_curve(&self, j: &JobResults) -> Vec<f64> {
         let mut out = vec![f64::NAN; self.checkpoints().len()];
-        for r in &self.job(variant, seed).evals {
+        for r in &j.evals {
             if let Some(slot) = out.get_mut(r.checkpoint as usize) {
                 *slot = r.mean_return;
             }
         }
         out
+    }
+
+    /// The scored measure's curve of a job, and the steps of its points.
+    fn job_scored_curve(&self, j: &JobResults) -> (Vec<f64>, &[u64]) {
+        match self.score_on {
+            Measure::Training => (self.job_curve(j, false), &self.edges[..]),
+            Measure::Evaluation => (self.job_eval_curve(j), self.checkpoints()),
+        }
     }
 
     fn across_seeds(&self, per_seed: &[Vec<f64>], steps: &[u64]) -> Vec<CurvePoint> {
@@ -478,18 +598,17 @@ impl Results {
     /// episodes that ended in the last `final_fraction` of the budget. None
     /// for a failed seed, or when no episode ended there.
     pub fn final_per_seed(&self, variant: usize) -> Vec<Option<f64>> {
+        (0..self.seeds).map(|s| self.job_final(self.job(variant, s))).collect()
+    }
+
+    fn job_final(&self, job: &JobResults) -> Option<f64> {
+        if job.failed.is_some() {
+            return None;
+        }
         let from = self.steps as f64 * (1.0 - self.final_fraction);
-        (0..self.seeds)
-            .map(|s| {
-                let job = self.job(variant, s);
-                if job.failed.is_some() {
-                    return None;
-                }
-                let tail: Vec<f64> =
-                    job.episodes.iter().filter(|e| e.end_step as f64 > from).map(|e| e.base_return).collect();
-                (!tail.is_empty()).then(|| tail.iter().sum::<f64>() / tail.len() as f64)
-            })
-            .collect()
+        let tail: Vec<f64> =
+            job.episodes.iter().filter(|e| e.end_step as f64 > from).map(|e| e.base_return).collect();
+        (!tail.is_empty()).then(|| tail.iter().sum::<f64>() / tail.len() as f64)
     }
 
     /// Each seed's final evaluation return: the mean over the checkpoints in
@@ -497,49 +616,51 @@ impl Results {
     /// checkpoint). None for a failed seed, one that has not reached the
     /// last checkpoint, or when evaluation is off.
     pub fn eval_final_per_seed(&self, variant: usize) -> Vec<Option<f64>> {
+        (0..self.seeds).map(|s| self.job_eval_final(self.job(variant, s))).collect()
+    }
+
+    fn job_eval_final(&self, job: &JobResults) -> Option<f64> {
         let cps = self.checkpoints();
+        if cps.is_empty() || job.failed.is_some() {
+            return None;
+        }
         let from = self.steps as f64 * (1.0 - self.final_fraction);
-        (0..self.seeds)
-            .map(|s| {
-                if cps.is_empty() || self.failed(variant, s) {
-                    return None;
-                }
-                let c = self.seed_eval_curve(variant, s);
-                let tail: Vec<f64> = cps
-                    .iter()
-                    .zip(&c)
-                    .filter(|(&step, _)| step as f64 > from || step == self.steps)
-                    .map(|(_, &v)| v)
-                    .collect();
-                tail.iter().all(|v| v.is_finite()).then(|| tail.iter().sum::<f64>() / tail.len() as f64)
-            })
-            .collect()
+        let c = self.job_eval_curve(job);
+        let tail: Vec<f64> = cps
+            .iter()
+            .zip(&c)
+            .filter(|(&step, _)| step as f64 > from || step == self.steps)
+            .map(|(_, &v)| v)
+            .collect();
+        tail.iter().all(|v| v.is_finite()).then(|| tail.iter().sum::<f64>() / tail.len() as f64)
+    }
+
+    fn job_scored(&self, job: &JobResults) -> Option<f64> {
+        match self.score_on {
+            Measure::Training => self.job_final(job),
+            Measure::Evaluation => self.job_eval_final(job),
+        }
     }
 
     /// Each seed's final value on the scored measure.
     pub fn scored_per_seed(&self, variant: usize) -> Vec<Option<f64>> {
-        match self.score_on {
-            Measure::Training => self.final_per_seed(variant),
-            Measure::Evaluation => self.eval_final_per_seed(variant),
-        }
+        (0..self.seeds).map(|s| self.job_scored(self.job(variant, s))).collect()
     }
 
     /// The common range of the scored measure's curve points that every
     /// seed is averaged over for the area under the curve: on the training
-    /// curve from the first bin by which every seed of every variant that
-    /// has not failed has finished an episode, to the last bin; on the
-    /// evaluation curve every checkpoint. `(first, last)` indices.
+    /// curve from the first bin by which every job that has not failed (of
+    /// every variant, and in a study of both stages) has finished an
+    /// episode, to the last bin; on the evaluation curve every checkpoint.
+    /// `(first, last)` indices.
     fn auc_range(&self) -> (usize, usize) {
         match self.score_on {
             Measure::Evaluation => (0, self.checkpoints().len().saturating_sub(1)),
             Measure::Training => {
                 let mut first = 0;
-                for v in 0..self.labels.len() {
-                    for s in (0..self.seeds).filter(|&s| !self.failed(v, s)) {
-                        let c = self.seed_curve(v, s);
-                        if let Some(b) = c.iter().position(|x| x.is_finite()) {
-                            first = first.max(b);
-                        }
+                for j in self.jobs.iter().filter(|j| j.failed.is_none()) {
+                    if let Some(b) = self.job_curve(j, false).iter().position(|x| x.is_finite()) {
+                        first = first.max(b);
                     }
                 }
                 (first, self.edges.len() - 1)
@@ -547,24 +668,21 @@ impl Results {
         }
     }
 
+    fn job_auc(&self, job: &JobResults, (first, last): (usize, usize)) -> Option<f64> {
+        if job.failed.is_some() {
+            return None;
+        }
+        let (c, _) = self.job_scored_curve(job);
+        let part = c.get(first..=last)?;
+        part.iter().all(|v| v.is_finite()).then(|| part.iter().sum::<f64>() / part.len() as f64)
+    }
+
     /// Each seed's area under its scored curve: the mean of its values over
     /// the common range (equal-width bins, so this is the normalised area).
     /// None for a failed seed or one without data over the whole range.
     pub fn auc_per_seed(&self, variant: usize) -> Vec<Option<f64>> {
-        let (first, last) = self.auc_range();
-        (0..self.seeds)
-            .map(|s| {
-                if self.failed(variant, s) {
-                    return None;
-                }
-                let c = match self.score_on {
-                    Measure::Training => self.seed_curve(variant, s),
-                    Measure::Evaluation => self.seed_eval_curve(variant, s),
-                };
-                let part = c.get(first..=last)?;
-                part.iter().all(|v| v.is_finite()).then(|| part.iter().sum::<f64>() / part.len() as f64)
-            })
-            .collect()
+        let range = self.auc_range();
+        (0..self.seeds).map(|s| self.job_auc(self.job(variant, s), range)).collect()
     }
 
     /// Each seed's steps to reach `threshold` on the scored measure: the
@@ -573,13 +691,11 @@ impl Results {
     pub fn steps_to_threshold(&self, variant: usize, threshold: f64) -> Vec<Option<u64>> {
         (0..self.seeds)
             .map(|s| {
-                if self.failed(variant, s) {
+                let j = self.job(variant, s);
+                if j.failed.is_some() {
                     return None;
                 }
-                let (c, steps) = match self.score_on {
-                    Measure::Training => (self.seed_curve(variant, s), &self.edges[..]),
-                    Measure::Evaluation => (self.seed_eval_curve(variant, s), self.checkpoints()),
-                };
+                let (c, steps) = self.job_scored_curve(j);
                 c.iter().position(|&v| v >= threshold).map(|b| steps[b])
             })
             .collect()
@@ -616,6 +732,171 @@ impl Results {
                 self.job(variant, s).failed.as_ref().map(|r| FailedSeed { seed: s, reason: r.clone() })
             })
             .collect()
+    }
+
+    /// The criterion of each tuning seed at every grid point of a variant's
+    /// study (`[point][seed]`, None for a failed seed or one without a value;
+    /// empty outside a study).
+    pub fn tuning_values(&self, variant: usize) -> Vec<Vec<Option<f64>>> {
+        let Some(st) = &self.study else { return Vec::new() };
+        let range = self.auc_range();
+        (0..st.points[variant].len())
+            .map(|p| {
+                let base = st.bases[variant] + p * st.tuning_seeds;
+                (0..st.tuning_seeds)
+                    .map(|s| {
+                        let j = &self.jobs[base + s];
+                        match st.choose_by {
+                            ChooseBy::Auc => self.job_auc(j, range),
+                            ChooseBy::Final => self.job_scored(j),
+                        }
+                    })
+                    .collect()
+            })
+            .collect()
+    }
+
+    /// The criterion of every grid point of a variant's study over its
+    /// tuning seeds (empty outside a study).
+    pub fn tuning_scores(&self, variant: usize) -> Vec<PointScores> {
+        self.tuning_values(variant)
+            .into_iter()
+            .map(|vals| {
+                let values: Vec<f64> = vals.iter().flatten().copied().collect();
+                PointScores { lost: vals.len() - values.len(), values }
+            })
+            .collect()
+    }
+
+    /// The settings of a variant's grid points, `{PATH: value}` each (empty
+    /// outside a study).
+    pub fn point_settings(&self, variant: usize) -> Vec<BTreeMap<String, f64>> {
+        let Some(st) = &self.study else { return Vec::new() };
+        (0..st.points[variant].len()).map(|p| self.settings_of(variant, p)).collect()
+    }
+
+    /// The study's criterion name (`"auc"` or `"final"`), outside a study `None`.
+    pub fn choose_by(&self) -> Option<ChooseBy> {
+        self.study.as_ref().map(|s| s.choose_by)
+    }
+
+    /// Each variant's chosen grid point from the tuning runs
+    /// ([`study::choose`]); a variant none of whose tuning seeds has a value
+    /// (every one failed) runs its first point, and its study says so by
+    /// having no `chosen`. `None` outside a study. Call it once the tuning
+    /// jobs have finished ([`Results::tuning_finished`]).
+    pub fn choice(&self) -> Option<Vec<usize>> {
+        self.study.as_ref()?;
+        Some((0..self.labels.len()).map(|v| study::choose(&self.tuning_scores(v)).unwrap_or(0)).collect())
+    }
+
+    /// Whether every tuning job has finished (done or failed).
+    pub fn tuning_finished(&self) -> bool {
+        self.jobs[..self.fresh_base].iter().all(|j| j.failed.is_some() || j.steps_done >= self.steps)
+    }
+
+    fn settings_of(&self, variant: usize, point: usize) -> BTreeMap<String, f64> {
+        let st = self.study.as_ref().expect("a study");
+        st.axes[variant]
+            .iter()
+            .zip(&st.points[variant][point])
+            .map(|(a, &k)| (a.path.clone(), a.values[k]))
+            .collect()
+    }
+
+    fn variant_study(&self, v: usize) -> VariantStudy {
+        let st = self.study.as_ref().expect("a study");
+        let scores = self.tuning_scores(v);
+        let chosen = study::choose(&scores);
+        let points = scores
+            .iter()
+            .enumerate()
+            .map(|(p, sc)| {
+                let sum = stats::summarize(&sc.values);
+                PointReport {
+                    settings: self.settings_of(v, p),
+                    mean: Num(if sc.values.is_empty() { f64::NAN } else { sum.mean }),
+                    ci95: pair(sum.ci95),
+                    n: sc.values.len(),
+                    lost: sc.lost,
+                }
+            })
+            .collect();
+        let fresh: Vec<f64> = match st.choose_by {
+            ChooseBy::Auc => self.auc_per_seed(v),
+            ChooseBy::Final => self.scored_per_seed(v),
+        }
+        .into_iter()
+        .flatten()
+        .collect();
+        let mut rng = Stream::derive(self.master_seed, Purpose::Stats, 400 + v as u64, 0);
+        let values: Vec<Vec<f64>> = scores.iter().map(|s| s.values.clone()).collect();
+        let boot = study::max_bootstrap(&values, study::MAX_RESAMPLES, &mut rng);
+        let mut warnings = Vec::new();
+        if let Some(c) = chosen {
+            if let Some(w) = study::edge_warning(&st.axes[v], &st.points[v][c]) {
+                warnings.push(w);
+            }
+        }
+        VariantStudy {
+            axes: st.axes[v]
+                .iter()
+                .map(|a| AxisReport { path: a.path.clone(), values: a.values.clone(), log: a.log })
+                .collect(),
+            points,
+            chosen: chosen.map(|c| self.settings_of(v, c)),
+            chosen_point: chosen,
+            tuning_score: Num(chosen.map_or(f64::NAN, |c| {
+                if scores[c].values.is_empty() {
+                    f64::NAN
+                } else {
+                    stats::mean(&scores[c].values)
+                }
+            })),
+            fresh_score: Num(if fresh.is_empty() { f64::NAN } else { stats::mean(&fresh) }),
+            max_bootstrap: MaxBootstrap {
+                mean: Num(boot.map_or(f64::NAN, |b| b.0)),
+                ci95: pair(boot.map(|b| b.1)),
+            },
+            warnings,
+        }
+    }
+
+    fn study_summary(&self) -> Option<StudySummary> {
+        let st = self.study.as_ref()?;
+        let sizes: Vec<usize> = st.points.iter().map(Vec::len).collect();
+        let mut warnings = Vec::new();
+        if sizes.iter().any(|&n| n != sizes[0]) {
+            let each: Vec<String> = self
+                .labels
+                .iter()
+                .zip(&sizes)
+                .map(|(l, n)| format!("{l}: {n} point{}", if *n == 1 { "" } else { "s" }))
+                .collect();
+            warnings.push(format!(
+                "the variants got grids of different sizes ({}): unequal tuning budgets favour the variant with more points",
+                each.join(", ")
+            ));
+        }
+        let criterion = match st.choose_by {
+            ChooseBy::Auc => "area under the curve",
+            ChooseBy::Final => "final value",
+        };
+        Some(StudySummary {
+            tuning_seeds: st.tuning_seeds,
+            fresh_seeds: self.seeds,
+            choose_by: st.choose_by.name(),
+            measure: self.score_on.name(),
+            text: format!(
+                "each variant's point chosen by its {criterion} ({} measure) on {} tuning seed{}, reported on {} fresh seed{}",
+                self.score_on.name(),
+                st.tuning_seeds,
+                if st.tuning_seeds == 1 { "" } else { "s" },
+                self.seeds,
+                if self.seeds == 1 { "" } else { "s" }
+            ),
+            warnings,
+        })
     }
 
     /// The comparisons of the scored measure's final values.
@@ -694,6 +975,7 @@ impl Results {
             },
             curve: CurveReport::of(&self.curve(v)),
             eval_curve: self.evaluation.as_ref().map(|_| CurveReport::of(&self.eval_curve(v))),
+            study: self.study.as_ref().map(|_| self.variant_study(v)),
         }
     }
 
@@ -712,6 +994,7 @@ impl Results {
             correction: "holm",
             reference: self.reference.map(|r| self.labels[r].clone()),
             variants: (0..self.labels.len()).map(|v| self.variant_report(v)).collect(),
+            study: self.study_summary(),
             comparisons: self.comparisons(),
         }
     }

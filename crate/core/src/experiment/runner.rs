@@ -1,10 +1,11 @@
 //! The deterministic job runner.
 //!
-//! A [`Job`] is one (variant, seed) pair of a plan. It owns its task, its
-//! learner and two random streams: the task stream depends only on the
-//! master seed and the seed index, so every variant sees the same start
-//! states and transition noise for the same seed index (common random
-//! numbers); the agent stream depends on the variant too. [`Job::advance`]
+//! A [`Job`] is one (variant, grid point, seed index) of a plan. It owns its
+//! task, its learner and two random streams: the task stream depends only on
+//! the master seed and the seed index, so every variant's first episode of a
+//! seed index starts from the same state (later episodes fall out of step as
+//! their lengths differ); the agent stream depends on the variant and the
+//! grid point too. [`Job::advance`]
 //! can be called with any chunk size: the sequence of steps, and so every
 //! number, is the same. A learner that produces a non-finite number stops its
 //! own job with the reason; other jobs are unaffected. The reward the
@@ -13,7 +14,7 @@
 //! job the same way. Both the base and the shaped return are recorded.
 
 use crate::approx::Obs;
-use crate::experiment::config::Plan;
+use crate::experiment::config::{JobSpec, Plan};
 use crate::learn::{build_learner_with, Learner, StepDiag, Transition};
 use crate::reward::{Shaper, StepInput};
 use crate::rng::{Purpose, Stream};
@@ -175,17 +176,24 @@ pub fn bin_of(edges: &[u64], step: u64) -> usize {
 }
 
 impl Job {
-    /// Job `id` of a plan (`id = variant * seeds + seed`).
+    /// Job `id` of a plan (see [`Plan::job_spec`]: outside a study `id =
+    /// variant * seeds + seed`). Panics for an id the plan cannot build.
     pub fn new(plan: &Plan, id: usize) -> Job {
-        let (variant, seed) = plan.job_coords(id);
+        let Some(JobSpec { variant, point, seed, .. }) = plan.job_spec(id) else {
+            panic!("job {id}: out of range, or a fresh job of a study built before its tuning choice (Plan::with_choice)")
+        };
         let cfg = &plan.config;
         let task = plan.make_task();
         let spec = task.spec().clone();
-        let mut agent_rng = Stream::derive(cfg.master_seed, Purpose::Agent, variant as u64, seed as u64);
-        let learner = build_learner_with(&plan.variants[variant].setup, &spec, &mut agent_rng)
-            .expect("a validated plan's learner builds");
-        let gamma = plan.variants[variant].setup.shaping_discount(&spec);
-        let shaper = Shaper::new(&plan.variants[variant].reward, &spec, gamma)
+        // Keyed by (variant, grid point, seed index); point 0 is every
+        // variant's only point outside a study, so the key is then the variant.
+        let key = variant as u64 | (point as u64) << 32;
+        let mut agent_rng = Stream::derive(cfg.master_seed, Purpose::Agent, key, seed as u64);
+        let setup = plan.setup_of(variant, point);
+        let learner =
+            build_learner_with(setup, &spec, &mut agent_rng).expect("a validated plan's learner builds");
+        let gamma = setup.shaping_discount(&spec);
+        let shaper = Shaper::new(plan.reward_of(variant, point), &spec, gamma)
             .expect("a validated plan's reward compiles");
         let n_obs = spec.state_vars.len();
         let edges = bin_edges(cfg.steps, cfg.curve_points);
