@@ -261,6 +261,16 @@ fn check_config(text: &str, case: &str) -> bool {
         Ok(plan) => {
             let n = plan.job_count();
             assert!(n >= 1, "{case}: a valid plan with no jobs");
+            // A study's fresh jobs exist once its tuning stage has chosen;
+            // choose each variant's last grid point (the farthest from the
+            // first job's).
+            let plan = match &plan.study {
+                Some(s) => {
+                    let last: Vec<usize> = s.grids.iter().map(|g| g.points.len() - 1).collect();
+                    plan.with_choice(&last).unwrap_or_else(|e| panic!("{case}: {e}"))
+                }
+                None => plan,
+            };
             for id in [0, n - 1] {
                 let mut job = Job::new(&plan, id);
                 job.advance(150);
