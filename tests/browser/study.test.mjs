@@ -27,6 +27,10 @@ test('the study editor sweeps a setting; a study trains in two stages and its se
   await page.selectOption('[data-sweep="0"][data-sweep-part="mode"]', 'list');
   await page.fill('[data-sweep="0"][data-sweep-part="values"]', '0.05, 0.1, 0.2');
   await page.waitForFunction(() => JSON.stringify(window.__critbox.state.config.variants[0].sweep.actor_step) === '[0.05,0.1,0.2]');
+  // The study editor's controls have label elements too.
+  const unlabelled = await page.evaluate(() => [...document.querySelectorAll('.study input, .study select')]
+    .filter((e) => !e.labels || e.labels.length === 0).map((e) => e.id || e.outerHTML.slice(0, 80)));
+  assert.deepEqual(unlabelled, []);
   await page.fill('#seeds', '3');
   await page.fill('#tuning-seeds', '2');
   await page.fill('#steps', '3000');

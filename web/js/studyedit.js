@@ -116,14 +116,19 @@ export function studySection(doc, variant, i, env, setup, reward) {
       type: 'button', className: 'quiet small drop', text: '×', dataset: { sweepDrop: String(i), sweepKey: key },
       'aria-label': `Stop sweeping ${labelOf(key)} in variant ${i + 1}`,
     }));
+    // Every control gets a label element (read by screen readers, not shown).
+    for (const c of row.querySelectorAll('select[aria-label], input[aria-label]')) {
+      c.before(el(doc, 'label', { for: c.id, className: 'visually-hidden', text: c.getAttribute('aria-label') }));
+      c.removeAttribute('aria-label');
+    }
     box.append(row);
   }
   const count = Object.keys(sweep).length;
   if (count < MAX_SWEPT) {
-    const add = el(doc, 'select', { id: `v${i}-sweep-add`, dataset: { sweepAdd: String(i) }, 'aria-label': `Sweep a setting of variant ${i + 1}` });
+    const add = el(doc, 'select', { id: `v${i}-sweep-add`, dataset: { sweepAdd: String(i) } });
     add.append(el(doc, 'option', { value: '', text: count ? 'Sweep a second setting…' : 'Sweep a setting (a study)…' }));
     for (const c of choices) if (!(c.key in sweep)) add.append(el(doc, 'option', { value: c.key, text: c.label }));
-    box.append(add);
+    box.append(el(doc, 'label', { for: `v${i}-sweep-add`, className: 'visually-hidden', text: `Sweep a setting of variant ${i + 1}` }), add);
   }
   if (count) {
     box.append(el(doc, 'p', {
