@@ -106,6 +106,22 @@ ensure_rust_components() {
     rustup component add "${need[@]}" || die "rustup component add ${need[*]} failed"
 }
 
+# The nightly toolchain (minimal profile) and cargo-fuzz, for scripts/fuzz.
+# cargo-fuzz is built from crates.io at the version pinned here.
+CARGO_FUZZ_VERSION=0.13.2
+ensure_fuzz_tools() {
+    ensure_cargo
+    command -v rustup >/dev/null 2>&1 || die "fuzzing needs rustup (for the nightly toolchain), which is not installed"
+    if ! rustup run nightly rustc --version >/dev/null 2>&1; then
+        say "rustup toolchain install nightly --profile minimal"
+        rustup toolchain install nightly --profile minimal || die "installing the nightly toolchain failed"
+    fi
+    if ! cargo fuzz --version 2>/dev/null | grep -q "$CARGO_FUZZ_VERSION"; then
+        say "cargo install cargo-fuzz --version $CARGO_FUZZ_VERSION"
+        cargo install cargo-fuzz --version "$CARGO_FUZZ_VERSION" || die "cargo install cargo-fuzz failed"
+    fi
+}
+
 # The standard library for wasm32-unknown-unknown.
 ensure_wasm_target() {
     ensure_cargo

@@ -7,150 +7,15 @@
 
 use std::collections::BTreeMap;
 
+#[path = "common/formula_ref.rs"]
+mod formula_ref;
+use formula_ref::{reference, same, spec, Env, GAMMA, K};
+
 use critbox_core::reward::parse::{parse, BinOp, Expr, ExprKind, UnOp, MAX_FORMULA_BYTES};
 use critbox_core::reward::print::pretty;
 use critbox_core::reward::{check_report, Mode, RewardConfig, Shaper, StepInput};
 use critbox_core::rng::Stream;
-use critbox_core::task::{Action, ActionSpace, StateVar, TaskSpec};
-
-fn spec() -> TaskSpec {
-    TaskSpec {
-        kind: "grid",
-        state_vars: vec![
-            StateVar { name: "row".into(), low: 0.0, high: 6.0 },
-            StateVar { name: "col".into(), low: 0.0, high: 11.0 },
-        ],
-        actions: ActionSpace::Discrete(vec!["north".into(), "east".into(), "south".into(), "west".into()]),
-        n_states: Some(40),
-        default_discount: 0.99,
-        max_steps: 200,
-        continuing: false,
-    }
-}
-
-const GAMMA: f64 = 0.9;
-const K: f64 = 2.5;
-
-/// The inputs of one step, by name, for the reference.
-struct Env {
-    row: f64,
-    col: f64,
-    row2: f64,
-    col2: f64,
-    action: usize,
-    base: f64,
-    terminal: bool,
-    t: u64,
-}
-
-impl Env {
-    fn random(rng: &mut Stream) -> Env {
-        let pick = |rng: &mut Stream| match rng.below(4) {
-            0 => 0.0,
-            1 => rng.below(7) as f64,
-            2 => rng.uniform_in(-3.0, 3.0),
-            _ => rng.uniform_in(-1e3, 1e3),
-        };
-        Env {
-            row: pick(rng),
-            col: pick(rng),
-            row2: pick(rng),
-            col2: pick(rng),
-            action: rng.below(4),
-            base: pick(rng),
-            terminal: rng.below(2) == 1,
-            t: rng.below(300) as u64,
-        }
-    }
-
-    fn name(&self, n: &str) -> f64 {
-        match n {
-            "row" => self.row,
-            "col" => self.col,
-            "action" => self.action as f64,
-            "base" => self.base,
-            "terminal" => f64::from(u8::from(self.terminal)),
-            "t" => self.t as f64,
-            "gamma" => GAMMA,
-            "pi" => std::f64::consts::PI,
-            "k" => K,
-            "north" => 0.0,
-            "east" => 1.0,
-            "south" => 2.0,
-            "west" => 3.0,
-            other => panic!("no name {other}"),
-        }
-    }
-}
-
-fn truthy(x: f64) -> bool {
-    !(x == 0.0 || x.is_nan())
-}
-
-fn b(x: bool) -> f64 {
-    if x {
-        1.0
-    } else {
-        0.0
-    }
-}
-
-/// The reference: the documented semantics, evaluated directly on the tree
-/// (common practice for checking a compiler, no source).
-fn reference(e: &Expr, env: &Env) -> f64 {
-    match &e.kind {
-        ExprKind::Num(v) => *v,
-        ExprKind::Name(n) => env.name(n),
-        ExprKind::Next(n) => match n.as_str() {
-            "row" => env.row2,
-            "col" => env.col2,
-            other => panic!("no next {other}"),
-        },
-        ExprKind::Unary(UnOp::Neg, a) => -reference(a, env),
-        ExprKind::Unary(UnOp::Not, a) => b(!truthy(reference(a, env))),
-        ExprKind::Binary(op, l, r) => {
-            let (x, y) = (reference(l, env), reference(r, env));
-            match op {
-                BinOp::Add => x + y,
-                BinOp::Sub => x - y,
-                BinOp::Mul => x * y,
-                BinOp::Div => x / y,
-                BinOp::Pow => libm::pow(x, y),
-                BinOp::Lt => b(x < y),
-                BinOp::Le => b(x <= y),
-                BinOp::Gt => b(x > y),
-                BinOp::Ge => b(x >= y),
-                BinOp::Eq => b(x == y),
-                BinOp::Ne => b(x != y),
-                BinOp::And => b(truthy(x) && truthy(y)),
-                BinOp::Or => b(truthy(x) || truthy(y)),
-            }
-        }
-        ExprKind::Call(f, args) => {
-            let xs: Vec<f64> = args.iter().map(|a| reference(a, env)).collect();
-            match f.as_str() {
-                "abs" => xs[0].abs(),
-                "sqrt" => xs[0].sqrt(),
-                "exp" => libm::exp(xs[0]),
-                "log" => libm::log(xs[0]),
-                "sin" => libm::sin(xs[0]),
-                "cos" => libm::cos(xs[0]),
-                "tanh" => libm::tanh(xs[0]),
-                "min" => xs[1..].iter().fold(xs[0], |m, &x| m.min(x)),
-                "max" => xs[1..].iter().fold(xs[0], |m, &x| m.max(x)),
-                "clamp" => xs[0].max(xs[1]).min(xs[2]),
-                other => panic!("no function {other}"),
-            }
-        }
-        ExprKind::If(c, y, n) => {
-            if truthy(reference(c, env)) {
-                reference(y, env)
-            } else {
-                reference(n, env)
-            }
-        }
-    }
-}
+use critbox_core::task::{Action, TaskSpec};
 
 const NAMES: [&str; 13] =
     ["row", "col", "action", "base", "terminal", "t", "gamma", "pi", "k", "north", "east", "south", "west"];
@@ -227,10 +92,6 @@ fn random_expr(rng: &mut Stream, depth: u32) -> Expr {
 
 fn reward(mode: Mode, text: &str) -> RewardConfig {
     RewardConfig { mode, formula: text.into(), constants: BTreeMap::from([("k".to_string(), K)]) }
-}
-
-fn same(a: f64, b: f64) -> bool {
-    a.to_bits() == b.to_bits() || (a.is_nan() && b.is_nan())
 }
 
 #[test]
