@@ -64,7 +64,15 @@ export function createVarianceView(app) {
     try {
       result = await probe.variance(run.configJson, variant, seed, checkpoints, k.value, m.value, chosenOf(app.state.summary));
       label = `${run.labels[variant]}, seed ${seed}`;
-      ui.status.textContent = `${label}: ${k.value} estimates of ${m.value} episodes each per baseline and checkpoint.`;
+      // Each trace is itself estimated from K gradient estimates. For normal
+      // estimates the relative standard error of a sample variance is
+      // √(2/(K−1)) (a standard result for normal samples, from memory; a covariance trace is a sum of
+      // variances, so this is its worst case, reached when one direction
+      // dominates): differences smaller than about twice that are not resolved.
+      const rse = Math.sqrt(2 / (k.value - 1));
+      ui.status.textContent = `${label}: ${k.value} estimates of ${m.value} episodes each per baseline and checkpoint. `
+        + `Each trace is itself an estimate, with a relative standard error of up to ${Math.round(100 * rse)}% at this K `
+        + `(for normal gradient estimates): baselines whose traces differ by less than about ${Math.round(200 * rse)}% are not told apart; raise K to resolve smaller differences.`;
       ui.fig.hidden = false;
       renderTable();
       draw();
