@@ -6,7 +6,7 @@
 import { test, before, after } from 'node:test';
 import assert from 'node:assert/strict';
 import { execFile } from 'node:child_process';
-import { mkdtemp, writeFile } from 'node:fs/promises';
+import { mkdir, mkdtemp, writeFile } from 'node:fs/promises';
 import os from 'node:os';
 import path from 'node:path';
 import { promisify } from 'node:util';
@@ -22,10 +22,13 @@ async function load(page, preset) {
   await page.waitForFunction((p) => window.__critbox.state.presetFile === p, preset);
 }
 
+/** The whole diagnostics chart (taller than the window) as a PNG in the test-output folder. */
 async function shootDiagnostics(page, name) {
   await page.locator('#diagnostics-box').scrollIntoViewIfNeeded();
   await nextFrame(page);
-  await page.locator('#diagnostics-box').screenshot({ path: path.join(outDir, name) });
+  const url = await page.evaluate(() => document.getElementById('diagnostics').toDataURL('image/png'));
+  await mkdir(outDir, { recursive: true });
+  await writeFile(path.join(outDir, name), Buffer.from(url.slice(url.indexOf(',') + 1), 'base64'));
 }
 
 test('off-policy preset: weights diagnostics drawn, toggles work, page = CLI', async () => {
