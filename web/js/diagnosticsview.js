@@ -34,6 +34,35 @@ const AXIS_H = 34;
 const fin = (x) => (typeof x === 'number' && Number.isFinite(x) ? x : null);
 
 /**
+ * Where the legend's entries go (12px font set on ctx): rows of 20 px from
+ * the chart's left edge, wrapped at its width. Returns {items: [{index,
+ * label, x, y}], height}.
+ */
+function legendLayout(ctx, panels, width) {
+  const seen = new Map();
+  for (const p of panels) for (const s of p.series) seen.set(s.index, s.label);
+  const items = [];
+  let x = 70;
+  let row = 0;
+  for (const [index, label] of [...seen].sort((a, b) => a[0] - b[0])) {
+    const w = 32 + ctx.measureText(label).width + 16;
+    if (x > 70 && x + w > width - 8) { row += 1; x = 70; }
+    items.push({ index, label, x, y: 13 + 20 * row });
+    x += w;
+  }
+  return { items, height: LEGEND_H + 20 * row };
+}
+
+/** The CSS height the chart of `panels` needs at `width`. */
+export function diagnosticsHeight(ctx, panels, width, font) {
+  ctx.save();
+  ctx.font = `12px ${font || 'sans-serif'}`;
+  const h = legendLayout(ctx, panels, width).height;
+  ctx.restore();
+  return h + Math.max(1, panels.length) * PANEL_H + AXIS_H;
+}
+
+/**
  * Draw the diagnostics as stacked panels sharing the x axis.
  * @param {object} data {xMax, panels: [{title, log, series: [{index, label, curve: {step, mean, lo, hi}}]}], labels}
  * @param {object} options {width, height, dpr, colours, palette, font}
@@ -54,18 +83,14 @@ export function drawDiagnostics(ctx, data, options) {
   const w = Math.max(10, width - left - right);
   const sx = (x) => left + (x / xMax) * w;
   const out = [];
-  // Legend: every variant that appears in some panel.
-  const seen = new Map();
-  for (const p of data.panels) for (const s of p.series) seen.set(s.index, s.label);
-  let lx = left;
+  // Legend: every variant that appears in some panel, wrapped into rows.
+  const legend = legendLayout(ctx, data.panels, width);
   ctx.textAlign = 'left';
   ctx.textBaseline = 'middle';
-  for (const [i, label] of [...seen].sort((a, b) => a[0] - b[0])) {
-    const style = seriesStyle(i, options.palette);
-    drawSample(ctx, lx, 13, 26, style);
+  for (const { index, label, x, y } of legend.items) {
+    drawSample(ctx, x, y, 26, seriesStyle(index, options.palette));
     ctx.fillStyle = colours.ink;
-    ctx.fillText(label, lx + 32, 13);
-    lx += 32 + ctx.measureText(label).width + 16;
+    ctx.fillText(label, x + 32, y);
   }
   if (data.panels.length === 0) {
     ctx.fillStyle = colours.muted;
@@ -73,7 +98,7 @@ export function drawDiagnostics(ctx, data, options) {
     ctx.fillText(data.note || 'No diagnostics to show.', left + w / 2, height / 2);
   }
   data.panels.forEach((panel, k) => {
-    const top = LEGEND_H + k * PANEL_H + 16;
+    const top = legend.height + k * PANEL_H + 16;
     const h = PANEL_H - 30;
     const vals = [];
     for (const s of panel.series) {
@@ -151,7 +176,7 @@ export function drawDiagnostics(ctx, data, options) {
     out.push({ title: panel.title, log: panel.log, y: [lo, hi], series });
   });
   // The shared step axis under the last panel.
-  const bottom = LEGEND_H + data.panels.length * PANEL_H;
+  const bottom = legend.height + data.panels.length * PANEL_H;
   ctx.fillStyle = colours.muted;
   ctx.textAlign = 'center';
   ctx.textBaseline = 'top';
@@ -228,7 +253,7 @@ export function createDiagnosticsView(app) {
       const panels = diagnosticPanels(state.summary, shown);
       const width = Math.floor(ui.box.clientWidth);
       if (width < 10) return;
-      const height = LEGEND_H + Math.max(1, panels.length) * PANEL_H + AXIS_H;
+      const height = diagnosticsHeight(ui.canvas.getContext('2d'), panels, width, app.font());
       ui.box.style.height = `${height}px`;
       const dpr = window.devicePixelRatio || 1;
       sizeCanvas(ui.canvas, width, height, dpr);
