@@ -50,17 +50,19 @@ function runLikeThePage(json, workers, chunk) {
   stage(all.slice(plan.tuning_jobs), chosen);
   const summary = JSON.parse(results.summaryJson());
   const file = JSON.parse(results.saveJson());
+  const csv = results.tidyCsv();
   results.free();
-  return { summary, file };
+  return { summary, file, csv };
 }
 
-/** `critbox run CONFIG --save FILE`: {summary, file}. */
+/** `critbox run CONFIG --save FILE --csv CSV`: {summary, file, csv}. */
 function runNative(configPath) {
   const dir = fs.mkdtempSync(path.join(os.tmpdir(), 'critbox-save-'));
   try {
     const save = path.join(dir, 'results.json');
-    const summary = JSON.parse(execFileSync(cli, ['run', configPath, '--save', save], { encoding: 'utf8', maxBuffer: 1 << 26 }));
-    return { summary, file: JSON.parse(fs.readFileSync(save, 'utf8')) };
+    const csv = path.join(dir, 'tidy.csv');
+    const summary = JSON.parse(execFileSync(cli, ['run', configPath, '--save', save, '--csv', csv], { encoding: 'utf8', maxBuffer: 1 << 26 }));
+    return { summary, file: JSON.parse(fs.readFileSync(save, 'utf8')), csv: fs.readFileSync(csv, 'utf8') };
   } finally {
     fs.rmSync(dir, { recursive: true, force: true });
   }
@@ -76,7 +78,17 @@ for (const file of presets) {
     const wasm = runLikeThePage(json, 2, 1500);
     assert.deepEqual(wasm.summary, native.summary);
     assert.deepEqual(wasm.file, native.file);
+    assert.equal(wasm.csv, native.csv);
     assert.ok(native.summary.variants.length >= 1);
+    // The diagnostics reach both outputs: every variant has its update norm
+    // and entropy (or σ) curves, off-policy variants their weights' curves,
+    // with the same names as CSV metrics.
+    for (const v of native.summary.variants) {
+      const d = v.diagnostics;
+      assert.ok(d.actor_norm && (d.entropy || d.sd), `${v.label}: ${Object.keys(d)}`);
+      assert.equal(Boolean(d.ess_fraction && d.capped_share), v.family === 'off_policy', v.label);
+      for (const key of Object.keys(d)) assert.match(native.csv, new RegExp(`,${key},`));
+    }
   });
 }
 

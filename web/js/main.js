@@ -14,6 +14,7 @@ import { createMessages } from './messages.js';
 import { createRunBar } from './runbar.js';
 import { createCurvesView } from './curvesview.js';
 import { createTablesView } from './tables.js';
+import { createDiagnosticsView } from './diagnosticsview.js';
 import { createFileBar } from './filebar.js';
 import { createInspectView } from './inspectview.js';
 import { createSensitivityView } from './sensitivityview.js';
@@ -57,6 +58,7 @@ app.experiment = createExperiment(app);
 const runBar = createRunBar(app);
 const curves = createCurvesView(app);
 const tables = createTablesView(app);
+const diagnostics = createDiagnosticsView(app);
 const fileBar = createFileBar(app);
 const inspector = createInspectView(app);
 const variance = createVarianceView(app);
@@ -77,6 +79,7 @@ function changed(what) {
   curves.schedule();
   if (what === 'results' || what === 'run') {
     tables.render();
+    diagnostics.render();
     inspector.refresh();
     variance.refresh();
     sensitivity.render();
@@ -86,6 +89,7 @@ function changed(what) {
 /** The experiment was validated again (after an edit or a new config). */
 function checked() {
   runBar.render();
+  diagnostics.renderExpect();
   curves.schedule();
 }
 
@@ -132,6 +136,7 @@ darkScheme.addEventListener('change', () => {
   inspector.draw();
   variance.draw();
   sensitivity.draw();
+  diagnostics.draw();
   tables.render();
 });
 

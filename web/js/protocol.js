@@ -24,6 +24,8 @@
 export const RECORDS = Object.freeze({
   episode: Object.freeze(['job', 'end_step', 'base_return', 'shaped_return', 'length', 'truncated']),
   evaluation: Object.freeze(['job', 'checkpoint', 'step', 'mean_return', 'episodes']),
+  diagnostic: Object.freeze(['job', 'bin', 'count', 'td', 'abs_td', 'entropy', 'actor_norm', 'critic_norm',
+    'weights', 'weight_sum', 'weight_sq', 'weight_max', 'capped']),
 });
 
 /** The record kind names, in a fixed order. */

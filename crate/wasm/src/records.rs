@@ -13,6 +13,11 @@
 //! - `evaluation`, stride 5: job id, checkpoint (index in the plan's list),
 //!   step (job steps done when it was taken), mean return of its
 //!   evaluation episodes, episodes run. None when the plan does not evaluate.
+//! - `diagnostic`, stride 13: job id, curve bin, then that bin's step
+//!   diagnostic sums so far (steps counted, Σ TD error, Σ |TD error|,
+//!   Σ entropy, Σ actor update norm, Σ critic update norm, weighted steps,
+//!   Σ ρ, Σ ρ², largest ρ, capped weights). A bin is sent again while it
+//!   fills; the later record replaces the earlier.
 //!
 //! The page's `web/js/protocol.js` lists the same kinds and fields;
 //! `recordLayouts()` gives this table to JavaScript so a test can check that
@@ -21,7 +26,7 @@
 
 use wasm_bindgen::prelude::*;
 
-use critbox_core::experiment::{EpisodeRecord, EvalRecord, Job, Results};
+use critbox_core::experiment::{DiagSums, EpisodeRecord, EvalRecord, Job, Results};
 
 /// One kind of record.
 #[derive(Debug)]
@@ -51,7 +56,79 @@ pub const KINDS: &[Kind] = &[
         take: take_evaluations,
         add: add_evaluation,
     },
+    Kind {
+        name: "diagnostic",
+        fields: &[
+            "job",
+            "bin",
+            "count",
+            "td",
+            "abs_td",
+            "entropy",
+            "actor_norm",
+            "critic_norm",
+            "weights",
+            "weight_sum",
+            "weight_sq",
+            "weight_max",
+            "capped",
+        ],
+        take: take_diagnostics,
+        add: add_diagnostic,
+    },
 ];
+
+fn take_diagnostics(job: &mut Job, out: &mut Vec<f64>) {
+    let id = job.id() as f64;
+    let (from, bins) = job.take_new_diagnostics();
+    for (k, d) in bins.iter().enumerate() {
+        out.extend_from_slice(&[
+            id,
+            (from + k) as f64,
+            d.count as f64,
+            d.td,
+            d.abs_td,
+            d.entropy,
+            d.actor_norm,
+            d.critic_norm,
+            d.weights as f64,
+            d.weight_sum,
+            d.weight_sq,
+            d.weight_max,
+            d.weight_cut as f64,
+        ]);
+    }
+}
+
+fn add_diagnostic(results: &mut Results, job: usize, r: &[f64]) -> Result<(), String> {
+    let bins = results.bin_edges().len();
+    if !(whole(r[1]) && (r[1] as usize) < bins) {
+        return Err(format!("bin must be a whole number below {bins}"));
+    }
+    for (i, name) in [(2, "count"), (8, "weights"), (12, "capped")] {
+        if !whole(r[i]) {
+            return Err(format!("{name} must be a whole number"));
+        }
+    }
+    results.set_diagnostics(
+        job,
+        r[1] as usize,
+        DiagSums {
+            count: r[2] as u64,
+            td: r[3],
+            abs_td: r[4],
+            entropy: r[5],
+            actor_norm: r[6],
+            critic_norm: r[7],
+            weights: r[8] as u64,
+            weight_sum: r[9],
+            weight_sq: r[10],
+            weight_max: r[11],
+            weight_cut: r[12] as u64,
+        },
+    );
+    Ok(())
+}
 
 fn take_evaluations(job: &mut Job, out: &mut Vec<f64>) {
     let id = job.id() as f64;

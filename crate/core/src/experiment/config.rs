@@ -110,6 +110,19 @@ fn default_final_fraction() -> f64 {
     0.1
 }
 
+/// A preset's stated outcome: the sentence the page shows and the claims
+/// `crate/core/tests/presets.rs` checks (`{"higher": B, "than": A}`,
+/// `{"variant": V, "reaches": x}`, `{"variant": V, "holds_upright": k}`).
+#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[serde(deny_unknown_fields)]
+pub struct Expect {
+    /// The outcome in words (at most 600 characters).
+    pub text: String,
+    /// The checkable claims.
+    #[serde(default)]
+    pub claims: Vec<Value>,
+}
+
 /// An experiment config, as written in JSON.
 #[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
 #[serde(deny_unknown_fields)]
@@ -119,6 +132,10 @@ pub struct Config {
     /// A title for the experiment (at most 200 characters). Default empty.
     #[serde(default)]
     pub title: String,
+    /// What the experiment is expected to show (the presets state it): a
+    /// sentence and checkable claims. The run does not use it.
+    #[serde(default, skip_serializing_if = "Option::is_none")]
+    pub expect: Option<Expect>,
     /// The task.
     pub task: TaskConfig,
     /// The base learner setup (see [`LearnerSetup`]). Default: all defaults.
@@ -699,6 +716,11 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
     let mut problems = Vec::new();
     let mut bad = |path: String, message: String| problems.push(Problem { path, message });
 
+    if let Some(e) = &config.expect {
+        if e.text.chars().count() > 600 {
+            bad("expect.text".into(), "is longer than 600 characters".into());
+        }
+    }
     if config.title.chars().count() > 200 {
         bad("title".into(), "is longer than 200 characters".into());
     }

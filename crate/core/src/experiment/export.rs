@@ -8,12 +8,16 @@
 //! summary) and [`load`] rebuilds the [`Results`] from it without re-running,
 //! checking every field it reads. Files of version 1 (before evaluation
 //! records) still load; a plan that evaluates then has no evaluation data.
+//! Each job's `diagnostics` (the step diagnostics' sums per curve bin, one
+//! list per bin that has steps: `[bin, count, Σδ, Σ|δ|, Σ entropy, Σ actor
+//! norm, Σ critic norm, weighted steps, Σρ, Σρ², largest ρ, capped]`) is an
+//! optional field: a file without it loads with no diagnostics.
 
 use serde_json::{json, Value};
 
 use crate::experiment::config::{validate_value, Plan};
 use crate::experiment::results::Results;
-use crate::experiment::runner::{EpisodeRecord, EvalRecord};
+use crate::experiment::runner::{DiagSums, EpisodeRecord, EvalRecord};
 
 /// Version of the results file format this build writes (it reads 1 and 2).
 pub const RESULTS_VERSION: u32 = 2;
@@ -45,7 +49,10 @@ fn csv_num(x: f64) -> String {
 /// (`path=value;path=value`); every tuning seed of every grid point adds a
 /// row of metric `tuning_auc` or `tuning_final` (the study's criterion),
 /// seed = its tuning seed index, with that point's settings. Outside a
-/// study `settings` is empty.
+/// study `settings` is empty. The step diagnostics a variant has
+/// (`td_abs`, `entropy` or `sd`, `actor_norm`, `critic_norm`,
+/// `ess_fraction`, `capped_share`; see [`crate::experiment::diagnostics`])
+/// add one row per seed and bin with a value, at the bin's upper step.
 pub fn tidy_csv(r: &Results) -> String {
     let mut out = String::from("variant,label,seed,step,metric,value,settings\n");
     let edges = r.bin_edges();
@@ -61,6 +68,7 @@ pub fn tidy_csv(r: &Results) -> String {
         let aucs = r.auc_per_seed(v);
         let points = r.point_settings(v);
         let chosen = choice.as_ref().and_then(|c| points.get(c[v])).map(text).unwrap_or_default();
+        let metrics = r.diagnostic_metrics(v);
         let mut row = |s: usize, step: u64, metric: &str, value: f64, settings: &str| {
             out.push_str(&format!("{v},{label},{s},{step},{metric},{},{settings}\n", csv_num(value)));
         };
@@ -84,6 +92,13 @@ pub fn tidy_csv(r: &Results) -> String {
             if let Some(a) = aucs[s] {
                 row(s, r.steps(), "auc", a, &chosen);
             }
+            for m in &metrics {
+                for (b, value) in r.seed_diagnostic(v, s, *m).into_iter().enumerate() {
+                    if value.is_finite() {
+                        row(s, edges[b], m.name(), value, &chosen);
+                    }
+                }
+            }
         }
         if let Some(by) = r.choose_by() {
             let metric = format!("tuning_{}", by.name());
@@ -105,12 +120,25 @@ pub fn save(plan: &Plan, r: &Results) -> Value {
     let jobs: Vec<Value> = (0..r.job_count())
         .map(|id| {
             let (eps, evals, steps_done, failed) = r.job_record(id);
+            let diag: Vec<Value> = r
+                .job_diagnostics(id)
+                .iter()
+                .enumerate()
+                .filter(|(_, d)| d.count > 0)
+                .map(|(b, d)| {
+                    json!([
+                        b, d.count, d.td, d.abs_td, d.entropy, d.actor_norm, d.critic_norm, d.weights,
+                        d.weight_sum, d.weight_sq, d.weight_max, d.weight_cut
+                    ])
+                })
+                .collect();
             json!({
                 "id": id,
                 "steps_done": steps_done,
                 "failed": failed,
                 "episodes": eps.iter().map(|e| json!([e.end_step, e.base_return, e.shaped_return, e.length, e.truncated])).collect::<Vec<_>>(),
                 "evaluations": evals.iter().map(|e| json!([e.checkpoint, e.step, e.mean_return, e.episodes])).collect::<Vec<_>>(),
+                "diagnostics": diag,
             })
         })
         .collect();
@@ -224,6 +252,45 @@ pub fn load(text: &str) -> Result<(Plan, Results), LoadError> {
             let episodes = a[3].as_u64().filter(|&n| (1..=1000).contains(&n)).ok_or_else(bad)? as u32;
             r.add_evaluation(i, EvalRecord { checkpoint: checkpoint as u32, step, mean_return, episodes });
         }
+        let diags = match j.get("diagnostics") {
+            None | Some(Value::Null) => &[][..],
+            Some(Value::Array(a)) => &a[..],
+            Some(_) => return Err(field(&at("diagnostics"), "must be a list")),
+        };
+        let bins = r.bin_edges().len();
+        for (k, e) in diags.iter().enumerate() {
+            let bad = || {
+                field(
+                    &format!("jobs[{i}].diagnostics[{k}]"),
+                    &format!(
+                        "must be [bin, count, td, abs_td, entropy, actor_norm, critic_norm, weights, \
+                         weight_sum, weight_sq, weight_max, capped] with a bin below {bins}, whole counts \
+                         and numbers elsewhere"
+                    ),
+                )
+            };
+            let a = e.as_array().filter(|a| a.len() == 12).ok_or_else(bad)?;
+            let whole = |x: &Value| x.as_u64().ok_or_else(bad);
+            let num = |x: &Value| x.as_f64().ok_or_else(bad);
+            let bin = whole(&a[0])? as usize;
+            if bin >= bins {
+                return Err(bad());
+            }
+            let sums = DiagSums {
+                count: whole(&a[1])?,
+                td: num(&a[2])?,
+                abs_td: num(&a[3])?,
+                entropy: num(&a[4])?,
+                actor_norm: num(&a[5])?,
+                critic_norm: num(&a[6])?,
+                weights: whole(&a[7])?,
+                weight_sum: num(&a[8])?,
+                weight_sq: num(&a[9])?,
+                weight_max: num(&a[10])?,
+                weight_cut: whole(&a[11])?,
+            };
+            r.set_diagnostics(i, bin, sums);
+        }
         r.set_steps(i, steps_done);
         match j.get("failed") {
             None | Some(Value::Null) => {}
@@ -237,6 +304,7 @@ pub fn load(text: &str) -> Result<(Plan, Results), LoadError> {
 #[cfg(test)]
 mod tests {
     use super::*;
+    use crate::experiment::diagnostics::Metric;
     use crate::experiment::run_all;
 
     fn small() -> Plan {
@@ -258,6 +326,7 @@ mod tests {
         let mut lines = csv.lines();
         assert_eq!(lines.next(), Some("variant,label,seed,step,metric,value,settings"));
         let mut n_final = 0;
+        let mut n_diag = 0;
         for line in lines {
             // Labels here hold a comma or quotes, so split from the right
             // (the settings column is empty outside a study).
@@ -275,6 +344,12 @@ mod tests {
                 }
                 "auc" => assert_eq!(value.to_bits(), r.auc_per_seed(v)[seed].unwrap().to_bits()),
                 "eval_return" | "final_eval_return" => panic!("evaluation is off in this plan"),
+                m @ ("td_abs" | "entropy" | "actor_norm" | "critic_norm") => {
+                    let m = *Metric::ALL.iter().find(|x| x.name() == m).unwrap();
+                    let b = r.curve(v).iter().position(|p| p.step == step).unwrap();
+                    assert_eq!(value.to_bits(), r.seed_diagnostic(v, seed, m)[b].to_bits());
+                    n_diag += 1;
+                }
                 "base_return" => {
                     let curve = r.seed_curve(v, seed);
                     let b = r.curve(v).iter().position(|p| p.step == step).unwrap();
@@ -284,6 +359,8 @@ mod tests {
             }
         }
         assert_eq!(n_final, 6);
+        // 2 variants × 3 seeds × 10 bins × 4 diagnostics (softmax: entropy, no weights).
+        assert_eq!(n_diag, 240);
         assert!(csv.contains(",\"a2c, tabular\",") && csv.contains(",\"qac \"\"plain\"\"\","));
     }
 
@@ -295,6 +372,17 @@ mod tests {
         let (plan2, r2) = load(&text).unwrap();
         assert_eq!(plan2.config, plan.config);
         assert_eq!(r2.summary(), r.summary());
+        assert!(r.summary()["variants"][0]["diagnostics"]["td_abs"]["mean"][0].as_f64().unwrap() > 0.0);
+        // A file written before diagnostics were kept still loads, without them.
+        let mut old: Value = serde_json::from_str(&text).unwrap();
+        for j in old["jobs"].as_array_mut().unwrap() {
+            j.as_object_mut().unwrap().remove("diagnostics");
+        }
+        let (_, r3) = load(&old.to_string()).unwrap();
+        assert!(r3.summary()["variants"][0]["diagnostics"]["td_abs"]["mean"][0].is_null());
+        let mut v: Value = serde_json::from_str(&text).unwrap();
+        v["jobs"][2]["diagnostics"][0][0] = json!(10);
+        assert!(load(&v.to_string()).unwrap_err().to_string().contains("jobs[2].diagnostics[0]: must be"));
         assert!(load("{}").unwrap_err().to_string().contains("not a critbox results file"));
         let mut v: Value = serde_json::from_str(&text).unwrap();
         v["jobs"][1]["episodes"][0] = json!([0, 1, 1, 1, false]);

@@ -16,6 +16,7 @@
 pub mod audit;
 pub mod compare;
 pub mod config;
+pub mod diagnostics;
 pub mod export;
 pub mod hacking;
 pub mod inspect;
@@ -26,7 +27,7 @@ pub mod study;
 
 pub use config::{parse, Config, ConfigError, JobSpec, Measure, Plan, Problem, VariantPlan, SCHEMA};
 pub use results::{CurvePoint, Results};
-pub use runner::{EpisodeRecord, EvalRecord, Job, JobStatus};
+pub use runner::{DiagSums, EpisodeRecord, EvalRecord, Job, JobStatus};
 
 /// Runs every job of a plan to the end and collects the results (the CLI's
 /// path; the page spreads the same jobs over workers). A study runs its
@@ -70,6 +71,10 @@ pub fn run_jobs(plan: &Plan, ids: std::ops::Range<usize>, results: &mut Results)
         }
         for rec in job.take_new_evaluations() {
             results.add_evaluation(id, *rec);
+        }
+        let (from, bins) = job.take_new_diagnostics();
+        for (k, d) in bins.iter().enumerate() {
+            results.set_diagnostics(id, from + k, *d);
         }
         results.set_steps(id, job.steps_done());
         if let JobStatus::Failed(reason) = job.status() {

@@ -31,8 +31,9 @@ use serde::Serialize;
 
 use crate::experiment::compare::{compare_all, pairs, score, Comparison, Entry, Score};
 use crate::experiment::config::{Measure, Plan, SCHEMA};
+use crate::experiment::diagnostics::{self, DiagCurve, Diagnostics, Metric};
 use crate::experiment::hacking::{trend, Hacking};
-use crate::experiment::runner::{bin_edges, bin_of, EpisodeRecord, EvalRecord};
+use crate::experiment::runner::{bin_edges, bin_of, DiagSums, EpisodeRecord, EvalRecord};
 use crate::experiment::study::{self, Axis, ChooseBy, PointScores};
 use crate::learn::Family;
 use crate::report::{nums, pair, Num, Pair};
@@ -85,6 +86,8 @@ fn point(step: u64, xs: &[f64]) -> CurvePoint {
 struct JobResults {
     episodes: Vec<EpisodeRecord>,
     evals: Vec<EvalRecord>,
+    /// Diagnostic sums per curve bin (empty until the first is set).
+    diag: Vec<DiagSums>,
     steps_done: u64,
     failed: Option<String>,
 }
@@ -111,6 +114,7 @@ pub struct Results {
     task: &'static str,
     labels: Vec<String>,
     families: Vec<Family>,
+    action_dims: usize,
     seeds: usize,
     steps: u64,
     master_seed: u64,
@@ -261,6 +265,8 @@ pub struct VariantReport {
     pub eval_curve: Option<CurveReport>,
     /// The variant's part of the study (null outside a study).
     pub study: Option<VariantStudy>,
+    /// The learner's step diagnostics per bin over seeds.
+    pub diagnostics: Diagnostics,
 }
 
 /// One swept setting, as the summary reports it.
@@ -368,6 +374,9 @@ pub struct Summary {
     pub study: Option<StudySummary>,
     /// The comparisons.
     pub comparisons: Vec<Comparison>,
+    /// Warnings from the learners' diagnostics, each naming its variant
+    /// with the numbers.
+    pub warnings: Vec<String>,
 }
 
 impl Results {
@@ -390,6 +399,10 @@ impl Results {
             task: plan.spec.kind,
             labels: plan.variants.iter().map(|v| v.label.clone()).collect(),
             families: plan.variants.iter().map(|v| v.setup.family).collect(),
+            action_dims: match &plan.spec.actions {
+                crate::task::ActionSpace::Discrete(_) => 0,
+                crate::task::ActionSpace::Continuous { names, .. } => names.len(),
+            },
             seeds: c.seeds as usize,
             steps: c.steps,
             master_seed: c.master_seed,
@@ -435,6 +448,71 @@ impl Results {
             j.steps_done = j.steps_done.max(rec.step);
             j.evals.push(rec);
         }
+    }
+
+    /// Sets a job's diagnostic sums of curve bin `bin` (the sums so far:
+    /// a later call for the same bin replaces them). Ignored for an unknown
+    /// job or bin.
+    pub fn set_diagnostics(&mut self, job: usize, bin: usize, sums: DiagSums) {
+        let n = self.edges.len();
+        if let Some(j) = self.jobs.get_mut(job) {
+            if bin < n {
+                if j.diag.is_empty() {
+                    j.diag = vec![DiagSums::default(); n];
+                }
+                j.diag[bin] = sums;
+            }
+        }
+    }
+
+    /// A job's diagnostic sums per curve bin (empty when none were set).
+    pub fn job_diagnostics(&self, id: usize) -> &[DiagSums] {
+        &self.jobs[id].diag
+    }
+
+    /// The diagnostics a variant has (see [`Metric::applies`]).
+    pub fn diagnostic_metrics(&self, variant: usize) -> Vec<Metric> {
+        let critic = (0..self.seeds).any(|s| self.job(variant, s).diag.iter().any(|d| d.critic_norm != 0.0));
+        Metric::ALL
+            .into_iter()
+            .filter(|m| m.applies(self.families[variant], self.action_dims, critic))
+            .collect()
+    }
+
+    /// One seed's values of a diagnostic per curve bin (NaN where it has none).
+    pub fn seed_diagnostic(&self, variant: usize, seed: usize, m: Metric) -> Vec<f64> {
+        let j = self.job(variant, seed);
+        (0..self.edges.len())
+            .map(|b| j.diag.get(b).map_or(f64::NAN, |d| m.value(d, self.action_dims)))
+            .collect()
+    }
+
+    /// A diagnostic's curve over the seeds of a variant.
+    pub fn diagnostic_curve(&self, variant: usize, m: Metric) -> Vec<CurvePoint> {
+        let per_seed: Vec<Vec<f64>> = (0..self.seeds).map(|s| self.seed_diagnostic(variant, s, m)).collect();
+        self.across_seeds(&per_seed, &self.edges)
+    }
+
+    fn diagnostics_of(&self, v: usize) -> (Diagnostics, Vec<(Metric, Vec<f64>)>) {
+        let mut d = Diagnostics::default();
+        let mut means = Vec::new();
+        for m in self.diagnostic_metrics(v) {
+            let c = self.diagnostic_curve(v, m);
+            means.push((m, c.iter().map(|p| p.mean).collect()));
+            d.set(m, DiagCurve::of(&c));
+        }
+        (d, means)
+    }
+
+    /// The diagnostics' warnings of every variant (see
+    /// [`diagnostics::warnings`]).
+    pub fn diagnostic_warnings(&self) -> Vec<String> {
+        (0..self.labels.len())
+            .flat_map(|v| {
+                let (_, means) = self.diagnostics_of(v);
+                diagnostics::warnings(&self.labels[v], &means, &self.edges, self.steps, self.final_fraction)
+            })
+            .collect()
     }
 
     /// Records how far a job has got.
@@ -976,6 +1054,7 @@ impl Results {
             curve: CurveReport::of(&self.curve(v)),
             eval_curve: self.evaluation.as_ref().map(|_| CurveReport::of(&self.eval_curve(v))),
             study: self.study.as_ref().map(|_| self.variant_study(v)),
+            diagnostics: self.diagnostics_of(v).0,
         }
     }
 
@@ -996,6 +1075,7 @@ impl Results {
             variants: (0..self.labels.len()).map(|v| self.variant_report(v)).collect(),
             study: self.study_summary(),
             comparisons: self.comparisons(),
+            warnings: self.diagnostic_warnings(),
         }
     }
 

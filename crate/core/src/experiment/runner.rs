@@ -142,6 +142,7 @@ pub struct Job {
     unread: usize,
     bin_edges: Vec<u64>,
     diag: Vec<DiagSums>,
+    diag_from: usize,
     eval: Option<Evaluator>,
 }
 
@@ -235,6 +236,7 @@ impl Job {
             episodes: Vec::new(),
             unread: 0,
             diag: vec![DiagSums::default(); edges.len()],
+            diag_from: 0,
             bin_edges: edges,
             eval,
         }
@@ -293,6 +295,21 @@ impl Job {
     /// Diagnostic sums per curve bin.
     pub fn diagnostics(&self) -> &[DiagSums] {
         &self.diag
+    }
+
+    /// The diagnostic bins that may have changed since the last call, as
+    /// (first bin index, their sums so far): from the bin the previous call
+    /// ended on to the last bin with a step. Sums are cumulative per bin, so
+    /// whoever keeps them overwrites a bin with the newer sums; any chunking
+    /// gives the same final bins.
+    pub fn take_new_diagnostics(&mut self) -> (usize, &[DiagSums]) {
+        let from = self.diag_from;
+        let last = self.diag.iter().rposition(|d| d.count > 0).map_or(from, |l| l.max(from));
+        self.diag_from = last;
+        if !matches!(self.diag.get(from), Some(d) if d.count > 0) {
+            return (from, &[]);
+        }
+        (from, &self.diag[from..=last])
     }
 
     /// The job's learner (to inspect what it has learned).
