@@ -271,7 +271,9 @@ pub fn load(text: &str) -> Result<(Plan, Results), LoadError> {
             };
             let a = e.as_array().filter(|a| a.len() == 12).ok_or_else(bad)?;
             let whole = |x: &Value| x.as_u64().ok_or_else(bad);
-            let num = |x: &Value| x.as_f64().ok_or_else(bad);
+            // A sum that overflowed on the way to a divergence is saved as
+            // null (JSON has no NaN or infinity) and reads back as NaN.
+            let num = |x: &Value| if x.is_null() { Ok(f64::NAN) } else { x.as_f64().ok_or_else(bad) };
             let bin = whole(&a[0])? as usize;
             if bin >= bins {
                 return Err(bad());
@@ -315,6 +317,24 @@ mod tests {
             "variants": [{"label": "a2c, tabular"}, {"label": "qac \"plain\"", "learner": {"family": "qac"}}]
         }))
         .unwrap()
+    }
+
+    #[test]
+    fn diagnostics_that_overflowed_save_and_load_again() {
+        // Common practice, no source: JSON has no NaN or infinity, so a sum
+        // that overflowed before a divergence was caught is written as null;
+        // the file must still load, with the same summary.
+        let plan = small();
+        let mut r = run_all(&plan);
+        let mut sums = r.job_diagnostics(0)[2];
+        sums.abs_td = f64::INFINITY;
+        sums.critic_norm = f64::NAN;
+        r.set_diagnostics(0, 2, sums);
+        let text = save(&plan, &r).to_string();
+        assert!(text.contains("null"), "the overflowed sums are written as null");
+        let (_, back) = load(&text).unwrap_or_else(|e| panic!("{e}"));
+        assert!(back.job_diagnostics(0)[2].abs_td.is_nan() && back.job_diagnostics(0)[2].critic_norm.is_nan());
+        assert_eq!(back.summary(), r.summary(), "non-finite numbers are null in both summaries");
     }
 
     #[test]
