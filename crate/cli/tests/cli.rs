@@ -466,6 +466,9 @@ fn wrong_parts_exit_2_naming_the_problem() {
     ok(&dir, &["run", "other.json", "--shard", "2/3", "--save", "q2.json"]);
     let text = std::fs::read_to_string(dir.join("p1.json")).unwrap();
     std::fs::write(dir.join("cut.json"), &text[..text.len() / 2]).unwrap();
+    let mut edited: serde_json::Value = serde_json::from_str(&text).unwrap();
+    edited["config"]["steps"] = 4001.into();
+    std::fs::write(dir.join("edited.json"), edited.to_string()).unwrap();
     let cases: &[(&[&str], &str)] = &[
         (&["merge", "p0.json", "p1.json", "q2.json"], "q2.json comes from a different config"),
         (&["merge", "p0.json", "p2.json"], "ids 1, 4, 7; shard 1/3 should have produced them"),
@@ -475,6 +478,10 @@ fn wrong_parts_exit_2_naming_the_problem() {
         ),
         (&["merge", "p0.json", "cut.json", "p2.json"], "cut.json: results file: not valid JSON"),
         (&["merge", "p0.json", "cut.json", "p2.json"], "truncated"),
+        (
+            &["merge", "p0.json", "edited.json", "p2.json"],
+            "edited.json: results file: config_sha256: does not match",
+        ),
         (
             &["run", "small.json", "--shard", "3/3", "--save", "x.json"],
             "--shard: \"3/3\" is not a shard K/N with N ≥ 1 and K < N",
