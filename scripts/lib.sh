@@ -12,6 +12,7 @@
 #   ensure_wasm_bindgen         wasm-bindgen-cli at exactly that version
 #   ensure_node                 node (>= 18) and npm
 #   ensure_chromium             Debian's chromium at /usr/bin/chromium (never a downloaded browser)
+#   ensure_slurm                Debian's slurm-wlm and munge (the cluster tier's one-node Slurm)
 # Every ensure_* does nothing when the tool is already there, so calling it
 # again is cheap.
 
@@ -207,4 +208,11 @@ ensure_chromium() {
         die "CRITBOX_CHROMIUM=$CRITBOX_CHROMIUM is not an executable file"
     ensure_apt chromium
     [ -x /usr/bin/chromium ] || die "Debian's chromium package is installed but /usr/bin/chromium is missing"
+}
+
+# Debian's slurm-wlm and munge, for the cluster tier (scripts/cluster/test-local).
+ensure_slurm() {
+    ensure_apt slurm-wlm munge
+    command -v slurmctld >/dev/null 2>&1 && command -v munged >/dev/null 2>&1 ||
+        die "slurm-wlm and munge are installed but slurmctld or munged is not on PATH"
 }

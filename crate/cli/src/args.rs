@@ -23,6 +23,10 @@ pub enum Kind {
     Port,
     /// Whole numbers separated by commas (repeating the option adds more).
     Wholes,
+    /// A shard `K/N`: whole numbers with K < N.
+    Shard,
+    /// One word of a fixed list.
+    Word(&'static [&'static str]),
 }
 
 /// One option of a command.
@@ -41,7 +45,8 @@ pub struct Opt {
 pub struct Command {
     /// Its name, the first argument.
     pub name: &'static str,
-    /// The placeholder of its one operand, or `None` when it takes none.
+    /// The placeholder of its one operand, or `None` when it takes none; a
+    /// placeholder ending in `...` takes one or more.
     pub operand: Option<&'static str>,
     /// Its options.
     pub opts: &'static [Opt],
@@ -58,11 +63,32 @@ pub const COMMANDS: &[Command] = &[
     Command {
         name: "run",
         operand: Some("CONFIG.json"),
-        opts: &[opt("csv", "FILE", Kind::Path), opt("save", "FILE", Kind::Path)],
+        opts: &[
+            opt("csv", "FILE", Kind::Path),
+            opt("save", "FILE", Kind::Path),
+            opt("shard", "K/N", Kind::Shard),
+            opt("stage", "tuning|fresh", Kind::Word(&["tuning", "fresh"])),
+            opt("from", "TUNING.json", Kind::Path),
+        ],
         help: &[
             "run every (variant, seed) job and print the summary JSON;",
             "--csv writes the tidy CSV (variant,label,seed,step,metric,value,settings),",
-            "--save a results file that `critbox open` and the page reopen",
+            "--save a results file that `critbox open` and the page reopen;",
+            "--shard K/N runs only the jobs with id mod N = K and --save writes a part",
+            "for `critbox merge`; a study runs --stage tuning (the default), then",
+            "--stage fresh --from TUNING.json (the merge of the tuning parts)",
+        ],
+    },
+    Command {
+        name: "merge",
+        operand: Some("PART.json..."),
+        opts: &[opt("save", "FILE", Kind::Path)],
+        help: &[
+            "join the parts of `run --shard` (same config, no job missing or doubled):",
+            "print the summary as `critbox run` does and --save the results file; of a",
+            "study's tuning parts alone, print the chosen points and --save the tuning",
+            "file for `run --stage fresh --from`; the final merge takes the tuning file",
+            "and the fresh parts",
         ],
     },
     Command {
@@ -188,6 +214,7 @@ enum Value {
     Whole(u64),
     Port(u16),
     Wholes(Vec<u64>),
+    Shard(u64, u64),
 }
 
 /// A command line that could not be parsed, as the message to show.
@@ -215,6 +242,7 @@ pub struct Args {
     /// The command.
     pub command: &'static Command,
     operand: Option<String>,
+    more: Vec<String>,
     values: Vec<(&'static str, Value)>,
 }
 
@@ -222,6 +250,19 @@ impl Args {
     /// The operand (present whenever the command declares one).
     pub fn operand(&self) -> &str {
         self.operand.as_deref().unwrap_or_default()
+    }
+
+    /// Every operand of a command that takes one or more, in order.
+    pub fn operands(&self) -> Vec<&str> {
+        self.operand.iter().chain(&self.more).map(String::as_str).collect()
+    }
+
+    /// A shard option's value (K, N).
+    pub fn shard(&self, name: &str) -> Option<(u64, u64)> {
+        match self.get(name) {
+            Some(Value::Shard(k, n)) => Some((*k, *n)),
+            _ => None,
+        }
     }
 
     fn get(&self, name: &str) -> Option<&Value> {
@@ -280,6 +321,17 @@ fn check_value(flag: &str, kind: Kind, text: &str) -> Result<Value, UsageError> 
     match kind {
         Kind::Switch => Ok(Value::Switch),
         Kind::Path => Ok(Value::Text(text.to_string())),
+        Kind::Word(words) => match words.contains(&text) {
+            true => Ok(Value::Text(text.to_string())),
+            false => bad(&format!("one of {}", words.join(", "))),
+        },
+        Kind::Shard => {
+            match text.split_once('/').map(|(k, n)| (k.trim().parse::<u64>(), n.trim().parse::<u64>())) {
+                Some((Ok(k), Ok(n))) if n >= 1 && k < n => Ok(Value::Shard(k, n)),
+                Some((Ok(_), Ok(_))) => bad("a shard K/N with N ≥ 1 and K < N (K counts from 0)"),
+                _ => bad("a shard K/N (two whole numbers, K counts from 0)"),
+            }
+        }
         Kind::Whole => text.parse().map(Value::Whole).or_else(|_| bad("a whole number")),
         Kind::Port => text.parse().map(Value::Port).or_else(|_| bad("a port number (0 to 65535)")),
         Kind::Wholes => match text.split(',').map(|x| x.trim().parse::<u64>()).collect() {
@@ -309,6 +361,7 @@ pub fn parse(args: Vec<OsString>) -> Result<Parsed, UsageError> {
     }
     let name = command.name;
     let mut operand = None;
+    let mut more = Vec::new();
     let mut values = Vec::new();
     loop {
         let arg = match p.next() {
@@ -321,6 +374,7 @@ pub fn parse(args: Vec<OsString>) -> Result<Parsed, UsageError> {
                 let v = v.to_string_lossy().into_owned();
                 match command.operand {
                     Some(_) if operand.is_none() => operand = Some(v),
+                    Some(what) if what.ends_with("...") => more.push(v),
                     Some(what) => {
                         let what = what.trim_end_matches(".json");
                         return Err(UsageError(format!(
@@ -353,10 +407,10 @@ pub fn parse(args: Vec<OsString>) -> Result<Parsed, UsageError> {
         values.push((o.name, value));
     }
     if let (Some(what), None) = (command.operand, &operand) {
-        let what = what.trim_end_matches(".json");
+        let what = what.trim_end_matches("...").trim_end_matches(".json");
         return Err(UsageError(format!("`critbox {name}` needs a {what} argument")));
     }
-    Ok(Parsed::Run(Args { command, operand, values }))
+    Ok(Parsed::Run(Args { command, operand, more, values }))
 }
 
 #[cfg(test)]
@@ -380,6 +434,8 @@ mod tests {
                     Kind::Path => "x".into(),
                     Kind::Whole | Kind::Port => "7".into(),
                     Kind::Wholes => "1,2".into(),
+                    Kind::Shard => "1/4".into(),
+                    Kind::Word(w) => w[0].into(),
                 };
                 assert!(text.contains(&format!("--{}", o.name)));
                 let operand = c.operand.map(|_| "c.json").unwrap_or_default();

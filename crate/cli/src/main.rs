@@ -4,7 +4,8 @@
 //! the page uses and prints one JSON summary on stdout; `critbox validate`
 //! only checks a config; `critbox audit` prints the shaping audit of a
 //! config's rewards; `critbox inspect` re-trains one job to a step and
-//! prints what it learned; `critbox serve` serves the page on 127.0.0.1.
+//! prints what it learned; `critbox run --shard K/N` runs a share of the
+//! jobs into a part file and `critbox merge` joins the parts; `critbox serve` serves the page on 127.0.0.1.
 //! The commands and their options are one table in [`args`], which parses
 //! the command line and writes the usage text. Exit codes: 0 success, 2 bad
 //! input (config or usage), 1 other failures.
@@ -15,7 +16,7 @@ mod serve;
 mod table;
 
 use args::{Args, Parsed};
-use critbox_core::experiment::inspect;
+use critbox_core::experiment::{inspect, shard};
 
 use std::path::{Path, PathBuf};
 use std::process::ExitCode;
@@ -79,6 +80,10 @@ fn whole_u32(a: &Args, name: &str, default: u32) -> Result<u32, Failure> {
 
 fn run(a: &Args) -> Result<(), Failure> {
     match a.command.name {
+        "run" if a.shard("shard").is_some() || a.path("stage").is_some() || a.path("from").is_some() => {
+            run_shard(a)
+        }
+        "merge" => merge(a),
         "run" => {
             let plan = plan_of(a.operand())?;
             let results = critbox_core::experiment::run_all(&plan);
@@ -152,6 +157,88 @@ fn run(a: &Args) -> Result<(), Failure> {
             print_json(&bench::bench(&plan, job, steps, &rss_at).map_err(Failure::Usage)?)
         }
         other => panic!("the command table lists `{other}` but main.rs does not run it"),
+    }
+}
+
+fn read_part(path: &str) -> Result<shard::Part, Failure> {
+    let text = std::fs::read_to_string(path)
+        .map_err(|e| Failure::BadInput(format!("cannot read part {path}: {e}")))?;
+    shard::read_part(&text).map_err(|e| Failure::BadInput(format!("{path}: {e}")))
+}
+
+/// `critbox run CONFIG --shard K/N [--stage tuning|fresh --from TUNING.json] --save PART.json`.
+fn run_shard(a: &Args) -> Result<(), Failure> {
+    let config = a.operand();
+    let plan = plan_of(config)?;
+    let (k, n) = a.shard("shard").unwrap_or((0, 1));
+    let save =
+        a.path("save").ok_or_else(|| Failure::Usage("--shard writes a part: give --save FILE".into()))?;
+    if a.path("csv").is_some() {
+        return Err(Failure::Usage(
+            "--csv needs every job: write it from the merged results, not a shard".into(),
+        ));
+    }
+    let stage = match (plan.study.is_some(), a.path("stage")) {
+        (false, None) => shard::Stage::All,
+        (false, Some(s)) => {
+            return Err(Failure::BadInput(format!(
+                "{config}: --stage {s}: this config is not a study (no variant sweeps), so it has no stages"
+            )))
+        }
+        (true, None | Some("tuning")) => shard::Stage::Tuning,
+        (true, Some(_)) => shard::Stage::Fresh,
+    };
+    let tuning = match (stage, a.path("from")) {
+        (shard::Stage::Fresh, Some(from)) => Some(read_part(from)?),
+        (shard::Stage::Fresh, None) => {
+            return Err(Failure::Usage(
+                "--stage fresh needs --from TUNING.json (the merged tuning parts)".into(),
+            ))
+        }
+        (_, Some(_)) => return Err(Failure::Usage("--from is for --stage fresh only".into())),
+        (_, None) => None,
+    };
+    let part = shard::run_shard(&plan, stage, k as usize, n as usize, tuning.as_ref())
+        .map_err(|m| Failure::BadInput(format!("{}: {m}", a.path("from").unwrap_or(config))))?;
+    write_file(save, &part.to_string())?;
+    print_json(&serde_json::json!({
+        "stage": stage.name(),
+        "shard": format!("{k}/{n}"),
+        "jobs": part["jobs"],
+        "saved": save,
+    }))
+}
+
+/// `critbox merge PART.json... [--save FILE]`.
+fn merge(a: &Args) -> Result<(), Failure> {
+    let mut parts = Vec::new();
+    for path in a.operands() {
+        parts.push((path.to_string(), read_part(path)?));
+    }
+    match shard::merge(&parts).map_err(Failure::BadInput)? {
+        shard::Merged::Whole(whole) => {
+            let (plan, results) = *whole;
+            if let Some(path) = a.path("save") {
+                write_file(path, &critbox_core::experiment::export::save(&plan, &results).to_string())?;
+            }
+            print_json(&results.summary())
+        }
+        shard::Merged::Tuning(file, chosen) => {
+            if let Some(path) = a.path("save") {
+                write_file(path, &file.to_string())?;
+            }
+            let (_, first) = &parts[0];
+            let settings: Vec<_> = (0..chosen.len()).map(|v| first.results.point_settings(v)).collect();
+            print_json(&serde_json::json!({
+                "stage": "tuning",
+                "jobs": file["jobs"].as_array().map_or(0, Vec::len),
+                "chosen": chosen.iter().enumerate().map(|(v, &p)| serde_json::json!({
+                    "label": first.results.labels()[v],
+                    "point": p,
+                    "settings": settings[v][p],
+                })).collect::<Vec<_>>(),
+            }))
+        }
     }
 }
 

@@ -349,3 +349,188 @@ fn inspect_the_corridor_cart_pole_and_regulator() {
         "{table}"
     );
 }
+
+/// A folder of its own for one test.
+fn scratch(name: &str) -> std::path::PathBuf {
+    let dir = std::env::temp_dir().join(format!("critbox-cli-{name}-{}", std::process::id()));
+    let _ = std::fs::remove_dir_all(&dir);
+    std::fs::create_dir_all(&dir).unwrap();
+    dir
+}
+
+/// Runs critbox in `dir`; (exit code, stdout, stderr).
+fn in_dir(dir: &std::path::Path, args: &[&str]) -> (i32, Vec<u8>, String) {
+    let out = critbox().current_dir(dir).args(args).output().unwrap();
+    (out.status.code().unwrap_or(-1), out.stdout, String::from_utf8_lossy(&out.stderr).into_owned())
+}
+
+fn ok(dir: &std::path::Path, args: &[&str]) -> Vec<u8> {
+    let (code, out, err) = in_dir(dir, args);
+    assert_eq!(code, 0, "critbox {args:?}: {err}");
+    out
+}
+
+/// The tuned rover study, small: 2 variants × 3 points × 2 tuning seeds, then 3 fresh seeds.
+fn small_study(dir: &std::path::Path) {
+    let mut v: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(preset("rover-tuned-a2c-vs-qac.json")).unwrap())
+            .unwrap();
+    for var in v["variants"].as_array_mut().unwrap() {
+        var["sweep"]["actor_step"] = serde_json::json!({"log2": [-6, -2], "count": 3});
+    }
+    v["seeds"] = 3.into();
+    v["tuning_seeds"] = 2.into();
+    v["steps"] = 3000.into();
+    std::fs::write(dir.join("study.json"), v.to_string()).unwrap();
+}
+
+#[test]
+fn shards_merged_equal_one_run_of_a_plain_config() {
+    // Jobs are deterministic and independent, so the merge of shards must be
+    // the single run bit for bit (common practice, no source).
+    let dir = scratch("shard-plain");
+    small_rover(&dir);
+    let single = ok(&dir, &["run", "small.json", "--save", "single.json"]);
+    let mut parts = Vec::new();
+    for k in 0..4 {
+        let name = format!("part-{k}.json");
+        ok(&dir, &["run", "small.json", "--shard", &format!("{k}/4"), "--save", &name]);
+        parts.push(name);
+    }
+    let part0: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.join("part-0.json")).unwrap()).unwrap();
+    // 3 variants × 3 seeds = 9 jobs; shard 0/4 holds ids 0, 4, 8.
+    assert_eq!(part0["jobs"], serde_json::json!([0, 4, 8]));
+    assert_eq!(part0["config_sha256"].as_str().unwrap().len(), 64);
+    let mut args = vec!["merge"];
+    args.extend(parts.iter().rev().map(String::as_str));
+    args.extend(["--save", "all.json"]);
+    assert_eq!(ok(&dir, &args), single);
+    assert_eq!(ok(&dir, &["open", "all.json"]), single);
+    assert_eq!(std::fs::read(dir.join("all.json")).unwrap(), std::fs::read(dir.join("single.json")).unwrap());
+}
+
+#[test]
+fn a_study_in_two_sharded_stages_equals_one_run() {
+    let dir = scratch("shard-study");
+    small_study(&dir);
+    let single = ok(&dir, &["run", "study.json"]);
+    for k in 0..4 {
+        ok(&dir, &["run", "study.json", "--shard", &format!("{k}/4"), "--save", &format!("t{k}.json")]);
+    }
+    let tuning: serde_json::Value = serde_json::from_slice(&ok(
+        &dir,
+        &["merge", "t0.json", "t1.json", "t2.json", "t3.json", "--save", "tuning.json"],
+    ))
+    .unwrap();
+    assert_eq!(tuning["stage"], "tuning");
+    assert_eq!(tuning["jobs"], 12);
+    for k in 0..3 {
+        let shard = format!("{k}/3");
+        ok(
+            &dir,
+            &[
+                "run",
+                "study.json",
+                "--stage",
+                "fresh",
+                "--from",
+                "tuning.json",
+                "--shard",
+                &shard,
+                "--save",
+                &format!("f{k}.json"),
+            ],
+        );
+    }
+    let merged = ok(&dir, &["merge", "tuning.json", "f0.json", "f1.json", "f2.json", "--save", "all.json"]);
+    assert_eq!(merged, single);
+    assert_eq!(ok(&dir, &["open", "all.json"]), single);
+    // The chosen points in the merged summary are the single run's.
+    let v: serde_json::Value = serde_json::from_slice(&merged).unwrap();
+    assert!(v["study"].is_object());
+}
+
+#[test]
+fn wrong_parts_exit_2_naming_the_problem() {
+    let dir = scratch("shard-wrong");
+    small_rover(&dir);
+    for k in 0..3 {
+        ok(&dir, &["run", "small.json", "--shard", &format!("{k}/3"), "--save", &format!("p{k}.json")]);
+    }
+    // Another config: one more step.
+    let mut other: serde_json::Value =
+        serde_json::from_str(&std::fs::read_to_string(dir.join("small.json")).unwrap()).unwrap();
+    other["steps"] = 4001.into();
+    std::fs::write(dir.join("other.json"), other.to_string()).unwrap();
+    ok(&dir, &["run", "other.json", "--shard", "2/3", "--save", "q2.json"]);
+    let text = std::fs::read_to_string(dir.join("p1.json")).unwrap();
+    std::fs::write(dir.join("cut.json"), &text[..text.len() / 2]).unwrap();
+    let mut edited: serde_json::Value = serde_json::from_str(&text).unwrap();
+    edited["config"]["steps"] = 4001.into();
+    std::fs::write(dir.join("edited.json"), edited.to_string()).unwrap();
+    let cases: &[(&[&str], &str)] = &[
+        (&["merge", "p0.json", "p1.json", "q2.json"], "q2.json comes from a different config"),
+        (&["merge", "p0.json", "p2.json"], "ids 1, 4, 7; shard 1/3 should have produced them"),
+        (
+            &["merge", "p0.json", "p1.json", "p1.json", "p2.json"],
+            "job 1 is in both p1.json (shard 1/3) and p1.json (shard 1/3): a doubled shard",
+        ),
+        (&["merge", "p0.json", "cut.json", "p2.json"], "cut.json: results file: not valid JSON"),
+        (&["merge", "p0.json", "cut.json", "p2.json"], "truncated"),
+        (
+            &["merge", "p0.json", "edited.json", "p2.json"],
+            "edited.json: results file: config_sha256: does not match",
+        ),
+        (
+            &["run", "small.json", "--shard", "3/3", "--save", "x.json"],
+            "--shard: \"3/3\" is not a shard K/N with N ≥ 1 and K < N",
+        ),
+        (&["run", "small.json", "--stage", "fresh", "--save", "x.json"], "this config is not a study"),
+        (&["open", "p0.json"], "this is shard 0/3 of a run, not a whole results file"),
+    ];
+    for (args, says) in cases {
+        let (code, _, err) = in_dir(&dir, args);
+        assert_eq!(code, 2, "critbox {args:?}: {err}");
+        assert!(err.contains(says), "critbox {args:?} should say {says:?}, said: {err}");
+    }
+}
+
+#[test]
+fn a_fresh_stage_needs_a_whole_tuning_stage_of_its_config() {
+    let dir = scratch("shard-fresh");
+    small_study(&dir);
+    ok(&dir, &["run", "study.json", "--shard", "0/2", "--save", "t0.json"]);
+    ok(&dir, &["run", "study.json", "--shard", "1/2", "--save", "t1.json"]);
+    let (code, _, err) = in_dir(
+        &dir,
+        &["run", "study.json", "--stage", "fresh", "--from", "t0.json", "--shard", "0/2", "--save", "f.json"],
+    );
+    assert_eq!(code, 2);
+    assert!(err.contains("the tuning file is shard 0/2, missing tuning jobs 1, 3, 5, 7, 9, 11"), "{err}");
+    ok(&dir, &["merge", "t0.json", "t1.json", "--save", "tuning.json"]);
+    ok(
+        &dir,
+        &[
+            "run",
+            "study.json",
+            "--stage",
+            "fresh",
+            "--from",
+            "tuning.json",
+            "--shard",
+            "0/2",
+            "--save",
+            "f0.json",
+        ],
+    );
+    let (code, _, err) = in_dir(&dir, &["merge", "tuning.json", "f0.json"]);
+    assert_eq!(code, 2);
+    assert!(
+        err.contains("missing 3 job(s) of stage fresh: ids 13, 15, 17; shard 1/2 should have produced them"),
+        "{err}"
+    );
+    let (code, _, err) = in_dir(&dir, &["merge", "f0.json"]);
+    assert_eq!(code, 2);
+    assert!(err.contains("the tuning stage is missing (jobs 0–11)"), "{err}");
+}

@@ -115,33 +115,44 @@ pub fn tidy_csv(r: &Results) -> String {
     out
 }
 
-/// The results file: config, episode records per job, summary.
-pub fn save(plan: &Plan, r: &Results) -> Value {
-    let jobs: Vec<Value> = (0..r.job_count())
-        .map(|id| {
-            let (eps, evals, steps_done, failed) = r.job_record(id);
-            let diag: Vec<Value> = r
-                .job_diagnostics(id)
-                .iter()
-                .enumerate()
-                .filter(|(_, d)| d.count > 0)
-                .map(|(b, d)| {
-                    json!([
-                        b, d.count, d.td, d.abs_td, d.entropy, d.actor_norm, d.critic_norm, d.weights,
-                        d.weight_sum, d.weight_sq, d.weight_max, d.weight_cut
-                    ])
-                })
-                .collect();
-            json!({
-                "id": id,
-                "steps_done": steps_done,
-                "failed": failed,
-                "episodes": eps.iter().map(|e| json!([e.end_step, e.base_return, e.shaped_return, e.length, e.truncated])).collect::<Vec<_>>(),
-                "evaluations": evals.iter().map(|e| json!([e.checkpoint, e.step, e.mean_return, e.episodes])).collect::<Vec<_>>(),
-                "diagnostics": diag,
-            })
+/// One job's entry of a results file (also a partial file's `records`).
+pub(crate) fn job_entry(r: &Results, id: usize) -> Value {
+    let (eps, evals, steps_done, failed) = r.job_record(id);
+    let diag: Vec<Value> = r
+        .job_diagnostics(id)
+        .iter()
+        .enumerate()
+        .filter(|(_, d)| d.count > 0)
+        .map(|(b, d)| {
+            json!([
+                b,
+                d.count,
+                d.td,
+                d.abs_td,
+                d.entropy,
+                d.actor_norm,
+                d.critic_norm,
+                d.weights,
+                d.weight_sum,
+                d.weight_sq,
+                d.weight_max,
+                d.weight_cut
+            ])
         })
         .collect();
+    json!({
+        "id": id,
+        "steps_done": steps_done,
+        "failed": failed,
+        "episodes": eps.iter().map(|e| json!([e.end_step, e.base_return, e.shaped_return, e.length, e.truncated])).collect::<Vec<_>>(),
+        "evaluations": evals.iter().map(|e| json!([e.checkpoint, e.step, e.mean_return, e.episodes])).collect::<Vec<_>>(),
+        "diagnostics": diag,
+    })
+}
+
+/// The results file: config, episode records per job, summary.
+pub fn save(plan: &Plan, r: &Results) -> Value {
+    let jobs: Vec<Value> = (0..r.job_count()).map(|id| job_entry(r, id)).collect();
     json!({
         "critbox_results": RESULTS_VERSION,
         "config": serde_json::to_value(&plan.config).expect("a config serialises"),
@@ -177,6 +188,17 @@ impl std::error::Error for LoadError {}
 pub fn load(text: &str) -> Result<(Plan, Results), LoadError> {
     let v: Value = serde_json::from_str(text).map_err(|e| LoadError::Json(e.to_string()))?;
     let field = |p: &str, m: &str| LoadError::Field(p.into(), m.into());
+    if let Some(part) = v.get("critbox_part") {
+        let n = |k: &str| part.get(k).and_then(Value::as_u64).map_or("?".into(), |x| x.to_string());
+        return Err(field(
+            "critbox_part",
+            &format!(
+                "this is shard {}/{} of a run, not a whole results file: join the parts with `critbox merge`",
+                n("shard"),
+                n("of")
+            ),
+        ));
+    }
     match v.get("critbox_results").and_then(Value::as_u64) {
         Some(1 | 2) => {}
         Some(n) => {
@@ -199,108 +221,122 @@ pub fn load(text: &str) -> Result<(Plan, Results), LoadError> {
         ));
     }
     for (i, j) in jobs.iter().enumerate() {
-        let at = |k: &str| format!("jobs[{i}].{k}");
-        let steps_done = j
-            .get("steps_done")
-            .and_then(Value::as_u64)
-            .ok_or_else(|| field(&at("steps_done"), "missing or not a whole number"))?;
-        if steps_done > plan.config.steps {
-            return Err(field(&at("steps_done"), "exceeds the config's step budget"));
-        }
-        let eps = j
-            .get("episodes")
-            .and_then(Value::as_array)
-            .ok_or_else(|| field(&at("episodes"), "missing or not a list"))?;
-        for (k, e) in eps.iter().enumerate() {
-            let bad = || {
-                field(
-                    &format!("jobs[{i}].episodes[{k}]"),
-                    "must be [end_step, base_return, shaped_return, length, truncated]",
-                )
-            };
-            let a = e.as_array().filter(|a| a.len() == 5).ok_or_else(bad)?;
-            let end_step = a[0].as_u64().filter(|&s| s >= 1 && s <= steps_done).ok_or_else(bad)?;
-            let (base, shaped) = (a[1].as_f64().ok_or_else(bad)?, a[2].as_f64().ok_or_else(bad)?);
-            let length = a[3].as_u64().filter(|&l| l <= u64::from(u32::MAX)).ok_or_else(bad)? as u32;
-            let truncated = a[4].as_bool().ok_or_else(bad)?;
-            r.add_episode(
-                i,
-                EpisodeRecord { end_step, base_return: base, shaped_return: shaped, length, truncated },
-            );
-        }
-        let checkpoints = r.checkpoints().to_vec();
-        let evals = match j.get("evaluations") {
-            None | Some(Value::Null) => &[][..],
-            Some(Value::Array(a)) => &a[..],
-            Some(_) => return Err(field(&at("evaluations"), "must be a list")),
-        };
-        for (k, e) in evals.iter().enumerate() {
-            let bad = || {
-                field(
-                    &format!("jobs[{i}].evaluations[{k}]"),
-                    "must be [checkpoint, step, mean_return, episodes] with the step of one of the plan's \
-                     checkpoints, reached by the job",
-                )
-            };
-            let a = e.as_array().filter(|a| a.len() == 4).ok_or_else(bad)?;
-            let checkpoint = a[0].as_u64().filter(|&c| (c as usize) < checkpoints.len()).ok_or_else(bad)?;
-            let step = a[1]
-                .as_u64()
-                .filter(|&s| s == checkpoints[checkpoint as usize] && s <= steps_done)
-                .ok_or_else(bad)?;
-            let mean_return = a[2].as_f64().ok_or_else(bad)?;
-            let episodes = a[3].as_u64().filter(|&n| (1..=1000).contains(&n)).ok_or_else(bad)? as u32;
-            r.add_evaluation(i, EvalRecord { checkpoint: checkpoint as u32, step, mean_return, episodes });
-        }
-        let diags = match j.get("diagnostics") {
-            None | Some(Value::Null) => &[][..],
-            Some(Value::Array(a)) => &a[..],
-            Some(_) => return Err(field(&at("diagnostics"), "must be a list")),
-        };
-        let bins = r.bin_edges().len();
-        for (k, e) in diags.iter().enumerate() {
-            let bad = || {
-                field(
-                    &format!("jobs[{i}].diagnostics[{k}]"),
-                    &format!(
-                        "must be [bin, count, td, abs_td, entropy, actor_norm, critic_norm, weights, \
-                         weight_sum, weight_sq, weight_max, capped] with a bin below {bins}, whole counts \
-                         and numbers elsewhere"
-                    ),
-                )
-            };
-            let a = e.as_array().filter(|a| a.len() == 12).ok_or_else(bad)?;
-            let whole = |x: &Value| x.as_u64().ok_or_else(bad);
-            // A sum that overflowed on the way to a divergence is saved as
-            // null (JSON has no NaN or infinity) and reads back as NaN.
-            let num = |x: &Value| if x.is_null() { Ok(f64::NAN) } else { x.as_f64().ok_or_else(bad) };
-            let bin = whole(&a[0])? as usize;
-            if bin >= bins {
-                return Err(bad());
-            }
-            let sums = DiagSums {
-                count: whole(&a[1])?,
-                td: num(&a[2])?,
-                abs_td: num(&a[3])?,
-                entropy: num(&a[4])?,
-                actor_norm: num(&a[5])?,
-                critic_norm: num(&a[6])?,
-                weights: whole(&a[7])?,
-                weight_sum: num(&a[8])?,
-                weight_sq: num(&a[9])?,
-                weight_max: num(&a[10])?,
-                weight_cut: whole(&a[11])?,
-            };
-            r.set_diagnostics(i, bin, sums);
-        }
-        r.set_steps(i, steps_done);
-        match j.get("failed") {
-            None | Some(Value::Null) => {}
-            Some(Value::String(reason)) => r.mark_failed(i, reason.clone()),
-            Some(_) => return Err(field(&at("failed"), "must be null or a text")),
-        }
+        read_job(j, &format!("jobs[{i}]"), i, &plan, &mut r)?;
     }
     Ok((plan, r))
+}
+
+/// Reads one job entry (at `path` in the file) into `r` as job `id`,
+/// checking every field against the plan.
+pub(crate) fn read_job(
+    j: &Value,
+    path: &str,
+    i: usize,
+    plan: &Plan,
+    r: &mut Results,
+) -> Result<(), LoadError> {
+    let field = |p: &str, m: &str| LoadError::Field(p.into(), m.into());
+    let at = |k: &str| format!("{path}.{k}");
+    let steps_done = j
+        .get("steps_done")
+        .and_then(Value::as_u64)
+        .ok_or_else(|| field(&at("steps_done"), "missing or not a whole number"))?;
+    if steps_done > plan.config.steps {
+        return Err(field(&at("steps_done"), "exceeds the config's step budget"));
+    }
+    let eps = j
+        .get("episodes")
+        .and_then(Value::as_array)
+        .ok_or_else(|| field(&at("episodes"), "missing or not a list"))?;
+    for (k, e) in eps.iter().enumerate() {
+        let bad = || {
+            field(
+                &format!("{path}.episodes[{k}]"),
+                "must be [end_step, base_return, shaped_return, length, truncated]",
+            )
+        };
+        let a = e.as_array().filter(|a| a.len() == 5).ok_or_else(bad)?;
+        let end_step = a[0].as_u64().filter(|&s| s >= 1 && s <= steps_done).ok_or_else(bad)?;
+        let (base, shaped) = (a[1].as_f64().ok_or_else(bad)?, a[2].as_f64().ok_or_else(bad)?);
+        let length = a[3].as_u64().filter(|&l| l <= u64::from(u32::MAX)).ok_or_else(bad)? as u32;
+        let truncated = a[4].as_bool().ok_or_else(bad)?;
+        r.add_episode(
+            i,
+            EpisodeRecord { end_step, base_return: base, shaped_return: shaped, length, truncated },
+        );
+    }
+    let checkpoints = r.checkpoints().to_vec();
+    let evals = match j.get("evaluations") {
+        None | Some(Value::Null) => &[][..],
+        Some(Value::Array(a)) => &a[..],
+        Some(_) => return Err(field(&at("evaluations"), "must be a list")),
+    };
+    for (k, e) in evals.iter().enumerate() {
+        let bad = || {
+            field(
+                &format!("{path}.evaluations[{k}]"),
+                "must be [checkpoint, step, mean_return, episodes] with the step of one of the plan's \
+                 checkpoints, reached by the job",
+            )
+        };
+        let a = e.as_array().filter(|a| a.len() == 4).ok_or_else(bad)?;
+        let checkpoint = a[0].as_u64().filter(|&c| (c as usize) < checkpoints.len()).ok_or_else(bad)?;
+        let step = a[1]
+            .as_u64()
+            .filter(|&s| s == checkpoints[checkpoint as usize] && s <= steps_done)
+            .ok_or_else(bad)?;
+        let mean_return = a[2].as_f64().ok_or_else(bad)?;
+        let episodes = a[3].as_u64().filter(|&n| (1..=1000).contains(&n)).ok_or_else(bad)? as u32;
+        r.add_evaluation(i, EvalRecord { checkpoint: checkpoint as u32, step, mean_return, episodes });
+    }
+    let diags = match j.get("diagnostics") {
+        None | Some(Value::Null) => &[][..],
+        Some(Value::Array(a)) => &a[..],
+        Some(_) => return Err(field(&at("diagnostics"), "must be a list")),
+    };
+    let bins = r.bin_edges().len();
+    for (k, e) in diags.iter().enumerate() {
+        let bad = || {
+            field(
+                &format!("{path}.diagnostics[{k}]"),
+                &format!(
+                    "must be [bin, count, td, abs_td, entropy, actor_norm, critic_norm, weights, \
+                     weight_sum, weight_sq, weight_max, capped] with a bin below {bins}, whole counts \
+                     and numbers elsewhere"
+                ),
+            )
+        };
+        let a = e.as_array().filter(|a| a.len() == 12).ok_or_else(bad)?;
+        let whole = |x: &Value| x.as_u64().ok_or_else(bad);
+        // A sum that overflowed on the way to a divergence is saved as
+        // null (JSON has no NaN or infinity) and reads back as NaN.
+        let num = |x: &Value| if x.is_null() { Ok(f64::NAN) } else { x.as_f64().ok_or_else(bad) };
+        let bin = whole(&a[0])? as usize;
+        if bin >= bins {
+            return Err(bad());
+        }
+        let sums = DiagSums {
+            count: whole(&a[1])?,
+            td: num(&a[2])?,
+            abs_td: num(&a[3])?,
+            entropy: num(&a[4])?,
+            actor_norm: num(&a[5])?,
+            critic_norm: num(&a[6])?,
+            weights: whole(&a[7])?,
+            weight_sum: num(&a[8])?,
+            weight_sq: num(&a[9])?,
+            weight_max: num(&a[10])?,
+            weight_cut: whole(&a[11])?,
+        };
+        r.set_diagnostics(i, bin, sums);
+    }
+    r.set_steps(i, steps_done);
+    match j.get("failed") {
+        None | Some(Value::Null) => {}
+        Some(Value::String(reason)) => r.mark_failed(i, reason.clone()),
+        Some(_) => return Err(field(&at("failed"), "must be null or a text")),
+    }
+    Ok(())
 }
 
 #[cfg(test)]
@@ -333,7 +369,9 @@ mod tests {
         let text = save(&plan, &r).to_string();
         assert!(text.contains("null"), "the overflowed sums are written as null");
         let (_, back) = load(&text).unwrap_or_else(|e| panic!("{e}"));
-        assert!(back.job_diagnostics(0)[2].abs_td.is_nan() && back.job_diagnostics(0)[2].critic_norm.is_nan());
+        assert!(
+            back.job_diagnostics(0)[2].abs_td.is_nan() && back.job_diagnostics(0)[2].critic_norm.is_nan()
+        );
         assert_eq!(back.summary(), r.summary(), "non-finite numbers are null in both summaries");
     }
 

@@ -10,7 +10,7 @@
 //! returns on environment steps, collects the evaluation returns, and
 //! summarises both across seeds; [`compare`] makes the scores and the
 //! comparisons, [`hacking`] the reward-hacking signal, [`export`] the CSV
-//! and results files, [`inspect`] reads what a job has learned, [`audit`]
+//! and results files, [`shard`] the shards of a plan and their merge, [`inspect`] reads what a job has learned, [`audit`]
 //! the shaping audit of every reward in the plan.
 
 pub mod audit;
@@ -23,6 +23,7 @@ pub mod inspect;
 pub mod probe;
 pub mod results;
 pub mod runner;
+pub mod shard;
 pub mod study;
 
 pub use config::{parse, Config, ConfigError, JobSpec, Measure, Plan, Problem, VariantPlan, SCHEMA};
