@@ -324,6 +324,11 @@ pub fn merge(parts: &[(String, Part)]) -> Result<Merged, String> {
             for e in evals {
                 results.add_evaluation(id, *e);
             }
+            for (bin, d) in p.results.job_diagnostics(id).iter().enumerate() {
+                if d.count > 0 {
+                    results.set_diagnostics(id, bin, *d);
+                }
+            }
             results.set_steps(id, steps_done);
             if let Some(f) = failed {
                 results.mark_failed(id, f.to_string());
