@@ -248,53 +248,123 @@ impl RewardConfig {
     }
 }
 
+/// The live check of a formula for an editor, as [`check_report`] returns it.
+#[derive(Clone, Debug, Serialize)]
+pub struct FormulaCheck {
+    /// Whether the formula compiles with the reward's constants.
+    pub ok: bool,
+    /// Every problem found, in order.
+    pub errors: Vec<ErrorReport>,
+    /// The canonical text (`null` unless ok, and in mode `base`).
+    pub pretty: Option<String>,
+    /// Which inputs the formula reads (`null` unless ok).
+    pub uses: Option<UsesReport>,
+    /// The names the formula may use.
+    pub names: Vec<NameReport>,
+}
+
+/// One problem of a checked formula; `start`/`end` count UTF-16 code units.
+#[derive(Clone, Debug, Serialize)]
+pub struct ErrorReport {
+    /// First code unit of the problem.
+    pub start: usize,
+    /// One past its last code unit.
+    pub end: usize,
+    /// Its column (1-based).
+    pub column: usize,
+    /// What is wrong.
+    pub message: String,
+    /// How to fix it (may be empty).
+    pub hint: String,
+}
+
+/// Which inputs a formula reads, as printed (`t` is the step index).
+#[derive(Clone, Copy, Debug, Serialize)]
+pub struct UsesReport {
+    /// A current-state variable.
+    pub state: bool,
+    /// A next-state variable.
+    pub next: bool,
+    /// The action.
+    pub action: bool,
+    /// The base reward.
+    pub base: bool,
+    /// The termination flag.
+    pub terminal: bool,
+    /// The step index.
+    pub t: bool,
+}
+
+/// One name a formula may use: its kind and one line of help.
+#[derive(Clone, Debug, Serialize)]
+pub struct NameReport {
+    /// The name.
+    pub name: String,
+    /// Its kind (see `compile::NameInfo::kind`).
+    pub kind: &'static str,
+    /// One line of help.
+    pub doc: String,
+}
+
 /// The live check of a formula for an editor: `text` is checked as the
 /// formula of `reward` (whose own `formula` is ignored) on a task. Returns
 /// JSON `{ok, errors: [{start, end, column, message, hint}], pretty, uses,
-/// names: [{name, kind, doc}]}` where `start`/`end` count UTF-16 code units
-/// (JavaScript string positions), `pretty` is the canonical text (null
-/// unless ok) and `uses` says which inputs the formula reads. Problems with
-/// the constants are errors at position 0 whose message starts with
-/// `constants.NAME:`.
+/// names: [{name, kind, doc}]}` ([`FormulaCheck`]) where `start`/`end` count
+/// UTF-16 code units (JavaScript string positions), `pretty` is the
+/// canonical text (null unless ok) and `uses` says which inputs the formula
+/// reads. Problems with the constants are errors at position 0 whose message
+/// starts with `constants.NAME:`.
 pub fn check_report(text: &str, spec: &TaskSpec, reward: &RewardConfig) -> serde_json::Value {
-    use serde_json::json;
+    crate::report::to_value(&check_formula(text, spec, reward))
+}
+
+/// [`check_report`] as its typed report.
+pub fn check_formula(text: &str, spec: &TaskSpec, reward: &RewardConfig) -> FormulaCheck {
     let cfg = RewardConfig { formula: text.to_string(), ..reward.clone() };
     let mut errors = Vec::new();
     for p in cfg.constant_problems(spec) {
-        errors.push(json!({"start": 0, "end": 0, "column": 1, "message": p.to_string(), "hint": ""}));
+        errors.push(ErrorReport { start: 0, end: 0, column: 1, message: p.to_string(), hint: String::new() });
     }
-    let mut pretty = serde_json::Value::Null;
-    let mut uses = serde_json::Value::Null;
+    let mut pretty = None;
+    let mut uses = None;
     if errors.is_empty() {
         match cfg.compile(spec, spec.default_discount) {
             Ok(program) => {
                 if cfg.mode != Mode::Base {
-                    pretty = json!(cfg.pretty());
+                    pretty = Some(cfg.pretty());
                 }
                 let u = program.as_ref().map(Program::uses).unwrap_or_default();
-                uses = json!({
-                    "state": u.state, "next": u.next, "action": u.action,
-                    "base": u.base, "terminal": u.terminal, "t": u.step,
+                uses = Some(UsesReport {
+                    state: u.state,
+                    next: u.next,
+                    action: u.action,
+                    base: u.base,
+                    terminal: u.terminal,
+                    t: u.step,
                 });
             }
             Err(errs) => {
                 for e in errs {
                     let (start, end) = e.utf16_span(text);
-                    errors.push(json!({
-                        "start": start, "end": end, "column": e.column, "message": e.message, "hint": e.hint,
-                    }));
+                    errors.push(ErrorReport {
+                        start,
+                        end,
+                        column: e.column,
+                        message: e.message,
+                        hint: e.hint,
+                    });
                 }
             }
         }
     }
-    let names: Vec<serde_json::Value> = cfg
+    let names = cfg
         .scope(spec, spec.default_discount)
         .names()
         .iter()
         .filter(|n| cfg.mode != Mode::Potential || !matches!(n.binding, compile::Binding::Input(_)))
-        .map(|n| json!({"name": n.name, "kind": n.kind, "doc": n.doc}))
+        .map(|n| NameReport { name: n.name.clone(), kind: n.kind, doc: n.doc.clone() })
         .collect();
-    json!({"ok": errors.is_empty(), "errors": errors, "pretty": pretty, "uses": uses, "names": names})
+    FormulaCheck { ok: errors.is_empty(), errors, pretty, uses, names }
 }
 
 /// What a shaper needs to know about one step.
