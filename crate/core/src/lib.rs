@@ -19,5 +19,6 @@ pub mod policy;
 pub mod report;
 pub mod reward;
 pub mod rng;
+pub mod settings;
 pub mod stats;
 pub mod task;

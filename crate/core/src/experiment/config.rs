@@ -712,20 +712,20 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
     if config.variants.is_empty() || config.variants.len() > MAX_VARIANTS {
         bad("variants".into(), format!("needs 1 to {MAX_VARIANTS} entries, got {}", config.variants.len()));
     }
-    if !(1..=MAX_SEEDS).contains(&config.seeds) {
-        bad("seeds".into(), format!("must be in [1, {MAX_SEEDS}], got {}", config.seeds));
+    if let Some(m) = crate::settings::check_int("experiment.seeds", u64::from(config.seeds)) {
+        bad("seeds".into(), m);
     }
-    if !(1..=MAX_STEPS).contains(&config.steps) {
-        bad("steps".into(), format!("must be in [1, {MAX_STEPS}], got {}", config.steps));
+    if let Some(m) = crate::settings::check_int("experiment.steps", config.steps) {
+        bad("steps".into(), m);
     }
-    if config.master_seed > MAX_MASTER_SEED {
-        bad("master_seed".into(), format!("must be in [0, {MAX_MASTER_SEED}], got {}", config.master_seed));
+    if let Some(m) = crate::settings::check_int("experiment.master_seed", config.master_seed) {
+        bad("master_seed".into(), m);
     }
-    if !(2..=1000).contains(&config.curve_points) {
-        bad("curve_points".into(), format!("must be in [2, 1000], got {}", config.curve_points));
+    if let Some(m) = crate::settings::check_int("experiment.curve_points", u64::from(config.curve_points)) {
+        bad("curve_points".into(), m);
     }
-    if !(config.final_fraction > 0.0 && config.final_fraction <= 1.0) {
-        bad("final_fraction".into(), format!("must be in (0, 1], got {}", config.final_fraction));
+    if let Some(m) = crate::settings::check("experiment.final_fraction", config.final_fraction) {
+        bad("final_fraction".into(), m);
     }
     if let Some(t) = config.threshold {
         if !t.is_finite() {
@@ -1025,11 +1025,10 @@ fn resolve_scoring(
             });
         }
         let episodes = c.episodes.unwrap_or(10);
-        if !(1..=1000).contains(&episodes) {
-            problems.push(Problem {
-                path: "evaluation.episodes".into(),
-                message: format!("must be in [1, 1000], got {episodes}"),
-            });
+        if let Some(message) =
+            crate::settings::check_int("experiment.evaluation.episodes", u64::from(episodes))
+        {
+            problems.push(Problem { path: "evaluation.episodes".into(), message });
         }
         let every = every.max(1);
         EvalPlan {
