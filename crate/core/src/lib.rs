@@ -16,6 +16,7 @@ pub mod experiment;
 pub mod learn;
 pub mod optim;
 pub mod policy;
+pub mod problem;
 pub mod report;
 pub mod reward;
 pub mod rng;

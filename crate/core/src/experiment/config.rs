@@ -298,24 +298,8 @@ impl EvalPlan {
     }
 }
 
-/// One problem in a config: where and what.
-#[derive(Clone, Debug, PartialEq, Eq)]
-pub struct Problem {
-    /// Path of the field, e.g. `variants[1].learner.actor_step` (empty for the whole text).
-    pub path: String,
-    /// What is wrong.
-    pub message: String,
-}
-
-impl std::fmt::Display for Problem {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        if self.path.is_empty() {
-            write!(f, "{}", self.message)
-        } else {
-            write!(f, "{}: {}", self.path, self.message)
-        }
-    }
-}
+/// One problem in a config: where and what (the shape every module uses).
+pub use crate::problem::Problem;
 
 /// Everything wrong with a config.
 #[derive(Clone, Debug, PartialEq, Eq)]
@@ -742,7 +726,7 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
     }
     if let Some(spec) = &spec {
         for p in config.reward.check(spec, spec.default_discount) {
-            bad(format!("reward.{}", p.field), p.message);
+            bad(format!("reward.{}", p.path), p.message);
         }
     }
     let mut variants = Vec::new();
@@ -773,7 +757,7 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
                 Err(ps) => {
                     for p in ps {
                         extra.push(Problem {
-                            path: join(&format!("variants[{i}].sweep"), &p.field),
+                            path: join(&format!("variants[{i}].sweep"), &p.path),
                             message: p.message,
                         });
                     }
@@ -832,13 +816,13 @@ fn resolve_variant(
     };
     if let Some(spec) = spec {
         for e in setup.check(spec) {
-            problems.push(Problem { path: origin(&e.field), message: e.message });
+            problems.push(Problem { path: origin(&e.path), message: e.message });
         }
     }
     let reward = own_reward.cloned().unwrap_or_else(|| config.reward.clone());
     if let (Some(spec), Some(_)) = (spec, own_reward) {
         for p in reward.check(spec, setup.shaping_discount(spec)) {
-            problems.push(Problem { path: format!("variants[{i}].reward.{}", p.field), message: p.message });
+            problems.push(Problem { path: format!("variants[{i}].reward.{}", p.path), message: p.message });
         }
     }
     (Some((setup, reward)), problems)

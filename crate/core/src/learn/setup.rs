@@ -275,23 +275,9 @@ impl Default for LearnerSetup {
     }
 }
 
-/// A setting of a learner setup that is out of range: (field path within
-/// the setup, message).
-#[derive(Clone, Debug, PartialEq)]
-pub struct SetupError {
-    /// Field path within the setup, e.g. `features.tilings`.
-    pub field: String,
-    /// What is wrong.
-    pub message: String,
-}
-
-impl std::fmt::Display for SetupError {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        write!(f, "{}: {}", self.field, self.message)
-    }
-}
-
-impl std::error::Error for SetupError {}
+/// A setting of a learner setup that is out of range (path within the
+/// setup, e.g. `features.tilings`, and message).
+pub type SetupError = crate::problem::Problem;
 
 /// The state variables followed by the action components (the input of the
 /// deterministic learner's critic), each with its range.
@@ -308,14 +294,14 @@ pub fn joint_vars(spec: &TaskSpec) -> Vec<StateVar> {
 /// Checks `v` against the settings table's range of `learner.FIELD`.
 fn in_range(errs: &mut Vec<SetupError>, field: &str, v: f64) {
     if let Some(message) = crate::settings::check(&format!("learner.{field}"), v) {
-        errs.push(SetupError { field: field.into(), message });
+        errs.push(SetupError { path: field.into(), message });
     }
 }
 
 /// [`in_range`] for a whole-number setting.
 fn in_range_int(errs: &mut Vec<SetupError>, field: &str, v: u64) {
     if let Some(message) = crate::settings::check_int(&format!("learner.{field}"), v) {
-        errs.push(SetupError { field: field.into(), message });
+        errs.push(SetupError { path: field.into(), message });
     }
 }
 
@@ -362,7 +348,7 @@ impl LearnerSetup {
     pub fn check(&self, spec: &TaskSpec) -> Vec<SetupError> {
         let mut errs = Vec::new();
         let bad = |errs: &mut Vec<SetupError>, field: &str, message: String| {
-            errs.push(SetupError { field: field.into(), message })
+            errs.push(SetupError { path: field.into(), message })
         };
         if let Some(g) = self.discount {
             in_range(&mut errs, "discount", g);

@@ -124,21 +124,9 @@ pub struct RewardConfig {
     pub constants: BTreeMap<String, f64>,
 }
 
-/// A problem in a reward config: the field (relative to the `reward`
+/// A problem in a reward config: the path (relative to the `reward`
 /// object: `mode`, `formula`, `constants.k`) and what is wrong.
-#[derive(Clone, Debug, PartialEq, Eq)]
-pub struct RewardProblem {
-    /// Field path within the reward object.
-    pub field: String,
-    /// What is wrong.
-    pub message: String,
-}
-
-impl std::fmt::Display for RewardProblem {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        write!(f, "{}: {}", self.field, self.message)
-    }
-}
+pub type RewardProblem = crate::problem::Problem;
 
 /// Why a potential may only read the current state.
 const POTENTIAL_ONLY_STATE: &str =
@@ -169,7 +157,7 @@ impl RewardConfig {
         let mut out = Vec::new();
         if self.constants.len() > MAX_CONSTANTS {
             out.push(RewardProblem {
-                field: "constants".into(),
+                path: "constants".into(),
                 message: format!("has {} entries; at most {MAX_CONSTANTS} are allowed", self.constants.len()),
             });
         }
@@ -177,18 +165,18 @@ impl RewardConfig {
             let field = format!("constants.{name}");
             if !compile::is_identifier(name) || name.len() > 40 {
                 out.push(RewardProblem {
-                    field,
+                    path: field,
                     message: "a constant's name needs 1 to 40 letters, digits or `_`, must not start with a \
                               digit and must not be a keyword (if then else and or not)"
                         .into(),
                 });
             } else if let Some(what) = Scope::clash(spec, name) {
                 out.push(RewardProblem {
-                    field,
+                    path: field,
                     message: format!("the name is already taken by {what}; choose another"),
                 });
             } else if !v.is_finite() {
-                out.push(RewardProblem { field, message: format!("must be a finite number, got {v}") });
+                out.push(RewardProblem { path: field, message: format!("must be a finite number, got {v}") });
             }
         }
         out
@@ -228,7 +216,7 @@ impl RewardConfig {
             return out;
         }
         for e in self.formula_errors(spec, gamma) {
-            out.push(RewardProblem { field: "formula".into(), message: e.to_string() });
+            out.push(RewardProblem { path: "formula".into(), message: e.to_string() });
         }
         out
     }
@@ -407,7 +395,7 @@ impl Shaper {
         }
         let program = cfg.compile(spec, gamma).map_err(|errs| {
             errs.into_iter()
-                .map(|e| RewardProblem { field: "formula".into(), message: e.to_string() })
+                .map(|e| RewardProblem { path: "formula".into(), message: e.to_string() })
                 .collect::<Vec<_>>()
         })?;
         let scope = cfg.scope(spec, gamma);
@@ -538,7 +526,7 @@ mod tests {
         let spec = spec();
         let p = cfg(Mode::Potential, "row' - row").check(&spec, 0.9);
         assert_eq!(p.len(), 1);
-        assert_eq!(p[0].field, "formula");
+        assert_eq!(p[0].path, "formula");
         assert!(p[0].message.starts_with("column 1: `row'` cannot be used here"), "{}", p[0].message);
         let p = cfg(Mode::Bonus, "").check(&spec, 0.9);
         assert!(p[0].message.contains("empty"));
@@ -549,7 +537,7 @@ mod tests {
         c.constants.insert("2x".into(), 1.0);
         c.constants.insert("big".into(), f64::INFINITY);
         let p = c.check(&spec, 0.9);
-        let fields: Vec<&str> = p.iter().map(|x| x.field.as_str()).collect();
+        let fields: Vec<&str> = p.iter().map(|x| x.path.as_str()).collect();
         assert_eq!(fields, ["constants.2x", "constants.big", "constants.row"]);
         assert!(p[2].message.contains("the state variable `row`"));
     }
