@@ -1,24 +1,15 @@
 // Learning-curve drawing. drawCurves(ctx, data, options) is a pure function of
 // its arguments: it keeps no state between calls and returns the layout it
 // used (so a caller or a test can find the plot area). Each variant gets a
-// colour and a dash pattern (second cue for readers who cannot tell the
-// colours apart): a line of the chosen statistic over seeds (mean with its
-// translucent pointwise 95% band, or the IQM, or the median), optionally one
-// thin line per seed, faint background curves (the return while learning
-// behind the learned policy's), an optional dotted threshold line, and a
-// note when the points average different numbers of seeds or too few for a
-// band. drawLogLines draws a few
-// series on a log-scale y axis (the gradient-variance view). Colours come
-// from palette.js, numbers are written by numbers.js.
+// colour and a dash pattern (plot.js): a line of the chosen statistic over
+// seeds (mean with its translucent pointwise 95% band, or the IQM, or the
+// median), optionally one thin line per seed, faint background curves (the
+// return while learning behind the learned policy's), an optional dotted
+// threshold line, and a note when the points average different numbers of
+// seeds or too few for a band. Shared chart helpers live in plot.js, the
+// log-scale chart of the gradient-variance view in logchart.js.
 
-import { SERIES_LIGHT } from './palette.js';
-import { formatNumber } from './numbers.js';
-
-/** Dash patterns, one per variant in order (CSS px); the first is solid. */
-export const DASHES = [[], [9, 4], [2, 3], [11, 3, 2, 3], [5, 5], [14, 3, 2, 3, 2, 3]];
-
-/** Series colours when the caller gives none (the light theme's). */
-export const PALETTE = SERIES_LIGHT;
+import { PALETTE, seriesStyle, niceTicks, formatSteps, formatValue, runsWhere, drawSample } from './plot.js';
 
 /** Curve record stride (contract): binEndStep, mean, lo95, hi95, nSeedsWithData. */
 export const CURVE_STRIDE = 5;
@@ -35,59 +26,6 @@ export const STATS = {
 
 /** What the y axis measures, before the statistic. */
 export const MEASURES = { training: 'return while learning', evaluation: 'learned policy' };
-
-export function seriesStyle(i, palette = PALETTE) {
-  // Past the palette's length the dash cycle is shifted, so no two of the
-  // first palette.length × DASHES.length variants share both cues.
-  const lap = Math.floor(i / palette.length);
-  return { colour: palette[i % palette.length], dash: DASHES[(i + lap) % DASHES.length] };
-}
-
-/** Size a canvas to css px × devicePixelRatio; returns true when it changed. */
-export function sizeCanvas(canvas, cssWidth, cssHeight, dpr) {
-  const w = Math.max(1, Math.round(cssWidth * dpr));
-  const h = Math.max(1, Math.round(cssHeight * dpr));
-  canvas.style.width = `${cssWidth}px`;
-  canvas.style.height = `${cssHeight}px`;
-  if (canvas.width === w && canvas.height === h) return false;
-  canvas.width = w;
-  canvas.height = h;
-  return true;
-}
-
-/** About `target` round tick values (1, 2, 5 × 10^k) covering [min, max]. */
-export function niceTicks(min, max, target = 5) {
-  if (!(Number.isFinite(min) && Number.isFinite(max)) || max <= min) return { step: 1, ticks: [min] };
-  const raw = (max - min) / Math.max(1, target);
-  const mag = 10 ** Math.floor(Math.log10(raw));
-  const norm = raw / mag;
-  const step = (norm < 1.5 ? 1 : norm < 3.5 ? 2 : norm < 7.5 ? 5 : 10) * mag;
-  const ticks = [];
-  const first = Math.ceil(min / step - 1e-9) * step;
-  for (let t = first; t <= max + step * 1e-9; t += step) ticks.push(Math.abs(t) < step * 1e-9 ? 0 : t);
-  return { step, ticks };
-}
-
-/** Environment-step labels: 500, 2K, 12.5K, 1.2M. */
-export function formatSteps(v) {
-  return formatNumber(v);
-}
-
-/** A value label with as many decimals as the tick step needs. */
-export function formatValue(v, step) {
-  return formatNumber(v, { decimals: step >= 1 ? 0 : Math.min(6, Math.ceil(-Math.log10(step) - 1e-9)) });
-}
-
-/** Contiguous index runs where pred(i) holds. */
-function runsWhere(n, pred) {
-  const runs = [];
-  let start = -1;
-  for (let i = 0; i < n; i++) {
-    if (pred(i)) { if (start < 0) start = i; } else if (start >= 0) { runs.push([start, i - 1]); start = -1; }
-  }
-  if (start >= 0) runs.push([start, n - 1]);
-  return runs;
-}
 
 /**
  * Draw learning curves.
@@ -398,109 +336,4 @@ export function drawCurves(ctx, data, options) {
 
   ctx.restore();
   return { plot, x: [0, xMax], y: [yLo, yHi], series, stat, seedLines, measure, seedNote };
-}
-
-/** A legend sample: band patch behind a short line in the variant's style. */
-export function drawSample(ctx, x, y, length, style) {
-  ctx.save();
-  ctx.fillStyle = style.colour;
-  ctx.globalAlpha = 0.17;
-  ctx.fillRect(x, y - 5, length, 10);
-  ctx.globalAlpha = 1;
-  ctx.strokeStyle = style.colour;
-  ctx.lineWidth = 2;
-  ctx.setLineDash(style.dash);
-  ctx.beginPath();
-  ctx.moveTo(x, y);
-  ctx.lineTo(x + length, y);
-  ctx.stroke();
-  ctx.restore();
-}
-
-/**
- * Lines over a few x points on a log-scale y axis (the gradient-variance
- * probe: trace of the gradient estimate's covariance per baseline option).
- * @param {object} data {series: [{label, points: [[x, y]]}], xLabel, yLabel}
- *   y values that are not finite and > 0 are left out.
- * @param {object} options {width, height, dpr, colours, palette, font}
- * @returns {{plot, y: [number, number], series: [{label, points}]}}
- */
-export function drawLogLines(ctx, data, options) {
-  const { width, height, dpr = 1 } = options;
-  const colours = { background: '#fff', ink: '#222', muted: '#666', grid: '#ddd', ...options.colours };
-  const palette = options.palette && options.palette.length ? options.palette : PALETTE;
-  const family = options.font || 'sans-serif';
-  ctx.save();
-  ctx.setTransform(dpr, 0, 0, dpr, 0, 0);
-  ctx.fillStyle = colours.background;
-  ctx.fillRect(0, 0, width, height);
-  ctx.font = `12px ${family}`;
-  const pts = data.series.map((s) => s.points.filter(([x, y]) => Number.isFinite(x) && Number.isFinite(y) && y > 0));
-  let lo = Infinity;
-  let hi = -Infinity;
-  let xMin = Infinity;
-  let xMax = -Infinity;
-  for (const p of pts) for (const [x, y] of p) { lo = Math.min(lo, y); hi = Math.max(hi, y); xMin = Math.min(xMin, x); xMax = Math.max(xMax, x); }
-  const has = lo <= hi;
-  if (!has) { lo = 1; hi = 10; xMin = 0; xMax = 1; }
-  const e0 = Math.floor(Math.log10(lo));
-  const e1 = Math.max(e0 + 1, Math.ceil(Math.log10(hi)));
-  if (xMax <= xMin) { xMin -= 1; xMax += 1; }
-  const legendH = 26;
-  const labW = Math.max(...Array.from({ length: e1 - e0 + 1 }, (_, i) => ctx.measureText(formatNumber(10 ** (e0 + i))).width)) + 8;
-  const plot = { x: 30 + labW, y: 8 + legendH, w: 0, h: 0 };
-  plot.w = Math.max(10, width - plot.x - 16);
-  plot.h = Math.max(10, height - plot.y - 40);
-  const pad = (xMax - xMin) * 0.04;
-  const sx = (x) => plot.x + ((x - xMin + pad) / (xMax - xMin + 2 * pad)) * plot.w;
-  const sy = (y) => plot.y + plot.h - ((Math.log10(y) - e0) / (e1 - e0)) * plot.h;
-  ctx.strokeStyle = colours.grid;
-  ctx.lineWidth = 1;
-  ctx.beginPath();
-  for (let e = e0; e <= e1; e++) { const y = Math.round(sy(10 ** e)) + 0.5; ctx.moveTo(plot.x, y); ctx.lineTo(plot.x + plot.w, y); }
-  ctx.stroke();
-  ctx.fillStyle = colours.muted;
-  ctx.textAlign = 'right';
-  ctx.textBaseline = 'middle';
-  for (let e = e0; e <= e1; e++) ctx.fillText(formatNumber(10 ** e), plot.x - 6, sy(10 ** e));
-  const xs = [...new Set(pts.flat().map(([x]) => x))].sort((a, b) => a - b);
-  ctx.textAlign = 'center';
-  ctx.textBaseline = 'top';
-  for (const x of xs) ctx.fillText(formatSteps(x), sx(x), plot.y + plot.h + 6);
-  ctx.strokeStyle = colours.muted;
-  ctx.beginPath();
-  ctx.moveTo(plot.x + 0.5, plot.y); ctx.lineTo(plot.x + 0.5, plot.y + plot.h + 0.5); ctx.lineTo(plot.x + plot.w, plot.y + plot.h + 0.5);
-  ctx.stroke();
-  ctx.fillStyle = colours.muted;
-  ctx.textBaseline = 'bottom';
-  ctx.fillText(data.xLabel || 'environment steps', plot.x + plot.w / 2, height - 2);
-  ctx.save();
-  ctx.translate(12, plot.y + plot.h / 2);
-  ctx.rotate(-Math.PI / 2);
-  ctx.textBaseline = 'middle';
-  ctx.fillText(data.yLabel || '', 0, 0);
-  ctx.restore();
-  const series = data.series.map((s, i) => ({ label: s.label, ...seriesStyle(i, palette), points: pts[i].length }));
-  pts.forEach((p, i) => {
-    ctx.strokeStyle = series[i].colour;
-    ctx.fillStyle = series[i].colour;
-    ctx.lineWidth = 2;
-    ctx.setLineDash(series[i].dash);
-    ctx.beginPath();
-    p.forEach(([x, y], k) => (k ? ctx.lineTo(sx(x), sy(y)) : ctx.moveTo(sx(x), sy(y))));
-    ctx.stroke();
-    ctx.setLineDash([]);
-    for (const [x, y] of p) { ctx.beginPath(); ctx.arc(sx(x), sy(y), 3, 0, 2 * Math.PI); ctx.fill(); }
-  });
-  let lx = plot.x;
-  ctx.textAlign = 'left';
-  ctx.textBaseline = 'middle';
-  series.forEach((s) => {
-    drawSample(ctx, lx, 14, 26, s);
-    ctx.fillStyle = colours.ink;
-    ctx.fillText(s.label, lx + 32, 14);
-    lx += 32 + ctx.measureText(s.label).width + 16;
-  });
-  ctx.restore();
-  return { plot, y: [10 ** e0, 10 ** e1], series };
 }

@@ -7,7 +7,8 @@
 // state.curves (its one owner), and draws at most once per animation frame
 // with chart.js's drawCurves.
 
-import { drawCurves, sizeCanvas } from './chart.js';
+import { drawCurves } from './chart.js';
+import { sizeCanvas } from './plot.js';
 import { canvasPng, download, fileStem } from './export.js';
 import { messageOf } from './wasm.js';
 

@@ -6,7 +6,7 @@
 import { Probe } from './probe.js';
 import { drawGridMap, drawStateList, drawSlice, sliceObservations } from './inspect.js';
 import { drawFrame, frameCount, frameAt } from './rollout.js';
-import { sizeCanvas } from './chart.js';
+import { sizeCanvas } from './plot.js';
 import { canvasPng, download, fileStem } from './export.js';
 import { messageOf } from './wasm.js';
 import { formatNumber, formatCount } from './numbers.js';

@@ -20,6 +20,7 @@ import { createInspectView } from './inspectview.js';
 import { createSensitivityView } from './sensitivityview.js';
 import { createVarianceView } from './varianceview.js';
 import { seriesColours } from './palette.js';
+import { useCoreSettings } from './settings.js';
 
 const state = createState();
 const $ = (id) => document.getElementById(id);
@@ -145,7 +146,7 @@ darkScheme.addEventListener('change', () => {
 async function main() {
   applyPalette();
   changed('run');
-  const wasmLoad = loadWasm().then((w) => { state.wasm = w; }, (err) => {
+  const wasmLoad = loadWasm().then((w) => { useCoreSettings(JSON.parse(w.settingsTable())); state.wasm = w; }, (err) => {
     app.showError(`The WebAssembly module did not load: ${messageOf(err)}`);
   });
   await app.experiment.loadPresets();

@@ -6,7 +6,7 @@
 // lightness steps along each arm of the ramp, and a least CIEDE2000
 // difference between any two series colours under normal vision and
 // simulated protanopia, deuteranopia and tritanopia. Curves also differ by
-// dash pattern (chart.js), a second cue.
+// dash pattern (plot.js), a second cue.
 
 /** Series colours on the light theme's paper: teal, plum, ochre, slate, rust, sage. */
 export const SERIES_LIGHT = Object.freeze(['#136a58', '#7a4682', '#b07a2e', '#323f4a', '#8c4022', '#6b8a6c']);

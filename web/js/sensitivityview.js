@@ -7,7 +7,7 @@
 // (`study`, `variants[].study`), the same numbers `critbox run` prints.
 // drawSensitivity(ctx, study, options) is a pure function of its arguments.
 
-import { sizeCanvas, niceTicks, formatValue } from './chart.js';
+import { sizeCanvas, niceTicks, formatValue } from './plot.js';
 import { rampColour, rampPosition, inkOnRamp } from './palette.js';
 import { formatNumber } from './numbers.js';
 import { canvasPng, download, fileStem } from './export.js';

@@ -1,8 +1,8 @@
 // What every setting of an experiment is: its config key, label, default,
 // range and a short explanation. The form (controls.js) is drawn from these
-// tables, so a new core setting is one entry here. The ranges repeat the
-// core's checks for the explanations only: the core (validateConfig) stays
-// the judge, and its messages name the field.
+// tables, so a new core setting is one entry here. // Numeric and on/off settings take their default, range and help from the
+// core's settings table (useCoreSettings, at boot), the same table the core's
+// validation reads its ranges from; labels, layout and `when` live here.
 //
 // Field descriptor:
 //   key      config key within its object
@@ -19,13 +19,15 @@
 //   when     (env) => bool: shown only when true; env = {setup, task, finite, continuous, continuing}
 //   wide     the control takes the whole row
 
-const num = (key, label, def, range, help, extra = {}) => ({ key, label, type: 'number', def: String(def), value: def, range, help, ...extra });
-const int = (key, label, def, range, help, extra = {}) => ({ key, label, type: 'int', def: String(def), value: def, range, help, ...extra });
+// A number or whole number whose default, range and help come from the
+// core's settings table (useCoreSettings fills them in; extra may still set
+// `def` text for a setting without a default, and `value` to start it with).
+const num = (key, label, extra = {}) => ({ key, label, type: 'number', ...extra });
+const int = (key, label, extra = {}) => ({ key, label, type: 'int', ...extra });
 
 // ---------------------------------------------------------------- tasks
 
-const maxSteps = (def, help = 'An episode is cut (and bootstrapped) after this many steps.') =>
-  int('max_steps', 'Episode step limit', def, '[1, 100000]', help);
+const maxSteps = () => int('max_steps', 'Episode step limit');
 
 /** Tasks by config kind: label, blurb, fields, and what the page needs to know of them. */
 export const TASKS = {
@@ -44,32 +46,32 @@ export const TASKS = {
         help: '# wall, . floor, S start, D dock, ~ spill, > < ^ v one-way conveyors. One row per line.',
         when: (env) => !env.task.layout,
       },
-      num('slip', 'Slip probability', 0, '[0, 0.5]', 'Chance that a move goes sideways instead.'),
-      num('step_reward', 'Step reward', -1, '[−1000, 1000]', 'Reward for every move.'),
-      num('hazard_reward', 'Spill reward', -10, '[−1000, 1000]', 'Extra reward for entering a spill.'),
+      num('slip', 'Slip probability'),
+      num('step_reward', 'Step reward'),
+      num('hazard_reward', 'Spill reward'),
       { key: 'hazard_restart', label: 'A spill sends the rover back to the start', type: 'bool', def: 'off', value: false, help: 'Otherwise it only costs the spill reward.' },
-      num('goal_reward', 'Dock reward', 0, '[−1000, 1000]', 'Extra reward for reaching the dock.'),
-      maxSteps(200),
+      num('goal_reward', 'Dock reward'),
+      maxSteps(),
     ],
   },
   cartpole: {
     label: 'Cart-pole',
     blurb: 'Keep a pole upright on a cart by pushing left or right; +1 per step until it falls or the cart leaves the track.',
-    fields: [maxSteps(500)],
+    fields: [maxSteps()],
   },
   mountain_car: {
     label: 'Car on a hill (mountain car)',
     blurb: 'An underpowered car must rock back and forth to reach the hilltop; −1 per step.',
-    fields: [maxSteps(1000)],
+    fields: [maxSteps()],
   },
   pendulum: {
     label: 'Pendulum swing-up',
     blurb: 'Swing a pendulum up and hold it with limited torque; continuous torque by default.',
     continuous: (task) => !task.torque_levels,
     fields: [
-      maxSteps(1000, 'Steps per episode (at the default step of 0.02 s, 1000 steps are 20 s).'),
-      num('dt', 'Time step (s)', 0.02, '[0.001, 0.1]', 'Control and integration step.'),
-      int('torque_levels', 'Torque levels', 0, '0, or [2, 21]', '0: a continuous torque; n: n evenly spaced torques (discrete actions).'),
+      maxSteps(),
+      num('dt', 'Time step (s)'),
+      int('torque_levels', 'Torque levels'),
     ],
   },
   server: {
@@ -78,35 +80,35 @@ export const TASKS = {
     finite: true,
     continuing: true,
     fields: [
-      int('slots', 'Slots', 3, '[1, 10]', 'Jobs that can run at once.'),
+      int('slots', 'Slots'),
       { key: 'payments', label: 'Payment per class', type: 'numbers', def: '1, 2, 4', value: [1, 2, 4], range: '1 to 4 classes, each in [−1000, 1000]', help: 'Paid on admitting a job, lowest class first.' },
-      num('arrival', 'Arrival probability', 0.9, '[0, 1]', 'Chance a job arrives in a step.'),
+      num('arrival', 'Arrival probability'),
       { key: 'mix', label: 'Class mix', type: 'numbers', def: '0.5, 0.3, 0.2', value: [0.5, 0.3, 0.2], range: 'one share per class, summing to 1', help: 'Share of each class among arriving jobs.' },
-      num('finish_prob', 'Finish probability', 0.2, '(0, 1]', 'Chance a busy slot finishes its job in a step.'),
-      int('max_steps', 'Report window (steps)', 1000, '[1, 100000]', 'The task never ends; every this many steps one point of mean reward is recorded.'),
+      num('finish_prob', 'Finish probability'),
+      int('max_steps', 'Report window (steps)'),
     ],
   },
   corridor: {
     label: 'Short corridor (switched actions)',
     blurb: 'Four cells where the actions are reversed in the second; the agent cannot tell the cells apart, so the best policy is stochastic.',
     finite: true,
-    fields: [maxSteps(1000)],
+    fields: [maxSteps()],
   },
   lqr: {
     label: 'Linear-quadratic regulator',
     blurb: 'Drive x to 0: x′ = a·x + b·u + noise, cost q·x² + r·u². Continuous action; the optimal gain is known exactly.',
     continuous: () => true,
     fields: [
-      num('a', 'a (state coefficient)', 1, '[−10, 10]', 'How x carries over.'),
-      num('b', 'b (action coefficient)', 1, '[−10, 10], not 0', 'How the action moves x.'),
-      num('q', 'q (state cost)', 1, '[0, 100]', 'Cost per unit of x².'),
-      num('r', 'r (action cost)', 1, '(0, 100]', 'Cost per unit of u².'),
-      num('noise', 'Noise SD', 0, '[0, 10]', 'Standard deviation of the process noise.'),
-      num('start', 'Start range', 1, '(0, x limit]', 'Start states are uniform in [−start, start].'),
-      num('u_max', 'Action limit', 3, '(0, 100]', 'Largest |u|.'),
-      num('x_max', 'State limit', 4, '(0, 1000]', 'A wall at ±this.'),
-      num('discount', 'Task discount', 0.9, '[0, 1]', 'Used when the learner sets none.'),
-      maxSteps(30),
+      num('a', 'a (state coefficient)'),
+      num('b', 'b (action coefficient)'),
+      num('q', 'q (state cost)'),
+      num('r', 'r (action cost)'),
+      num('noise', 'Noise SD'),
+      num('start', 'Start range', { def: '1', value: 1, range: '(0, x limit]', help: 'Start states are uniform in [−start, start].' }),
+      num('u_max', 'Action limit'),
+      num('x_max', 'State limit'),
+      num('discount', 'Task discount'),
+      maxSteps(),
     ],
   },
   random_mdp: {
@@ -115,12 +117,12 @@ export const TASKS = {
     finite: true,
     continuing: (task) => !!task.continuing,
     fields: [
-      int('states', 'States', 5, '[2, 50]', 'Non-terminal states.'),
-      int('actions', 'Actions', 3, '[2, 10]', 'Actions per state.'),
-      int('seed', 'Model seed', 1, '[0, 2^53 − 1]', 'Draws the model (not the runs).'),
+      int('states', 'States'),
+      int('actions', 'Actions'),
+      int('seed', 'Model seed'),
       { key: 'continuing', label: 'Continuing (no terminal state)', type: 'bool', def: 'off', value: false, help: 'Curves then show the mean reward per step.' },
-      num('discount', 'Task discount', 0.9, '[0, 1]', 'Used when the learner sets none.'),
-      maxSteps(100, 'Episode limit, or the report window of a continuing model.'),
+      num('discount', 'Task discount'),
+      maxSteps(),
     ],
   },
 };
@@ -137,16 +139,16 @@ export function taskFacts(task) {
 const FEATURE_FIELDS = {
   tabular: [],
   tiles: [
-    int('tilings', 'Tilings', 8, '[1, 64]', 'Offset tilings; step sizes are divided by this.'),
-    int('intervals', 'Intervals', 8, '[1, 64]', 'Intervals per state variable in each tiling.'),
-    int('hash', 'Hash size', 4096, '0 or [16, 4194304]', 'Tiles are hashed into this many weights (0: no hashing).'),
+    int('tilings', 'Tilings'),
+    int('intervals', 'Intervals'),
+    int('hash', 'Hash size'),
   ],
-  fourier: [int('order', 'Order', 3, '[0, 20]', 'Highest frequency per variable; (order+1)^d features.')],
+  fourier: [int('order', 'Order')],
   rbf: [
-    int('centers', 'Centres per variable', 5, '[2, 32]', 'centres^d Gaussian bumps on a grid.'),
-    num('width', 'Width', 1, '[0.1, 10]', 'σ as a multiple of the centre spacing.'),
+    int('centers', 'Centres per variable'),
+    num('width', 'Width'),
   ],
-  poly: [int('degree', 'Degree', 2, '[1, 8]', 'All monomials up to this total degree.')],
+  poly: [int('degree', 'Degree')],
 };
 const FEATURE_CHOICES = [
   ['tabular', 'Tabular', 'One weight per state (finite tasks).'],
@@ -189,19 +191,19 @@ export const LEARNER_FIELDS = [
       ['differential', 'Differential actor-critic (average reward, continuing tasks)'],
     ],
   },
-  num('discount', 'Discount γ', 0.99, '[0, 1]', 'Weight of a reward one step later.', { def: "the task's", value: 0.99, optional: true, when: (env) => env.setup.family !== 'differential' }),
-  num('actor_step', 'Actor step size', 0.1, '(0, 10]', 'Policy learning rate (per tiling with tile coding).'),
-  num('critic_step', 'Critic step size', 0.2, '(0, 10]', 'Value learning rate (per tiling with tile coding).'),
-  num('entropy', 'Entropy bonus β', 0, '[0, 10]', 'Pushes the policy to keep exploring.', { when: (env) => env.setup.family !== 'deterministic' }),
+  num('discount', 'Discount γ', { value: 0.99, optional: true, when: (env) => env.setup.family !== 'differential' }),
+  num('actor_step', 'Actor step size'),
+  num('critic_step', 'Critic step size'),
+  num('entropy', 'Entropy bonus β', { when: (env) => env.setup.family !== 'deterministic' }),
   {
     key: 'baseline', label: 'Baseline', type: 'choice', def: 'none', value: 'none', when: uses('reinforce'),
     help: 'What REINFORCE subtracts from the return to cut the gradient\'s variance.',
     choices: [['none', 'None'], ['average', 'Running average of returns'], ['value', 'Learned state value (critic)'], ['optimal', 'Variance-minimising constant']],
   },
-  num('baseline_rate', 'Baseline rate', 0.05, '(0, 1]', 'Rate of the running averages behind the average and optimal baselines.',
+  num('baseline_rate', 'Baseline rate',
     { when: (env) => env.setup.family === 'reinforce' && ['average', 'optimal'].includes(env.setup.baseline) }),
-  int('segment', 'Steps per update n', 1, '[1, 1000]', 'A2C updates every n steps from n-step returns.', { when: uses('a2c') }),
-  num('lambda', 'GAE λ', 1, '[0, 1]', 'Within a segment: 1 gives n-step returns, 0 the one-step TD error.', { when: uses('a2c') }),
+  int('segment', 'Steps per update n', { when: uses('a2c') }),
+  num('lambda', 'GAE λ', { when: uses('a2c') }),
   {
     key: 'behaviour', label: 'Behaviour policy', type: 'object', when: uses('off_policy'),
     fields: [
@@ -210,21 +212,21 @@ export const LEARNER_FIELDS = [
         help: 'The policy that chooses the actions while the target policy learns.',
         choices: [['uniform', 'Uniformly random'], ['epsilon_mix', 'Mostly the target policy (ε-mix)'], ['snapshot', 'A frozen copy, refreshed']],
       },
-      num('epsilon', 'ε', 0.1, '[0, 1]', 'Share of uniform actions.', { when: (env) => env.setup.behaviour?.kind === 'epsilon_mix' }),
-      int('snapshot_every', 'Refresh every (steps)', 1000, '[1, 10000000]', 'Steps between copies of the target policy.', { when: (env) => env.setup.behaviour?.kind === 'snapshot' }),
+      num('epsilon', 'ε', { when: (env) => env.setup.behaviour?.kind === 'epsilon_mix' }),
+      int('snapshot_every', 'Refresh every (steps)', { when: (env) => env.setup.behaviour?.kind === 'snapshot' }),
     ],
   },
-  num('rho_cap', 'Importance weight cap', 1, '(0, 1e6]', 'Largest importance weight; blank for no cap.', { def: 'no cap', optional: true, when: uses('off_policy') }),
-  num('noise_std', 'Exploration noise', 0.1, '[0, 10]', 'SD of Gaussian action noise, as a share of the action half-range.', { when: uses('deterministic') }),
+  num('rho_cap', 'Importance weight cap', { value: 1, optional: true, when: uses('off_policy') }),
+  num('noise_std', 'Exploration noise', { when: uses('deterministic') }),
   {
     key: 'replay', label: 'Replay buffer', type: 'object', when: uses('deterministic'),
     fields: [
-      int('capacity', 'Capacity', 0, '0 or [1, 100000]', 'Transitions kept; 0 learns from each transition once.'),
-      int('batch', 'Batch', 32, '[1, 1024], at most the capacity', 'Transitions replayed per step.', { when: (env) => (env.setup.replay?.capacity || 0) > 0 }),
+      int('capacity', 'Capacity'),
+      int('batch', 'Batch', { when: (env) => (env.setup.replay?.capacity || 0) > 0 }),
     ],
   },
-  num('target_tau', 'Target update rate τ', 1, '(0, 1]', 'Soft update of target copies; 1 means no target copies.', { when: uses('deterministic') }),
-  num('average_step', 'Average-reward step', 0.01, '(0, 1]', 'Step size of the average-reward estimate.', { when: uses('differential') }),
+  num('target_tau', 'Target update rate τ', { when: uses('deterministic') }),
+  num('average_step', 'Average-reward step', { when: uses('differential') }),
   features(),
   approx('actor', 'Actor', 'The policy\'s function.'),
   { ...approx('critic', 'Critic', 'The value function.'), def: 'linear over the features (deterministic learner: over degree-2 polynomials of state and action)' },
@@ -232,16 +234,16 @@ export const LEARNER_FIELDS = [
     key: 'optimizer', label: 'Optimizer', type: 'object',
     fields: [
       { key: 'kind', label: 'Update rule', type: 'choice', def: 'SGD', value: 'sgd', choices: [['sgd', 'SGD'], ['adam', 'Adam']], help: 'How gradient steps are applied.' },
-      num('clip', 'Clip norm', 1, '(0, 1e6]', 'Longer update directions are scaled down to this norm; blank for none.', { def: 'none', optional: true }),
-      num('beta1', 'Adam β1', 0.9, '[0, 1)', 'First-moment decay.', { when: (env) => env.setup.optimizer?.kind === 'adam' }),
-      num('beta2', 'Adam β2', 0.999, '[0, 1)', 'Second-moment decay.', { when: (env) => env.setup.optimizer?.kind === 'adam' }),
-      num('epsilon', 'Adam ε', 1e-8, '(0, 1]', 'Denominator offset.', { when: (env) => env.setup.optimizer?.kind === 'adam' }),
+      num('clip', 'Clip norm', { value: 1, optional: true }),
+      num('beta1', 'Adam β1', { when: (env) => env.setup.optimizer?.kind === 'adam' }),
+      num('beta2', 'Adam β2', { when: (env) => env.setup.optimizer?.kind === 'adam' }),
+      num('epsilon', 'Adam ε', { when: (env) => env.setup.optimizer?.kind === 'adam' }),
     ],
   },
   {
     key: 'policy', label: 'Gaussian policy', type: 'object', when: (env) => env.continuous && env.setup.family !== 'deterministic',
     fields: [
-      num('log_std', 'Initial log SD', -0.5, '[−10, 2]', 'Log standard deviation before squashing.'),
+      num('log_std', 'Initial log SD'),
       { key: 'sd_trainable', label: 'Learn the SD', type: 'bool', def: 'on', value: true, help: 'Otherwise the SD stays fixed.' },
     ],
   },
@@ -269,4 +271,39 @@ export function explain(f) {
 /** Top-level learner fields a variant may override, shown for this setup. */
 export function overridable(env) {
   return LEARNER_FIELDS.filter((f) => !f.when || f.when(env));
+}
+
+/** Each field's path in the core's settings table (`null` if it has none). */
+function corePaths() {
+  const out = [];
+  for (const [kind, t] of Object.entries(TASKS)) for (const f of t.fields) out.push([`task.${kind}.${f.key}`, f]);
+  const learner = (fields, prefix) => {
+    for (const f of fields) {
+      if (f.type === 'object') learner(f.fields, `${prefix}${f.key}.`);
+      else out.push([`${prefix}${f.key}`, f]);
+    }
+  };
+  learner(LEARNER_FIELDS, 'learner.');
+  for (const fields of Object.values(FEATURE_FIELDS)) learner(fields, 'learner.features.');
+  return out;
+}
+
+/**
+ * Fills every field's default, range and help from the core's settings
+ * table (JSON of `settingsTable()`). Returns the paths of fields the table
+ * does not describe (for tests).
+ * @param {Array<{path: string, default: any, default_text: string, range_text: string|null, help: string}>} table
+ */
+export function useCoreSettings(table) {
+  const byPath = new Map(table.map((s) => [s.path, s]));
+  const missing = [];
+  for (const [path, f] of corePaths()) {
+    const s = byPath.get(path);
+    if (!s) { missing.push(path); continue; }
+    f.def = f.type === 'bool' ? (s.default ? 'on' : 'off') : s.default_text;
+    if (s.default !== null) f.value = s.default;
+    if (s.range_text) f.range = s.range_text.replace(/-/g, '−');
+    f.help = s.help;
+  }
+  return missing;
 }

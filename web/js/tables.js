@@ -8,7 +8,7 @@
 // textContent; every number goes through numbers.js.
 
 import { formatNumber, MISSING } from './numbers.js';
-import { drawSample, seriesStyle, sizeCanvas } from './chart.js';
+import { drawSample, seriesStyle, sizeCanvas } from './plot.js';
 
 /** A number for a table cell: 3 significant digits, – for missing. */
 export function fmt(x) {

@@ -5,7 +5,8 @@
 
 import { chosenOf } from './inspectview.js';
 import { Probe } from './probe.js';
-import { drawLogLines, sizeCanvas } from './chart.js';
+import { sizeCanvas } from './plot.js';
+import { drawLogLines } from './logchart.js';
 import { canvasPng, download, fileStem } from './export.js';
 import { readNumber } from './configedit.js';
 import { messageOf } from './wasm.js';

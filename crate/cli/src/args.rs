@@ -139,6 +139,15 @@ pub const COMMANDS: &[Command] = &[
         help: &["check a config; print its plan or the problems"],
     },
     Command {
+        name: "settings",
+        operand: None,
+        opts: &[opt("markdown", "", Kind::Switch)],
+        help: &[
+            "every numeric and on/off setting with its default, range and help, as JSON;",
+            "--markdown prints the README's table",
+        ],
+    },
+    Command {
         name: "audit",
         operand: Some("CONFIG.json"),
         opts: &[],

@@ -135,6 +135,16 @@ fn run(a: &Args) -> Result<(), Failure> {
             let plan = plan_of(a.operand())?;
             print_json(&critbox_core::experiment::audit::audit_plan(&plan))
         }
+        "settings" => {
+            if a.switch("markdown") {
+                print!("{}", critbox_core::settings::markdown());
+                Ok(())
+            } else {
+                print_json(
+                    &serde_json::to_value(critbox_core::settings::SETTINGS).expect("the table serialises"),
+                )
+            }
+        }
         "validate" => {
             let plan = plan_of(a.operand())?;
             print_json(&serde_json::json!({

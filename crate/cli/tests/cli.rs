@@ -210,6 +210,8 @@ fn each_command_refuses_unknown_options_missing_values_and_bad_numbers() {
         (&["serve", "--root"], "--root needs a value (DIR)"),
         (&["serve", "--port", "http"], "--port: \"http\" is not a port number (0 to 65535)"),
         (&["serve", "web"], "`critbox serve` takes no argument"),
+        (&["settings", "--html"], "settings: unknown option \"--html\""),
+        (&["settings", p], "`critbox settings` takes no argument"),
         (&["bench", p, "--jobs", "2"], "bench: unknown option \"--jobs\""),
         (&["bench", p, "--job"], "--job needs a value (J)"),
         (&["bench", p, "--steps", "1e6"], "--steps: \"1e6\" is not a whole number"),

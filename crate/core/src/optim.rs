@@ -78,17 +78,14 @@ impl OptimizerConfig {
     pub fn check(&self) -> Vec<(String, String)> {
         let mut errs = Vec::new();
         if let Some(c) = self.clip {
-            if !(c > 0.0 && c <= 1e6) {
+            if !crate::settings::range("learner.optimizer.clip").contains(c) {
                 errs.push(("clip".into(), format!("must be null (no clipping) or in (0, 1e6], got {c}")));
             }
         }
-        for (name, v) in [("beta1", self.beta1), ("beta2", self.beta2)] {
-            if !(0.0..1.0).contains(&v) {
-                errs.push((name.into(), format!("must be in [0, 1), got {v}")));
+        for (name, v) in [("beta1", self.beta1), ("beta2", self.beta2), ("epsilon", self.epsilon)] {
+            if let Some(m) = crate::settings::check(&format!("learner.optimizer.{name}"), v) {
+                errs.push((name.into(), m));
             }
-        }
-        if !(self.epsilon > 0.0 && self.epsilon <= 1.0) {
-            errs.push(("epsilon".into(), format!("must be in (0, 1], got {}", self.epsilon)));
         }
         errs
     }

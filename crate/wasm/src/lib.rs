@@ -41,6 +41,14 @@ pub(crate) fn plan_of(json: &str) -> Result<Plan, JsError> {
 /// `tuning_jobs`, `tuning_seeds` and `tuning_points` (grid points per
 /// variant; tuning job ids run variant by variant, point by point, seed by
 /// seed, before the fresh ones).
+/// Every numeric and on/off setting (`critbox_core::settings::SETTINGS`) as
+/// JSON: `path`, `default`, `default_text`, `range`, `range_text`, `help`.
+/// The page's form takes its defaults, ranges and explanations from it.
+#[wasm_bindgen(js_name = settingsTable)]
+pub fn settings_table() -> String {
+    serde_json::to_string(critbox_core::settings::SETTINGS).expect("the table serialises")
+}
+
 #[wasm_bindgen(js_name = validateConfig)]
 pub fn validate_config(json: &str) -> Result<String, JsError> {
     let plan = plan_of(json)?;

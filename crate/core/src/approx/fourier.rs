@@ -24,8 +24,8 @@ pub struct Fourier {
 impl Fourier {
     /// The basis of `order` over `vars`, or names the setting that is out of range.
     pub fn new(vars: &[StateVar], order: u32) -> Result<Self, FeatureError> {
-        if order > 20 {
-            return Err(FeatureError::Invalid("order".into(), format!("must be in [0, 20], got {order}")));
+        if let Some(m) = crate::settings::check_int("learner.features.order", u64::from(order)) {
+            return Err(FeatureError::Invalid("order".into(), m));
         }
         let d = vars.len() as u32;
         let n = u64::from(order + 1).checked_pow(d).unwrap_or(u64::MAX);

@@ -41,8 +41,8 @@ impl Poly {
     /// The monomials of degree at most `degree` over `vars`, or names the
     /// setting that is out of range.
     pub fn new(vars: &[StateVar], degree: u32) -> Result<Self, FeatureError> {
-        if !(1..=8).contains(&degree) {
-            return Err(FeatureError::Invalid("degree".into(), format!("must be in [1, 8], got {degree}")));
+        if let Some(m) = crate::settings::check_int("learner.features.degree", u64::from(degree)) {
+            return Err(FeatureError::Invalid("degree".into(), m));
         }
         let d = vars.len();
         if d > MAX_VARS {

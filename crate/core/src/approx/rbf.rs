@@ -28,14 +28,14 @@ impl Rbf {
     /// The grid of `centers` per variable with relative `width`, or names the
     /// setting that is out of range.
     pub fn new(vars: &[StateVar], centers: u32, width: f64) -> Result<Self, FeatureError> {
-        if !(2..=32).contains(&centers) {
+        if crate::settings::check_int("learner.features.centers", u64::from(centers)).is_some() {
             return Err(FeatureError::Invalid(
                 "centers".into(),
                 format!("must be in [2, 32], got {centers}"),
             ));
         }
-        if !(0.1..=10.0).contains(&width) {
-            return Err(FeatureError::Invalid("width".into(), format!("must be in [0.1, 10], got {width}")));
+        if let Some(m) = crate::settings::check("learner.features.width", width) {
+            return Err(FeatureError::Invalid("width".into(), m));
         }
         let d = vars.len() as u32;
         let n = u64::from(centers).checked_pow(d).unwrap_or(u64::MAX);

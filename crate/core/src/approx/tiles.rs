@@ -49,13 +49,13 @@ impl TileCoder {
     /// Builds a tile coder, or names the setting that is out of range.
     pub fn new(vars: &[StateVar], tilings: u32, intervals: u32, hash: u32) -> Result<Self, FeatureError> {
         let bad = |f: &str, m: String| Err(FeatureError::Invalid(f.into(), m));
-        if !(1..=64).contains(&tilings) {
-            return bad("tilings", format!("must be in [1, 64], got {tilings}"));
+        if let Some(m) = crate::settings::check_int("learner.features.tilings", u64::from(tilings)) {
+            return bad("tilings", m);
         }
-        if !(1..=64).contains(&intervals) {
-            return bad("intervals", format!("must be in [1, 64], got {intervals}"));
+        if let Some(m) = crate::settings::check_int("learner.features.intervals", u64::from(intervals)) {
+            return bad("intervals", m);
         }
-        if hash != 0 && !(16..=(1 << 22)).contains(&hash) {
+        if !crate::settings::range("learner.features.hash").contains(f64::from(hash)) {
             return bad("hash", format!("must be 0 (no hashing) or in [16, 4194304], got {hash}"));
         }
         let d = vars.len() as u32;

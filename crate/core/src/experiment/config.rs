@@ -315,24 +315,8 @@ impl EvalPlan {
     }
 }
 
-/// One problem in a config: where and what.
-#[derive(Clone, Debug, PartialEq, Eq)]
-pub struct Problem {
-    /// Path of the field, e.g. `variants[1].learner.actor_step` (empty for the whole text).
-    pub path: String,
-    /// What is wrong.
-    pub message: String,
-}
-
-impl std::fmt::Display for Problem {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        if self.path.is_empty() {
-            write!(f, "{}", self.message)
-        } else {
-            write!(f, "{}: {}", self.path, self.message)
-        }
-    }
-}
+/// One problem in a config: where and what (the shape every module uses).
+pub use crate::problem::Problem;
 
 /// Everything wrong with a config.
 #[derive(Clone, Debug, PartialEq, Eq)]
@@ -734,20 +718,20 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
     if config.variants.is_empty() || config.variants.len() > MAX_VARIANTS {
         bad("variants".into(), format!("needs 1 to {MAX_VARIANTS} entries, got {}", config.variants.len()));
     }
-    if !(1..=MAX_SEEDS).contains(&config.seeds) {
-        bad("seeds".into(), format!("must be in [1, {MAX_SEEDS}], got {}", config.seeds));
+    if let Some(m) = crate::settings::check_int("experiment.seeds", u64::from(config.seeds)) {
+        bad("seeds".into(), m);
     }
-    if !(1..=MAX_STEPS).contains(&config.steps) {
-        bad("steps".into(), format!("must be in [1, {MAX_STEPS}], got {}", config.steps));
+    if let Some(m) = crate::settings::check_int("experiment.steps", config.steps) {
+        bad("steps".into(), m);
     }
-    if config.master_seed > MAX_MASTER_SEED {
-        bad("master_seed".into(), format!("must be in [0, {MAX_MASTER_SEED}], got {}", config.master_seed));
+    if let Some(m) = crate::settings::check_int("experiment.master_seed", config.master_seed) {
+        bad("master_seed".into(), m);
     }
-    if !(2..=1000).contains(&config.curve_points) {
-        bad("curve_points".into(), format!("must be in [2, 1000], got {}", config.curve_points));
+    if let Some(m) = crate::settings::check_int("experiment.curve_points", u64::from(config.curve_points)) {
+        bad("curve_points".into(), m);
     }
-    if !(config.final_fraction > 0.0 && config.final_fraction <= 1.0) {
-        bad("final_fraction".into(), format!("must be in (0, 1], got {}", config.final_fraction));
+    if let Some(m) = crate::settings::check("experiment.final_fraction", config.final_fraction) {
+        bad("final_fraction".into(), m);
     }
     if let Some(t) = config.threshold {
         if !t.is_finite() {
@@ -764,7 +748,7 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
     }
     if let Some(spec) = &spec {
         for p in config.reward.check(spec, spec.default_discount) {
-            bad(format!("reward.{}", p.field), p.message);
+            bad(format!("reward.{}", p.path), p.message);
         }
     }
     let mut variants = Vec::new();
@@ -795,7 +779,7 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
                 Err(ps) => {
                     for p in ps {
                         extra.push(Problem {
-                            path: join(&format!("variants[{i}].sweep"), &p.field),
+                            path: join(&format!("variants[{i}].sweep"), &p.path),
                             message: p.message,
                         });
                     }
@@ -854,13 +838,13 @@ fn resolve_variant(
     };
     if let Some(spec) = spec {
         for e in setup.check(spec) {
-            problems.push(Problem { path: origin(&e.field), message: e.message });
+            problems.push(Problem { path: origin(&e.path), message: e.message });
         }
     }
     let reward = own_reward.cloned().unwrap_or_else(|| config.reward.clone());
     if let (Some(spec), Some(_)) = (spec, own_reward) {
         for p in reward.check(spec, setup.shaping_discount(spec)) {
-            problems.push(Problem { path: format!("variants[{i}].reward.{}", p.field), message: p.message });
+            problems.push(Problem { path: format!("variants[{i}].reward.{}", p.path), message: p.message });
         }
     }
     (Some((setup, reward)), problems)
@@ -1047,11 +1031,10 @@ fn resolve_scoring(
             });
         }
         let episodes = c.episodes.unwrap_or(10);
-        if !(1..=1000).contains(&episodes) {
-            problems.push(Problem {
-                path: "evaluation.episodes".into(),
-                message: format!("must be in [1, 1000], got {episodes}"),
-            });
+        if let Some(message) =
+            crate::settings::check_int("experiment.evaluation.episodes", u64::from(episodes))
+        {
+            problems.push(Problem { path: "evaluation.episodes".into(), message });
         }
         let every = every.max(1);
         EvalPlan {

@@ -23,12 +23,14 @@
 //! (1[a = b] − π(b|s))`, which is the learner's own gradient for every
 //! linear actor; the probe refuses MLP actors and continuous actions.
 
-use serde_json::{json, Value};
+use serde::Serialize;
+use serde_json::Value;
 
 use crate::approx::{build_features, ApproxConfig, Features, Obs, Sparse};
 use crate::experiment::config::Plan;
 use crate::experiment::runner::Job;
 use crate::learn::Learner;
+use crate::report::{to_value, Num};
 use crate::reward::{Shaper, StepInput};
 use crate::rng::{Purpose, Stream};
 use crate::task::{Action, Task};
@@ -241,9 +243,68 @@ pub fn measure(
         .collect()
 }
 
-/// Runs the probe on job (`variant`, `seed`) of a plan; returns JSON
-/// `{variant, seed, estimates, episodes, checkpoints: [{step, options: [...]}]}`.
+/// The probe's report: `{variant, seed, estimates, episodes, checkpoints:
+/// [{step, options: [{baseline, trace_cov, mean_norm, constant}]}]}`.
+#[derive(Clone, Debug, Serialize)]
+pub struct ProbeReport {
+    /// The variant's label.
+    pub variant: String,
+    /// The seed index.
+    pub seed: usize,
+    /// Gradient estimates per option (K).
+    pub estimates: u32,
+    /// Episodes per estimate (M).
+    pub episodes: u32,
+    /// One entry per checkpoint, in increasing step order.
+    pub checkpoints: Vec<ProbeCheckpoint>,
+}
+
+/// What the probe measured at one checkpoint.
+#[derive(Clone, Debug, Serialize)]
+pub struct ProbeCheckpoint {
+    /// Environment steps trained before the measurement.
+    pub step: u64,
+    /// One entry per baseline option, in [`OPTIONS`] order.
+    pub options: Vec<OptionReport>,
+}
+
+/// One baseline option at one checkpoint, numbers finite or `null`.
+#[derive(Clone, Debug, Serialize)]
+pub struct OptionReport {
+    /// The option's name (see [`OPTIONS`]).
+    pub baseline: &'static str,
+    /// Trace of the covariance of the gradient estimate.
+    pub trace_cov: Num,
+    /// Norm of the mean gradient estimate.
+    pub mean_norm: Num,
+    /// The constant baseline used, `null` when the option is not constant.
+    pub constant: Option<Num>,
+}
+
+impl From<&OptionResult> for OptionReport {
+    fn from(r: &OptionResult) -> Self {
+        OptionReport {
+            baseline: r.baseline,
+            trace_cov: Num(r.trace_cov),
+            mean_norm: Num(r.mean_norm),
+            constant: r.constant.map(Num),
+        }
+    }
+}
+
+/// Runs the probe on job (`variant`, `seed`) of a plan; returns its
+/// [`ProbeReport`] as JSON.
 pub fn probe(plan: &Plan, variant: usize, seed: usize, s: &ProbeSettings) -> Result<Value, ProbeError> {
+    probe_report(plan, variant, seed, s).map(|r| to_value(&r))
+}
+
+/// Runs the probe on job (`variant`, `seed`) of a plan.
+pub fn probe_report(
+    plan: &Plan,
+    variant: usize,
+    seed: usize,
+    s: &ProbeSettings,
+) -> Result<ProbeReport, ProbeError> {
     let cfg = &plan.config;
     if variant >= plan.variants.len() {
         return Err(ProbeError::Setting(
@@ -315,24 +376,18 @@ pub fn probe(plan: &Plan, variant: usize, seed: usize, s: &ProbeSettings) -> Res
             s.episodes,
             &mut rng,
         );
-        let num = |x: f64| if x.is_finite() { json!(x) } else { Value::Null };
-        out.push(json!({
-            "step": job.steps_done(),
-            "options": results.iter().map(|r| json!({
-                "baseline": r.baseline,
-                "trace_cov": num(r.trace_cov),
-                "mean_norm": num(r.mean_norm),
-                "constant": r.constant.map_or(Value::Null, num),
-            })).collect::<Vec<_>>(),
-        }));
+        out.push(ProbeCheckpoint {
+            step: job.steps_done(),
+            options: results.iter().map(OptionReport::from).collect(),
+        });
     }
-    Ok(json!({
-        "variant": plan.variants[variant].label,
-        "seed": seed,
-        "estimates": s.estimates,
-        "episodes": s.episodes,
-        "checkpoints": out,
-    }))
+    Ok(ProbeReport {
+        variant: plan.variants[variant].label.clone(),
+        seed,
+        estimates: s.estimates,
+        episodes: s.episodes,
+        checkpoints: out,
+    })
 }
 
 #[cfg(test)]

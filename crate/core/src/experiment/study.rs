@@ -73,14 +73,9 @@ pub struct Axis {
     pub log: bool,
 }
 
-/// A problem in a sweep: the path below `variants[i].sweep` and what is wrong.
-#[derive(Clone, Debug, PartialEq, Eq)]
-pub struct SweepProblem {
-    /// The path within the sweep object (`actor_step`, `actor_step.count`).
-    pub field: String,
-    /// What is wrong.
-    pub message: String,
-}
+/// A problem in a sweep: the path below `variants[i].sweep` (`actor_step`,
+/// `actor_step.count`) and what is wrong.
+pub type SweepProblem = crate::problem::Problem;
 
 /// The values `2^(from + k (to − from)/(n − 1))`, k = 0 … n − 1 (integer
 /// exponents give exact powers of two).
@@ -100,10 +95,10 @@ pub fn log2_values(from: f64, to: f64, count: usize) -> Vec<f64> {
 /// found, each naming its field within the sweep.
 pub fn parse_sweep(sweep: &Value) -> Result<Vec<Axis>, Vec<SweepProblem>> {
     let mut problems = Vec::new();
-    let mut bad = |field: &str, message: String| problems.push(SweepProblem { field: field.into(), message });
+    let mut bad = |field: &str, message: String| problems.push(SweepProblem { path: field.into(), message });
     let Some(obj) = sweep.as_object() else {
         return Err(vec![SweepProblem {
-            field: String::new(),
+            path: String::new(),
             message:
                 "must be an object {SETTING: [values…]} or {SETTING: {\"log2\": [from, to], \"count\": n}}"
                     .into(),
@@ -320,7 +315,7 @@ mod tests {
             parse_sweep(&v)
                 .unwrap_err()
                 .iter()
-                .map(|p| format!("{}: {}", p.field, p.message))
+                .map(|p| format!("{}: {}", p.path, p.message))
                 .collect::<Vec<_>>()
                 .join("; ")
         };

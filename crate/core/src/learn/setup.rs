@@ -275,23 +275,9 @@ impl Default for LearnerSetup {
     }
 }
 
-/// A setting of a learner setup that is out of range: (field path within
-/// the setup, message).
-#[derive(Clone, Debug, PartialEq)]
-pub struct SetupError {
-    /// Field path within the setup, e.g. `features.tilings`.
-    pub field: String,
-    /// What is wrong.
-    pub message: String,
-}
-
-impl std::fmt::Display for SetupError {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        write!(f, "{}: {}", self.field, self.message)
-    }
-}
-
-impl std::error::Error for SetupError {}
+/// A setting of a learner setup that is out of range (path within the
+/// setup, e.g. `features.tilings`, and message).
+pub type SetupError = crate::problem::Problem;
 
 /// The state variables followed by the action components (the input of the
 /// deterministic learner's critic), each with its range.
@@ -305,11 +291,17 @@ pub fn joint_vars(spec: &TaskSpec) -> Vec<StateVar> {
     vars
 }
 
-fn in_range(errs: &mut Vec<SetupError>, field: &str, v: f64, lo: f64, hi: f64, open_lo: bool) {
-    let ok = if open_lo { v > lo && v <= hi } else { v >= lo && v <= hi };
-    if !ok {
-        let l = if open_lo { "(" } else { "[" };
-        errs.push(SetupError { field: field.into(), message: format!("must be in {l}{lo}, {hi}], got {v}") });
+/// Checks `v` against the settings table's range of `learner.FIELD`.
+fn in_range(errs: &mut Vec<SetupError>, field: &str, v: f64) {
+    if let Some(message) = crate::settings::check(&format!("learner.{field}"), v) {
+        errs.push(SetupError { path: field.into(), message });
+    }
+}
+
+/// [`in_range`] for a whole-number setting.
+fn in_range_int(errs: &mut Vec<SetupError>, field: &str, v: u64) {
+    if let Some(message) = crate::settings::check_int(&format!("learner.{field}"), v) {
+        errs.push(SetupError { path: field.into(), message });
     }
 }
 
@@ -356,42 +348,34 @@ impl LearnerSetup {
     pub fn check(&self, spec: &TaskSpec) -> Vec<SetupError> {
         let mut errs = Vec::new();
         let bad = |errs: &mut Vec<SetupError>, field: &str, message: String| {
-            errs.push(SetupError { field: field.into(), message })
+            errs.push(SetupError { path: field.into(), message })
         };
         if let Some(g) = self.discount {
-            in_range(&mut errs, "discount", g, 0.0, 1.0, false);
+            in_range(&mut errs, "discount", g);
         }
-        in_range(&mut errs, "actor_step", self.actor_step, 0.0, 10.0, true);
-        in_range(&mut errs, "critic_step", self.critic_step, 0.0, 10.0, true);
-        in_range(&mut errs, "entropy", self.entropy, 0.0, 10.0, false);
-        in_range(&mut errs, "baseline_rate", self.baseline_rate, 0.0, 1.0, true);
-        if !(1..=1000).contains(&self.segment) {
-            bad(&mut errs, "segment", format!("must be in [1, 1000], got {}", self.segment));
-        }
-        in_range(&mut errs, "lambda", self.lambda, 0.0, 1.0, false);
-        in_range(&mut errs, "behaviour.epsilon", self.behaviour.epsilon, 0.0, 1.0, false);
-        if !(1..=10_000_000).contains(&self.behaviour.snapshot_every) {
-            bad(
-                &mut errs,
-                "behaviour.snapshot_every",
-                format!("must be in [1, 10000000], got {}", self.behaviour.snapshot_every),
-            );
-        }
+        in_range(&mut errs, "actor_step", self.actor_step);
+        in_range(&mut errs, "critic_step", self.critic_step);
+        in_range(&mut errs, "entropy", self.entropy);
+        in_range(&mut errs, "baseline_rate", self.baseline_rate);
+        in_range_int(&mut errs, "segment", u64::from(self.segment));
+        in_range(&mut errs, "lambda", self.lambda);
+        in_range(&mut errs, "behaviour.epsilon", self.behaviour.epsilon);
+        in_range_int(&mut errs, "behaviour.snapshot_every", self.behaviour.snapshot_every);
         if let Some(c) = self.rho_cap {
-            if !(c > 0.0 && c <= 1e6) {
+            if !crate::settings::range("learner.rho_cap").contains(c) {
                 bad(&mut errs, "rho_cap", format!("must be null (no cap) or in (0, 1e6], got {c}"));
             }
         }
-        in_range(&mut errs, "noise_std", self.noise_std, 0.0, 10.0, false);
-        if self.replay.capacity > MAX_REPLAY {
+        in_range(&mut errs, "noise_std", self.noise_std);
+        if !crate::settings::range("learner.replay.capacity").contains(self.replay.capacity as f64) {
             bad(
                 &mut errs,
                 "replay.capacity",
                 format!("must be 0 (no replay) or in [1, {MAX_REPLAY}], got {}", self.replay.capacity),
             );
         }
-        if !(1..=1024).contains(&self.replay.batch) {
-            bad(&mut errs, "replay.batch", format!("must be in [1, 1024], got {}", self.replay.batch));
+        if let Some(m) = crate::settings::check_int("learner.replay.batch", u64::from(self.replay.batch)) {
+            bad(&mut errs, "replay.batch", m);
         } else if self.replay.capacity > 0 && self.replay.batch > self.replay.capacity {
             bad(
                 &mut errs,
@@ -402,8 +386,8 @@ impl LearnerSetup {
                 ),
             );
         }
-        in_range(&mut errs, "target_tau", self.target_tau, 0.0, 1.0, true);
-        in_range(&mut errs, "average_step", self.average_step, 0.0, 1.0, true);
+        in_range(&mut errs, "target_tau", self.target_tau);
+        in_range(&mut errs, "average_step", self.average_step);
         for (f, m) in self.optimizer.check() {
             bad(&mut errs, &format!("optimizer.{f}"), m);
         }

@@ -74,11 +74,8 @@ impl PolicyConfig {
     /// Every out-of-range setting as `(field, message)`.
     pub fn check(&self) -> Vec<(String, String)> {
         let mut errs = Vec::new();
-        if !(LOG_STD_MIN..=LOG_STD_MAX).contains(&self.log_std) {
-            errs.push((
-                "log_std".into(),
-                format!("must be in [{LOG_STD_MIN}, {LOG_STD_MAX}], got {}", self.log_std),
-            ));
+        if let Some(m) = crate::settings::check("learner.policy.log_std", self.log_std) {
+            errs.push(("log_std".into(), m));
         }
         errs
     }

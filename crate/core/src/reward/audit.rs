@@ -21,10 +21,12 @@
 //! The run's reward-hacking signal, which applies on every task, is the
 //! experiment's ([`crate::experiment::hacking`]).
 
-use serde_json::{json, Value};
+use serde::Serialize;
+use serde_json::Value;
 
 use super::{Mode, RewardConfig, Shaper, StepInput};
 use crate::exact;
+use crate::report::{nums, to_value, Num};
 use crate::task::{Action, FiniteModel, Task};
 
 /// Longest horizon of the finite-horizon fallback.
@@ -449,12 +451,69 @@ pub fn audit_reward(task: &dyn Task, reward: &RewardConfig, objective: Objective
     }
 }
 
-fn num(x: f64) -> Value {
-    if x.is_finite() {
-        json!(x)
-    } else {
-        Value::Null
-    }
+/// The audit of one reward as it is printed (see [`RewardAudit::to_json`]);
+/// numbers are finite or `null`. The fields after `base_value_loss` are there
+/// only when the audit is exact, `note` only when it is not.
+#[derive(Clone, Debug, Serialize)]
+pub struct AuditReport {
+    /// The reward's mode by name.
+    pub mode: &'static str,
+    /// The formula in canonical form.
+    pub formula: String,
+    /// The discount the audit used.
+    pub discount: Num,
+    /// Whether the reward keeps the optimal policies by construction.
+    pub potential_based: bool,
+    /// Whether there is an exact comparison.
+    pub exact: bool,
+    /// Whether an optimal policy changes (`null` without an exact audit).
+    pub policy_changed: Option<bool>,
+    /// The states whose optimal actions differ.
+    pub differing_states: Vec<DifferingReport>,
+    /// Base value lost by following the shaped-optimal policy.
+    pub base_value_loss: Num,
+    /// Why there is no exact audit.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub note: Option<String>,
+    /// Optimal base value from the start distribution.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub base_optimal_value: Option<Num>,
+    /// Base value of the shaped-optimal policy.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub shaped_policy_base_value: Option<Num>,
+    /// `value_iteration`, `finite_horizon` or `relative_value_iteration`.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub method: Option<&'static str>,
+    /// The horizon of a finite-horizon comparison (`null` otherwise).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub horizon: Option<Option<u32>>,
+    /// Whether the shaped optimal values are unbounded.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub shaped_unbounded: Option<bool>,
+    /// The number of states of the model.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub states: Option<usize>,
+}
+
+/// One state whose optimal actions differ, as printed.
+#[derive(Clone, Debug, Serialize)]
+pub struct DifferingReport {
+    /// The state's index in the model.
+    pub state: usize,
+    /// Its state variables, `null` when the task gives none.
+    pub values: Option<Vec<Num>>,
+    /// Optimal actions under the base reward, by name.
+    pub base_actions: Vec<String>,
+    /// Optimal actions under the shaped reward, by name.
+    pub shaped_actions: Vec<String>,
+    /// Whether the shaped-optimal policy can reach the state.
+    pub reachable: bool,
+    /// The grid row, on a task whose first two variables are `row`, `col`.
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub row: Option<usize>,
+    /// The grid column (as `row`).
+    #[serde(skip_serializing_if = "Option::is_none")]
+    pub col: Option<usize>,
 }
 
 impl RewardAudit {
@@ -463,67 +522,71 @@ impl RewardAudit {
     /// `base_actions`, `shaped_actions` by name, `reachable`), `base_value_loss`,
     /// `base_optimal_value`, `shaped_policy_base_value`, `method`, `horizon`,
     /// `shaped_unbounded`, and `note` when there is no exact audit (then the
-    /// policy fields are null).
+    /// policy fields are null). See [`AuditReport`].
     pub fn to_json(&self, task: &dyn Task) -> Value {
+        to_value(&self.report(task))
+    }
+
+    /// The audit as its printed report.
+    pub fn report(&self, task: &dyn Task) -> AuditReport {
         let spec = task.spec();
-        let mut out = json!({
-            "mode": self.mode.name(),
-            "formula": self.formula,
-            "discount": self.discount,
-            "potential_based": self.potential_based,
-        });
-        let o = out.as_object_mut().expect("an object");
+        let mut out = AuditReport {
+            mode: self.mode.name(),
+            formula: self.formula.clone(),
+            discount: Num(self.discount),
+            potential_based: self.potential_based,
+            exact: false,
+            policy_changed: None,
+            differing_states: Vec::new(),
+            base_value_loss: Num(f64::NAN),
+            note: None,
+            base_optimal_value: None,
+            shaped_policy_base_value: None,
+            method: None,
+            horizon: None,
+            shaped_unbounded: None,
+            states: None,
+        };
         match &self.exact {
-            Err(note) => {
-                o.insert("exact".into(), json!(false));
-                o.insert("policy_changed".into(), Value::Null);
-                o.insert("differing_states".into(), json!([]));
-                o.insert("base_value_loss".into(), Value::Null);
-                o.insert("note".into(), json!(note));
-            }
+            Err(note) => out.note = Some(note.clone()),
             Ok(c) => {
                 let names = spec.actions.names();
-                let name_of = |set: &[usize]| -> Vec<Value> {
-                    set.iter()
-                        .map(|&a| json!(names.get(a).cloned().unwrap_or_else(|| a.to_string())))
-                        .collect()
+                let name_of = |set: &[usize]| -> Vec<String> {
+                    set.iter().map(|&a| names.get(a).cloned().unwrap_or_else(|| a.to_string())).collect()
                 };
                 let var_names: Vec<&str> = spec.state_vars.iter().map(|v| v.name.as_str()).collect();
+                let grid = var_names.first() == Some(&"row") && var_names.get(1) == Some(&"col");
                 let mut obs = vec![0.0; var_names.len()];
-                let diffs: Vec<Value> = c
+                out.differing_states = c
                     .differing
                     .iter()
                     .map(|&s| {
                         let has = task.state_obs(s, &mut obs);
-                        let mut d = json!({
-                            "state": s,
-                            "values": if has { json!(obs) } else { Value::Null },
-                            "base_actions": name_of(&c.base_greedy[s]),
-                            "shaped_actions": name_of(&c.shaped_greedy[s]),
-                            "reachable": c.reachable[s],
-                        });
-                        if has && var_names.first() == Some(&"row") && var_names.get(1) == Some(&"col") {
-                            d["row"] = json!(obs[0] as usize);
-                            d["col"] = json!(obs[1] as usize);
+                        DifferingReport {
+                            state: s,
+                            values: has.then(|| nums(&obs)),
+                            base_actions: name_of(&c.base_greedy[s]),
+                            shaped_actions: name_of(&c.shaped_greedy[s]),
+                            reachable: c.reachable[s],
+                            row: (has && grid).then(|| obs[0] as usize),
+                            col: (has && grid).then(|| obs[1] as usize),
                         }
-                        d
                     })
                     .collect();
-                o.insert("exact".into(), json!(true));
-                o.insert("policy_changed".into(), json!(!c.differing.is_empty()));
-                o.insert("differing_states".into(), Value::Array(diffs));
-                o.insert("base_value_loss".into(), num(c.base_value_loss));
-                o.insert("base_optimal_value".into(), num(c.base_optimal_value));
-                o.insert("shaped_policy_base_value".into(), num(c.shaped_policy_base_value));
                 let (method, horizon) = match c.method {
-                    Method::ValueIteration => ("value_iteration", Value::Null),
-                    Method::FiniteHorizon(h) => ("finite_horizon", json!(h)),
-                    Method::RelativeValueIteration => ("relative_value_iteration", Value::Null),
+                    Method::ValueIteration => ("value_iteration", None),
+                    Method::FiniteHorizon(h) => ("finite_horizon", Some(h)),
+                    Method::RelativeValueIteration => ("relative_value_iteration", None),
                 };
-                o.insert("method".into(), json!(method));
-                o.insert("horizon".into(), horizon);
-                o.insert("shaped_unbounded".into(), json!(c.shaped_unbounded));
-                o.insert("states".into(), json!(c.base_greedy.len()));
+                out.exact = true;
+                out.policy_changed = Some(!c.differing.is_empty());
+                out.base_value_loss = Num(c.base_value_loss);
+                out.base_optimal_value = Some(Num(c.base_optimal_value));
+                out.shaped_policy_base_value = Some(Num(c.shaped_policy_base_value));
+                out.method = Some(method);
+                out.horizon = Some(horizon);
+                out.shaped_unbounded = Some(c.shaped_unbounded);
+                out.states = Some(c.base_greedy.len());
             }
         }
         out

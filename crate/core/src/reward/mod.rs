@@ -124,21 +124,9 @@ pub struct RewardConfig {
     pub constants: BTreeMap<String, f64>,
 }
 
-/// A problem in a reward config: the field (relative to the `reward`
+/// A problem in a reward config: the path (relative to the `reward`
 /// object: `mode`, `formula`, `constants.k`) and what is wrong.
-#[derive(Clone, Debug, PartialEq, Eq)]
-pub struct RewardProblem {
-    /// Field path within the reward object.
-    pub field: String,
-    /// What is wrong.
-    pub message: String,
-}
-
-impl std::fmt::Display for RewardProblem {
-    fn fmt(&self, f: &mut std::fmt::Formatter<'_>) -> std::fmt::Result {
-        write!(f, "{}: {}", self.field, self.message)
-    }
-}
+pub type RewardProblem = crate::problem::Problem;
 
 /// Why a potential may only read the current state.
 const POTENTIAL_ONLY_STATE: &str =
@@ -169,7 +157,7 @@ impl RewardConfig {
         let mut out = Vec::new();
         if self.constants.len() > MAX_CONSTANTS {
             out.push(RewardProblem {
-                field: "constants".into(),
+                path: "constants".into(),
                 message: format!("has {} entries; at most {MAX_CONSTANTS} are allowed", self.constants.len()),
             });
         }
@@ -177,18 +165,18 @@ impl RewardConfig {
             let field = format!("constants.{name}");
             if !compile::is_identifier(name) || name.len() > 40 {
                 out.push(RewardProblem {
-                    field,
+                    path: field,
                     message: "a constant's name needs 1 to 40 letters, digits or `_`, must not start with a \
                               digit and must not be a keyword (if then else and or not)"
                         .into(),
                 });
             } else if let Some(what) = Scope::clash(spec, name) {
                 out.push(RewardProblem {
-                    field,
+                    path: field,
                     message: format!("the name is already taken by {what}; choose another"),
                 });
             } else if !v.is_finite() {
-                out.push(RewardProblem { field, message: format!("must be a finite number, got {v}") });
+                out.push(RewardProblem { path: field, message: format!("must be a finite number, got {v}") });
             }
         }
         out
@@ -228,7 +216,7 @@ impl RewardConfig {
             return out;
         }
         for e in self.formula_errors(spec, gamma) {
-            out.push(RewardProblem { field: "formula".into(), message: e.to_string() });
+            out.push(RewardProblem { path: "formula".into(), message: e.to_string() });
         }
         out
     }
@@ -248,53 +236,123 @@ impl RewardConfig {
     }
 }
 
+/// The live check of a formula for an editor, as [`check_report`] returns it.
+#[derive(Clone, Debug, Serialize)]
+pub struct FormulaCheck {
+    /// Whether the formula compiles with the reward's constants.
+    pub ok: bool,
+    /// Every problem found, in order.
+    pub errors: Vec<ErrorReport>,
+    /// The canonical text (`null` unless ok, and in mode `base`).
+    pub pretty: Option<String>,
+    /// Which inputs the formula reads (`null` unless ok).
+    pub uses: Option<UsesReport>,
+    /// The names the formula may use.
+    pub names: Vec<NameReport>,
+}
+
+/// One problem of a checked formula; `start`/`end` count UTF-16 code units.
+#[derive(Clone, Debug, Serialize)]
+pub struct ErrorReport {
+    /// First code unit of the problem.
+    pub start: usize,
+    /// One past its last code unit.
+    pub end: usize,
+    /// Its column (1-based).
+    pub column: usize,
+    /// What is wrong.
+    pub message: String,
+    /// How to fix it (may be empty).
+    pub hint: String,
+}
+
+/// Which inputs a formula reads, as printed (`t` is the step index).
+#[derive(Clone, Copy, Debug, Serialize)]
+pub struct UsesReport {
+    /// A current-state variable.
+    pub state: bool,
+    /// A next-state variable.
+    pub next: bool,
+    /// The action.
+    pub action: bool,
+    /// The base reward.
+    pub base: bool,
+    /// The termination flag.
+    pub terminal: bool,
+    /// The step index.
+    pub t: bool,
+}
+
+/// One name a formula may use: its kind and one line of help.
+#[derive(Clone, Debug, Serialize)]
+pub struct NameReport {
+    /// The name.
+    pub name: String,
+    /// Its kind (see `compile::NameInfo::kind`).
+    pub kind: &'static str,
+    /// One line of help.
+    pub doc: String,
+}
+
 /// The live check of a formula for an editor: `text` is checked as the
 /// formula of `reward` (whose own `formula` is ignored) on a task. Returns
 /// JSON `{ok, errors: [{start, end, column, message, hint}], pretty, uses,
-/// names: [{name, kind, doc}]}` where `start`/`end` count UTF-16 code units
-/// (JavaScript string positions), `pretty` is the canonical text (null
-/// unless ok) and `uses` says which inputs the formula reads. Problems with
-/// the constants are errors at position 0 whose message starts with
-/// `constants.NAME:`.
+/// names: [{name, kind, doc}]}` ([`FormulaCheck`]) where `start`/`end` count
+/// UTF-16 code units (JavaScript string positions), `pretty` is the
+/// canonical text (null unless ok) and `uses` says which inputs the formula
+/// reads. Problems with the constants are errors at position 0 whose message
+/// starts with `constants.NAME:`.
 pub fn check_report(text: &str, spec: &TaskSpec, reward: &RewardConfig) -> serde_json::Value {
-    use serde_json::json;
+    crate::report::to_value(&check_formula(text, spec, reward))
+}
+
+/// [`check_report`] as its typed report.
+pub fn check_formula(text: &str, spec: &TaskSpec, reward: &RewardConfig) -> FormulaCheck {
     let cfg = RewardConfig { formula: text.to_string(), ..reward.clone() };
     let mut errors = Vec::new();
     for p in cfg.constant_problems(spec) {
-        errors.push(json!({"start": 0, "end": 0, "column": 1, "message": p.to_string(), "hint": ""}));
+        errors.push(ErrorReport { start: 0, end: 0, column: 1, message: p.to_string(), hint: String::new() });
     }
-    let mut pretty = serde_json::Value::Null;
-    let mut uses = serde_json::Value::Null;
+    let mut pretty = None;
+    let mut uses = None;
     if errors.is_empty() {
         match cfg.compile(spec, spec.default_discount) {
             Ok(program) => {
                 if cfg.mode != Mode::Base {
-                    pretty = json!(cfg.pretty());
+                    pretty = Some(cfg.pretty());
                 }
                 let u = program.as_ref().map(Program::uses).unwrap_or_default();
-                uses = json!({
-                    "state": u.state, "next": u.next, "action": u.action,
-                    "base": u.base, "terminal": u.terminal, "t": u.step,
+                uses = Some(UsesReport {
+                    state: u.state,
+                    next: u.next,
+                    action: u.action,
+                    base: u.base,
+                    terminal: u.terminal,
+                    t: u.step,
                 });
             }
             Err(errs) => {
                 for e in errs {
                     let (start, end) = e.utf16_span(text);
-                    errors.push(json!({
-                        "start": start, "end": end, "column": e.column, "message": e.message, "hint": e.hint,
-                    }));
+                    errors.push(ErrorReport {
+                        start,
+                        end,
+                        column: e.column,
+                        message: e.message,
+                        hint: e.hint,
+                    });
                 }
             }
         }
     }
-    let names: Vec<serde_json::Value> = cfg
+    let names = cfg
         .scope(spec, spec.default_discount)
         .names()
         .iter()
         .filter(|n| cfg.mode != Mode::Potential || !matches!(n.binding, compile::Binding::Input(_)))
-        .map(|n| json!({"name": n.name, "kind": n.kind, "doc": n.doc}))
+        .map(|n| NameReport { name: n.name.clone(), kind: n.kind, doc: n.doc.clone() })
         .collect();
-    json!({"ok": errors.is_empty(), "errors": errors, "pretty": pretty, "uses": uses, "names": names})
+    FormulaCheck { ok: errors.is_empty(), errors, pretty, uses, names }
 }
 
 /// What a shaper needs to know about one step.
@@ -337,7 +395,7 @@ impl Shaper {
         }
         let program = cfg.compile(spec, gamma).map_err(|errs| {
             errs.into_iter()
-                .map(|e| RewardProblem { field: "formula".into(), message: e.to_string() })
+                .map(|e| RewardProblem { path: "formula".into(), message: e.to_string() })
                 .collect::<Vec<_>>()
         })?;
         let scope = cfg.scope(spec, gamma);
@@ -468,7 +526,7 @@ mod tests {
         let spec = spec();
         let p = cfg(Mode::Potential, "row' - row").check(&spec, 0.9);
         assert_eq!(p.len(), 1);
-        assert_eq!(p[0].field, "formula");
+        assert_eq!(p[0].path, "formula");
         assert!(p[0].message.starts_with("column 1: `row'` cannot be used here"), "{}", p[0].message);
         let p = cfg(Mode::Bonus, "").check(&spec, 0.9);
         assert!(p[0].message.contains("empty"));
@@ -479,7 +537,7 @@ mod tests {
         c.constants.insert("2x".into(), 1.0);
         c.constants.insert("big".into(), f64::INFINITY);
         let p = c.check(&spec, 0.9);
-        let fields: Vec<&str> = p.iter().map(|x| x.field.as_str()).collect();
+        let fields: Vec<&str> = p.iter().map(|x| x.path.as_str()).collect();
         assert_eq!(fields, ["constants.2x", "constants.big", "constants.row"]);
         assert!(p[2].message.contains("the state variable `row`"));
     }

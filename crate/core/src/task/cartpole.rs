@@ -72,11 +72,8 @@ pub fn dynamics(s: [f64; 4], force: f64) -> [f64; 4] {
 impl CartPole {
     /// Builds the task, or names the bad setting.
     pub fn new(cfg: CartPoleConfig) -> Result<Self, TaskError> {
-        if !(1..=100_000).contains(&cfg.max_steps) {
-            return Err(TaskError::Invalid(
-                "max_steps".into(),
-                format!("must be in [1, 100000], got {}", cfg.max_steps),
-            ));
+        if let Some(m) = crate::settings::check_int("task.cartpole.max_steps", u64::from(cfg.max_steps)) {
+            return Err(TaskError::Invalid("max_steps".into(), m));
         }
         let var = |name: &str, lim: f64| StateVar { name: name.into(), low: -lim, high: lim };
         let spec = TaskSpec {

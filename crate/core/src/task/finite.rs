@@ -239,20 +239,20 @@ pub fn random_mdp(states: usize, actions: usize, seed: u64, continuing: bool) ->
 /// Builds the task a [`RandomMdpConfig`] describes, or names the bad setting.
 pub fn build_random_mdp(cfg: &RandomMdpConfig) -> Result<FiniteTask, TaskError> {
     let bad = |f: &str, m: String| Err(TaskError::Invalid(f.into(), m));
-    if !(2..=50).contains(&cfg.states) {
-        return bad("states", format!("must be in [2, 50], got {}", cfg.states));
+    if let Some(m) = crate::settings::check_int("task.random_mdp.states", u64::from(cfg.states)) {
+        return bad("states", m);
     }
-    if !(2..=10).contains(&cfg.actions) {
-        return bad("actions", format!("must be in [2, 10], got {}", cfg.actions));
+    if let Some(m) = crate::settings::check_int("task.random_mdp.actions", u64::from(cfg.actions)) {
+        return bad("actions", m);
     }
-    if cfg.seed > (1 << 53) - 1 {
+    if !crate::settings::range("task.random_mdp.seed").contains(cfg.seed as f64) || cfg.seed > (1 << 53) - 1 {
         return bad("seed", format!("must be in [0, 2^53 - 1], got {}", cfg.seed));
     }
-    if !(0.0..=1.0).contains(&cfg.discount) {
-        return bad("discount", format!("must be in [0, 1], got {}", cfg.discount));
+    if let Some(m) = crate::settings::check("task.random_mdp.discount", cfg.discount) {
+        return bad("discount", m);
     }
-    if !(1..=100_000).contains(&cfg.max_steps) {
-        return bad("max_steps", format!("must be in [1, 100000], got {}", cfg.max_steps));
+    if let Some(m) = crate::settings::check_int("task.random_mdp.max_steps", u64::from(cfg.max_steps)) {
+        return Err(TaskError::Invalid("max_steps".into(), m));
     }
     let m = random_mdp(cfg.states as usize, cfg.actions as usize, cfg.seed, cfg.continuing);
     FiniteTask::new(m, "random_mdp", cfg.discount, cfg.max_steps, cfg.continuing)

@@ -161,7 +161,7 @@ pub struct GridWorld {
 }
 
 fn check_reward(field: &str, v: f64) -> Result<(), TaskError> {
-    if v.is_finite() && (-1000.0..=1000.0).contains(&v) {
+    if v.is_finite() && crate::settings::range(&format!("task.grid.{field}")).contains(v) {
         Ok(())
     } else {
         Err(TaskError::Invalid(field.into(), format!("must be a number in [-1000, 1000], got {v}")))
@@ -251,14 +251,14 @@ impl GridWorld {
         if !cells.contains(&Cell::Dock) {
             return bad("map", "has no dock 'D': the episode could never end at a goal".into());
         }
-        if !(0.0..=0.5).contains(&cfg.slip) {
-            return bad("slip", format!("must be in [0, 0.5], got {}", cfg.slip));
+        if let Some(m) = crate::settings::check("task.grid.slip", cfg.slip) {
+            return bad("slip", m);
         }
         check_reward("step_reward", cfg.step_reward)?;
         check_reward("hazard_reward", cfg.hazard_reward)?;
         check_reward("goal_reward", cfg.goal_reward)?;
-        if !(1..=100_000).contains(&cfg.max_steps) {
-            return bad("max_steps", format!("must be in [1, 100000], got {}", cfg.max_steps));
+        if let Some(m) = crate::settings::check_int("task.grid.max_steps", u64::from(cfg.max_steps)) {
+            return Err(TaskError::Invalid("max_steps".into(), m));
         }
         let mut state_cell = Vec::new();
         let mut cell_state = vec![usize::MAX; cells.len()];

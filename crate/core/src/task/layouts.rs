@@ -31,7 +31,7 @@ pub const ROVER_MAP: [&str; 7] = [
 ];
 
 /// A named map with its reward settings.
-#[derive(Clone, Copy, Debug, PartialEq)]
+#[derive(Clone, Copy, Debug, PartialEq, serde::Serialize)]
 pub struct Layout {
     /// The name used in configs.
     pub name: &'static str,
@@ -118,24 +118,7 @@ pub fn names() -> String {
 
 /// Every layout as JSON, for a page that offers them: `[{name, title, map,
 /// slip, step_reward, hazard_reward, hazard_restart, goal_reward,
-/// max_steps}]`.
+/// max_steps}]` ([`Layout`]'s fields; its numbers are finite constants).
 pub fn to_json() -> serde_json::Value {
-    serde_json::Value::Array(
-        LAYOUTS
-            .iter()
-            .map(|l| {
-                serde_json::json!({
-                    "name": l.name,
-                    "title": l.title,
-                    "map": l.map,
-                    "slip": l.slip,
-                    "step_reward": l.step_reward,
-                    "hazard_reward": l.hazard_reward,
-                    "hazard_restart": l.hazard_restart,
-                    "goal_reward": l.goal_reward,
-                    "max_steps": l.max_steps,
-                })
-            })
-            .collect(),
-    )
+    crate::report::to_value(&LAYOUTS)
 }

@@ -124,20 +124,24 @@ impl Lqr {
                 Err(TaskError::Invalid(f.into(), format!("must be in {l}{lo}, {hi}], got {v}")))
             }
         };
-        range("a", cfg.a, -10.0, 10.0, false)?;
-        range("b", cfg.b, -10.0, 10.0, false)?;
+        let table = |f: &str, v: f64| match crate::settings::check(&format!("task.lqr.{f}"), v) {
+            Some(m) => Err(TaskError::Invalid(f.into(), m)),
+            None => Ok(()),
+        };
+        table("a", cfg.a)?;
+        table("b", cfg.b)?;
         if cfg.b == 0.0 {
             return bad("b", "must not be 0: the action would have no effect".into());
         }
-        range("q", cfg.q, 0.0, 100.0, false)?;
-        range("r", cfg.r, 0.0, 100.0, true)?;
-        range("noise", cfg.noise, 0.0, 10.0, false)?;
-        range("u_max", cfg.u_max, 0.0, 100.0, true)?;
-        range("x_max", cfg.x_max, 0.0, 1000.0, true)?;
+        table("q", cfg.q)?;
+        table("r", cfg.r)?;
+        table("noise", cfg.noise)?;
+        table("u_max", cfg.u_max)?;
+        table("x_max", cfg.x_max)?;
         range("start", cfg.start, 0.0, cfg.x_max, true)?;
-        range("discount", cfg.discount, 0.0, 1.0, false)?;
-        if !(1..=100_000).contains(&cfg.max_steps) {
-            return bad("max_steps", format!("must be in [1, 100000], got {}", cfg.max_steps));
+        table("discount", cfg.discount)?;
+        if let Some(m) = crate::settings::check_int("task.lqr.max_steps", u64::from(cfg.max_steps)) {
+            return Err(TaskError::Invalid("max_steps".into(), m));
         }
         let spec = TaskSpec {
             kind: "lqr",

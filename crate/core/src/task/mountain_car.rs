@@ -72,11 +72,8 @@ pub struct MountainCar {
 impl MountainCar {
     /// Builds the task, or names the bad setting.
     pub fn new(cfg: MountainCarConfig) -> Result<Self, TaskError> {
-        if !(1..=100_000).contains(&cfg.max_steps) {
-            return Err(TaskError::Invalid(
-                "max_steps".into(),
-                format!("must be in [1, 100000], got {}", cfg.max_steps),
-            ));
+        if let Some(m) = crate::settings::check_int("task.mountain_car.max_steps", u64::from(cfg.max_steps)) {
+            return Err(TaskError::Invalid("max_steps".into(), m));
         }
         let spec = TaskSpec {
             kind: "mountain_car",

@@ -98,13 +98,13 @@ impl Pendulum {
     /// Builds the task, or names the bad setting.
     pub fn new(cfg: PendulumConfig) -> Result<Self, TaskError> {
         let bad = |f: &str, m: String| Err(TaskError::Invalid(f.into(), m));
-        if !(1..=100_000).contains(&cfg.max_steps) {
-            return bad("max_steps", format!("must be in [1, 100000], got {}", cfg.max_steps));
+        if let Some(m) = crate::settings::check_int("task.pendulum.max_steps", u64::from(cfg.max_steps)) {
+            return Err(TaskError::Invalid("max_steps".into(), m));
         }
-        if !(cfg.dt >= 0.001 && cfg.dt <= 0.1) {
+        if !crate::settings::range("task.pendulum.dt").contains(cfg.dt) {
             return bad("dt", format!("must be in [0.001, 0.1] seconds, got {}", cfg.dt));
         }
-        if cfg.torque_levels == 1 || cfg.torque_levels > 21 {
+        if !crate::settings::range("task.pendulum.torque_levels").contains(f64::from(cfg.torque_levels)) {
             return bad(
                 "torque_levels",
                 format!("must be 0 (continuous torque) or in [2, 21], got {}", cfg.torque_levels),

@@ -107,8 +107,8 @@ impl Server {
     /// Builds the task, or names the bad setting.
     pub fn new(cfg: ServerConfig) -> Result<Self, TaskError> {
         let bad = |f: String, m: String| Err(TaskError::Invalid(f, m));
-        if !(1..=MAX_SLOTS).contains(&cfg.slots) {
-            return bad("slots".into(), format!("must be in [1, {MAX_SLOTS}], got {}", cfg.slots));
+        if let Some(m) = crate::settings::check_int("task.server.slots", u64::from(cfg.slots)) {
+            return bad("slots".into(), m);
         }
         let n = cfg.payments.len();
         if n == 0 || n > MAX_CLASSES {
@@ -134,14 +134,14 @@ impl Server {
         if (total - 1.0).abs() > 1e-9 {
             return bad("mix".into(), format!("shares must sum to 1, they sum to {total}"));
         }
-        if !(0.0..=1.0).contains(&cfg.arrival) {
-            return bad("arrival".into(), format!("must be in [0, 1], got {}", cfg.arrival));
+        if let Some(m) = crate::settings::check("task.server.arrival", cfg.arrival) {
+            return bad("arrival".into(), m);
         }
-        if !(cfg.finish_prob > 0.0 && cfg.finish_prob <= 1.0) {
-            return bad("finish_prob".into(), format!("must be in (0, 1], got {}", cfg.finish_prob));
+        if let Some(m) = crate::settings::check("task.server.finish_prob", cfg.finish_prob) {
+            return bad("finish_prob".into(), m);
         }
-        if !(1..=100_000).contains(&cfg.max_steps) {
-            return bad("max_steps".into(), format!("must be in [1, 100000], got {}", cfg.max_steps));
+        if let Some(m) = crate::settings::check_int("task.server.max_steps", u64::from(cfg.max_steps)) {
+            return Err(TaskError::Invalid("max_steps".into(), m));
         }
         let spec = TaskSpec {
             kind: "server",
