@@ -133,14 +133,9 @@ pub struct DiagCurve {
 }
 
 impl DiagCurve {
-    /// The curve of points `(step, mean, lo, hi)`.
-    pub fn of(points: &[crate::experiment::CurvePoint]) -> Self {
-        DiagCurve {
-            step: points.iter().map(|p| p.step).collect(),
-            mean: nums(&points.iter().map(|p| p.mean).collect::<Vec<_>>()),
-            lo: nums(&points.iter().map(|p| p.lo).collect::<Vec<_>>()),
-            hi: nums(&points.iter().map(|p| p.hi).collect::<Vec<_>>()),
-        }
+    /// The curve of per-bin `step`, `mean`, `lo` and `hi` (equal lengths).
+    pub fn of(step: Vec<u64>, mean: &[f64], lo: &[f64], hi: &[f64]) -> Self {
+        DiagCurve { step, mean: nums(mean), lo: nums(lo), hi: nums(hi) }
     }
 }
 

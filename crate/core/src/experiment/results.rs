@@ -499,7 +499,16 @@ impl Results {
         for m in self.diagnostic_metrics(v) {
             let c = self.diagnostic_curve(v, m);
             means.push((m, c.iter().map(|p| p.mean).collect()));
-            d.set(m, DiagCurve::of(&c));
+            let col = |f: fn(&CurvePoint) -> f64| c.iter().map(f).collect::<Vec<f64>>();
+            d.set(
+                m,
+                DiagCurve::of(
+                    c.iter().map(|p| p.step).collect(),
+                    &col(|p| p.mean),
+                    &col(|p| p.lo),
+                    &col(|p| p.hi),
+                ),
+            );
         }
         (d, means)
     }
