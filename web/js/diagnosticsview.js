@@ -10,7 +10,7 @@
 // comparisons. drawDiagnostics(ctx, data, options) is a pure function of its
 // arguments, like the other draw functions.
 
-import { formatSteps, niceTicks, seriesStyle, sizeCanvas, drawSample } from './chart.js';
+import { formatSteps, niceTicks, seriesStyle, sizeCanvas, drawSample } from './plot.js';
 import { canvasPng, download, fileStem } from './export.js';
 import { formatNumber } from './numbers.js';
 import { messageOf } from './wasm.js';
