@@ -13,9 +13,8 @@ use std::collections::BTreeMap;
 
 use critbox_core::reward::parse::{parse, MAX_FORMULA_BYTES};
 use critbox_core::reward::print::pretty;
-use critbox_core::reward::{Mode, RewardConfig, Shaper, StepInput};
+use critbox_core::reward::{Mode, RewardConfig, Shaper};
 use critbox_core::rng::Stream;
-use critbox_core::task::Action;
 use libfuzzer_sys::fuzz_target;
 
 #[path = "../../crate/core/tests/common/formula_ref.rs"]
@@ -61,14 +60,7 @@ fuzz_target!(|data: &[u8]| {
     let mut rng = Stream::from_seed(seed);
     for _ in 0..3 {
         let env = Env::random(&mut rng);
-        let got = shaper.reward(&StepInput {
-            obs: &[env.row, env.col],
-            action: Action::Index(env.action),
-            next: &[env.row2, env.col2],
-            base: env.base,
-            terminal: env.terminal,
-            t: env.t,
-        });
+        let got = env.reward_of(&mut shaper);
         let want = reference(&tree, &env);
         assert!(same(got, want), "{text:?}: compiled {got}, reference {want}");
     }

@@ -113,14 +113,7 @@ fn compiled_formulas_agree_with_the_reference_and_print_back_to_the_same_tree() 
             .unwrap_or_else(|e| panic!("case {case}: {text}: {e:?}"));
         for _ in 0..4 {
             let env = Env::random(&mut rng);
-            let got = shaper.reward(&StepInput {
-                obs: &[env.row, env.col],
-                action: Action::Index(env.action),
-                next: &[env.row2, env.col2],
-                base: env.base,
-                terminal: env.terminal,
-                t: env.t,
-            });
+            let got = env.reward_of(&mut shaper);
             let want = reference(&tree, &env);
             assert!(same(got, want), "case {case}: {text}\n compiled {got} reference {want}");
             checked += 1;
@@ -197,14 +190,7 @@ fn check_any(text: &str, spec: &TaskSpec, rng: &mut Stream) -> bool {
         Ok(mut sh) => {
             assert!(ok, "{text:?}: the shaper compiled what the check refused");
             let env = Env::random(rng);
-            sh.reward(&StepInput {
-                obs: &[env.row, env.col],
-                action: Action::Index(env.action),
-                next: &[env.row2, env.col2],
-                base: env.base,
-                terminal: env.terminal,
-                t: env.t,
-            });
+            env.reward_of(&mut sh);
         }
         Err(p) => assert!(!ok && !p.is_empty(), "{text:?}"),
     }

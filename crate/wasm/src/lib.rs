@@ -345,21 +345,7 @@ impl Run {
         let mut out = Vec::new();
         for j in &self.jobs {
             for (b, d) in j.diagnostics().iter().enumerate() {
-                out.extend_from_slice(&[
-                    j.id() as f64,
-                    b as f64,
-                    d.count as f64,
-                    d.td,
-                    d.abs_td,
-                    d.entropy,
-                    d.actor_norm,
-                    d.critic_norm,
-                    d.weights as f64,
-                    d.weight_sum,
-                    d.weight_sq,
-                    d.weight_max,
-                    d.weight_cut as f64,
-                ]);
+                records::push_diagnostic(&mut out, j.id() as f64, b, d);
             }
         }
         out

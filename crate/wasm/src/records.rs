@@ -78,25 +78,31 @@ pub const KINDS: &[Kind] = &[
     },
 ];
 
+/// One diagnostic record: job id, bin, then the bin's sums in the order of
+/// the `diagnostic` record kind's fields.
+pub fn push_diagnostic(out: &mut Vec<f64>, id: f64, bin: usize, d: &DiagSums) {
+    out.extend_from_slice(&[
+        id,
+        bin as f64,
+        d.count as f64,
+        d.td,
+        d.abs_td,
+        d.entropy,
+        d.actor_norm,
+        d.critic_norm,
+        d.weights as f64,
+        d.weight_sum,
+        d.weight_sq,
+        d.weight_max,
+        d.weight_cut as f64,
+    ]);
+}
+
 fn take_diagnostics(job: &mut Job, out: &mut Vec<f64>) {
     let id = job.id() as f64;
     let (from, bins) = job.take_new_diagnostics();
     for (k, d) in bins.iter().enumerate() {
-        out.extend_from_slice(&[
-            id,
-            (from + k) as f64,
-            d.count as f64,
-            d.td,
-            d.abs_td,
-            d.entropy,
-            d.actor_norm,
-            d.critic_norm,
-            d.weights as f64,
-            d.weight_sum,
-            d.weight_sq,
-            d.weight_max,
-            d.weight_cut as f64,
-        ]);
+        push_diagnostic(out, id, from + k, d);
     }
 }
 

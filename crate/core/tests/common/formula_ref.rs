@@ -6,7 +6,9 @@
 //! same definition.
 
 use critbox_core::reward::parse::{BinOp, Expr, ExprKind, UnOp};
+use critbox_core::reward::{Shaper, StepInput};
 use critbox_core::rng::Stream;
+use critbox_core::task::Action;
 use critbox_core::task::{ActionSpace, StateVar, TaskSpec};
 
 /// The grid task's description: two state variables and four actions.
@@ -58,6 +60,18 @@ impl Env {
             terminal: rng.below(2) == 1,
             t: rng.below(300) as u64,
         }
+    }
+
+    /// The reward `shaper` gives for this step.
+    pub fn reward_of(&self, shaper: &mut Shaper) -> f64 {
+        shaper.reward(&StepInput {
+            obs: &[self.row, self.col],
+            action: Action::Index(self.action),
+            next: &[self.row2, self.col2],
+            base: self.base,
+            terminal: self.terminal,
+            t: self.t,
+        })
     }
 
     fn name(&self, n: &str) -> f64 {
