@@ -10,7 +10,7 @@
 // comparisons. drawDiagnostics(ctx, data, options) is a pure function of its
 // arguments, like the other draw functions.
 
-import { formatSteps, niceTicks, seriesStyle, sizeCanvas, drawSample } from './plot.js';
+import { beginDrawing, formatSteps, niceTicks, seriesStyle, sizeCanvas, drawSample } from './plot.js';
 import { canvasPng, download, fileStem } from './export.js';
 import { formatNumber } from './numbers.js';
 import { messageOf } from './wasm.js';
@@ -69,14 +69,7 @@ export function diagnosticsHeight(ctx, panels, width, font) {
  * @returns {{panels: [{title, y: [lo, hi], log, series: [{label, points}]}], x: [0, xMax]}}
  */
 export function drawDiagnostics(ctx, data, options) {
-  const { width, height, dpr = 1 } = options;
-  const colours = { background: '#fff', ink: '#222', muted: '#666', grid: '#ddd', ...options.colours };
-  const family = options.font || 'sans-serif';
-  ctx.save();
-  ctx.setTransform(dpr, 0, 0, dpr, 0, 0);
-  ctx.fillStyle = colours.background;
-  ctx.fillRect(0, 0, width, height);
-  ctx.font = `12px ${family}`;
+  const { width, height, colours, family } = beginDrawing(ctx, options, 12);
   const xMax = data.xMax > 0 ? data.xMax : 1;
   const left = 70;
   const right = 16;

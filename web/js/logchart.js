@@ -5,7 +5,7 @@
 // returns the layout it used. Series styles, canvas helpers and the legend
 // sample come from plot.js, numbers are written by numbers.js.
 
-import { PALETTE, seriesStyle, formatSteps, drawSample } from './plot.js';
+import { PALETTE, beginDrawing, seriesStyle, formatSteps, drawSample } from './plot.js';
 import { formatNumber } from './numbers.js';
 
 /**
@@ -17,15 +17,8 @@ import { formatNumber } from './numbers.js';
  * @returns {{plot, y: [number, number], series: [{label, points}]}}
  */
 export function drawLogLines(ctx, data, options) {
-  const { width, height, dpr = 1 } = options;
-  const colours = { background: '#fff', ink: '#222', muted: '#666', grid: '#ddd', ...options.colours };
+  const { width, height, colours, family } = beginDrawing(ctx, options, 12);
   const palette = options.palette && options.palette.length ? options.palette : PALETTE;
-  const family = options.font || 'sans-serif';
-  ctx.save();
-  ctx.setTransform(dpr, 0, 0, dpr, 0, 0);
-  ctx.fillStyle = colours.background;
-  ctx.fillRect(0, 0, width, height);
-  ctx.font = `12px ${family}`;
   const pts = data.series.map((s) => s.points.filter(([x, y]) => Number.isFinite(x) && Number.isFinite(y) && y > 0));
   let lo = Infinity;
   let hi = -Infinity;

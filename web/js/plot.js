@@ -86,3 +86,21 @@ export function drawSample(ctx, x, y, length, style) {
   ctx.stroke();
   ctx.restore();
 }
+
+/**
+ * Starts a drawing on `ctx`: scaled to CSS pixels (`options.dpr`), the
+ * background filled, the font set to `fontPx`. Saves the context (the
+ * caller restores it). Returns the size, the colours (defaults filled in)
+ * and the font family.
+ */
+export function beginDrawing(ctx, options, fontPx) {
+  const { width, height, dpr = 1 } = options;
+  const colours = { background: '#fff', ink: '#222', muted: '#666', grid: '#ddd', ...options.colours };
+  const family = options.font || 'sans-serif';
+  ctx.save();
+  ctx.setTransform(dpr, 0, 0, dpr, 0, 0);
+  ctx.fillStyle = colours.background;
+  ctx.fillRect(0, 0, width, height);
+  ctx.font = `${fontPx}px ${family}`;
+  return { width, height, colours, family };
+}

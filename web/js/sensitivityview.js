@@ -7,7 +7,7 @@
 // (`study`, `variants[].study`), the same numbers `critbox run` prints.
 // drawSensitivity(ctx, study, options) is a pure function of its arguments.
 
-import { sizeCanvas, niceTicks, formatValue } from './plot.js';
+import { beginDrawing, sizeCanvas, niceTicks, formatValue } from './plot.js';
 import { rampColour, rampPosition, inkOnRamp } from './palette.js';
 import { formatNumber } from './numbers.js';
 import { canvasPng, download, fileStem } from './export.js';
@@ -32,14 +32,7 @@ const settingsText = (s) => (s && Object.keys(s).length ? Object.entries(s).map(
  * @returns {{kind: 'curve'|'map'|'none', points: number}}
  */
 export function drawSensitivity(ctx, study, options) {
-  const { width, height, dpr = 1 } = options;
-  const colours = { background: '#fff', ink: '#222', muted: '#666', grid: '#ddd', ...options.colours };
-  const family = options.font || 'sans-serif';
-  ctx.save();
-  ctx.setTransform(dpr, 0, 0, dpr, 0, 0);
-  ctx.fillStyle = colours.background;
-  ctx.fillRect(0, 0, width, height);
-  ctx.font = `11px ${family}`;
+  const { width, height, colours, family } = beginDrawing(ctx, options, 11);
   const axes = study.axes || [];
   const points = study.points || [];
   const chosen = study.chosen_point;
