@@ -5,7 +5,7 @@
 //! check a nested object prefix the path with [`Problem::under`].
 
 /// One problem: where and what.
-#[derive(Clone, Debug, PartialEq, Eq)]
+#[derive(Clone, Debug, PartialEq, Eq, serde::Serialize)]
 pub struct Problem {
     /// Path of the field (empty for the whole text).
     pub path: String,

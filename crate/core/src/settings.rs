@@ -365,6 +365,23 @@ pub const SETTINGS: &[Setting] = &[
         whole(1.0, 100_000.0),
         "Episode limit, or the report window of a continuing model.",
     ),
+    num("task.formula.dt", 1.0, open_closed(0.0, 3600.0), "Control step; `dt` in the formulas."),
+    int(
+        "task.formula.substeps",
+        1,
+        whole(1.0, 100.0),
+        "Integration steps per control step (dt / substeps each).",
+    ),
+    num("task.formula.discount", 0.99, closed(0.0, 1.0), "Task discount, used when the learner sets none."),
+    int("task.formula.max_steps", 500, whole(1.0, 100_000.0), STEP_LIMIT),
+    num("task.table.discount", 0.9, closed(0.0, 1.0), "Task discount, used when the learner sets none."),
+    flag("task.table.continuing", false, "No terminal state; curves show the mean reward per step."),
+    int(
+        "task.table.max_steps",
+        100,
+        whole(1.0, 100_000.0),
+        "Episode limit, or the report window of a continuing model.",
+    ),
     // ------------------------------------------------------------ experiment
     int("experiment.seeds", 10, whole(1.0, 100.0), "Seeds per variant."),
     absent(

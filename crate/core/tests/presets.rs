@@ -132,6 +132,8 @@ preset_tests! {
     corridor_baselines => "corridor-baselines.json",
     corridor_tuned_baselines => "corridor-tuned-baselines.json",
     dpg_lqr => "dpg-lqr.json",
+    greenhouse_night_heater => "greenhouse-night-heater.json",
+    machine_wear_table => "machine-wear-table.json",
     mountain_car_energy => "mountain-car-energy.json",
     offpolicy_random_behaviour => "offpolicy-random-behaviour.json",
     pendulum_dac => "pendulum-dac.json",

@@ -42,6 +42,8 @@ impl ModelTask {
             default_discount: 0.9,
             max_steps,
             continuing: false,
+            state_names: Vec::new(),
+            action_numbers: Vec::new(),
         };
         ModelTask { spec, model, feature }
     }

@@ -34,7 +34,7 @@ const OPS: [BinOp; 13] = [
     BinOp::And,
     BinOp::Or,
 ];
-const FUNCS: [(&str, usize); 10] = [
+const FUNCS: [(&str, usize); 12] = [
     ("abs", 1),
     ("sqrt", 1),
     ("exp", 1),
@@ -45,6 +45,8 @@ const FUNCS: [(&str, usize); 10] = [
     ("min", 0),
     ("max", 0),
     ("clamp", 3),
+    ("mod", 2),
+    ("wrap", 3),
 ];
 
 fn random_number(rng: &mut Stream) -> f64 {

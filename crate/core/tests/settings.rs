@@ -14,10 +14,25 @@ const MAP: &str = "S.D";
 
 /// The task object of `kind` with only what is required.
 fn task(kind: &str) -> Value {
-    if kind == "grid" {
-        json!({"kind": "grid", "map": [MAP]})
-    } else {
-        json!({"kind": kind})
+    match kind {
+        "grid" => json!({"kind": "grid", "map": [MAP]}),
+        // The smallest own tasks: what a user must write, no optional field.
+        "formula" => json!({
+            "kind": "formula",
+            "state": [{"name": "x", "start": 0, "low": -1, "high": 1}],
+            "actions": [{"name": "down", "set": {"u": -1}}, {"name": "up", "set": {"u": 1}}],
+            "update": {"x": "x + 0.1 * u"},
+            "reward": "-abs(x)"
+        }),
+        "table" => json!({
+            "kind": "table",
+            "states": ["a", "b"],
+            "actions": ["go"],
+            "rows": [{"from": "a", "action": "go", "to": "b", "probability": 1, "reward": 1},
+                     {"from": "b", "action": "go", "to": "a", "probability": 1, "reward": 0}],
+            "start": {"a": 1}
+        }),
+        _ => json!({"kind": kind}),
     }
 }
 

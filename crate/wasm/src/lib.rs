@@ -109,6 +109,30 @@ pub fn check_formula(text: &str, config_json: &str) -> Result<String, JsError> {
     Ok(critbox_core::reward::check_report(text, task.spec(), &reward).to_string())
 }
 
+/// Checks a task definition as the user edits it (the task editor).
+/// `task_json` is a config's `task` object. Returns JSON `{ok, problems:
+/// [{path, message}], fields: [{path, errors: [{start, end, column, message,
+/// hint}], names: [{name, kind, doc}]}]}`: paths are relative to the task
+/// (`update.velocity`, `rows[3].from`); `fields` lists a formula task's
+/// formula fields (`let[0].formula`, `update.NAME`, `terminal`, `reward`)
+/// with spans in UTF-16 code units. Throws only on text that is not JSON.
+#[wasm_bindgen(js_name = checkTask)]
+pub fn check_task(task_json: &str) -> Result<String, JsError> {
+    let v: serde_json::Value = serde_json::from_str(task_json).map_err(|e| {
+        JsError::new(&format!("task: not valid JSON at line {} column {}: {e}", e.line(), e.column()))
+    })?;
+    Ok(critbox_core::report::to_value(&critbox_core::experiment::config::check_task(&v)).to_string())
+}
+
+/// Reads a table task's rows from CSV text (a header naming `from`,
+/// `action`, `to`, `probability`, `reward`, then one row per line). Returns
+/// the JSON array of rows; throws with the line and column of a problem.
+#[wasm_bindgen(js_name = tableRowsFromCsv)]
+pub fn table_rows_from_csv(text: &str) -> Result<String, JsError> {
+    let rows = critbox_core::task::table::rows_from_csv(text).map_err(|p| JsError::new(&p.to_string()))?;
+    Ok(serde_json::to_string(&rows).expect("rows serialise"))
+}
+
 /// The shaping audit of a config, the same JSON as `critbox audit` prints:
 /// `potential_based`, `policy_changed`, `differing_states` (each with
 /// `row`/`col` on a grid), `base_value_loss`, … for the config's `reward`,

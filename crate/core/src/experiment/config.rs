@@ -17,11 +17,13 @@ use crate::reward::RewardConfig;
 use crate::task::cartpole::{CartPole, CartPoleConfig};
 use crate::task::corridor::{CorridorConfig, ShortCorridor};
 use crate::task::finite::{build_random_mdp, RandomMdpConfig};
+use crate::task::formula::{FormulaTask, FormulaTaskConfig, TaskCheck};
 use crate::task::grid::{GridConfig, GridWorld};
 use crate::task::lqr::{Lqr, LqrConfig};
 use crate::task::mountain_car::{MountainCar, MountainCarConfig};
 use crate::task::pendulum::{Pendulum, PendulumConfig};
 use crate::task::server::{Server, ServerConfig};
+use crate::task::table::TableTaskConfig;
 use crate::task::{Task, TaskError, TaskSpec};
 
 /// The config schema version this build writes and reads.
@@ -57,6 +59,10 @@ pub enum TaskConfig {
     Lqr(LqrConfig),
     /// A small random finite model drawn from a seed (episodic or continuing).
     RandomMdp(RandomMdpConfig),
+    /// The user's own model written as formulas.
+    Formula(FormulaTaskConfig),
+    /// The user's own finite model written as a table of transitions.
+    Table(TableTaskConfig),
 }
 
 impl TaskConfig {
@@ -71,7 +77,19 @@ impl TaskConfig {
             TaskConfig::Corridor(c) => Box::new(ShortCorridor::new(c.clone())?),
             TaskConfig::Lqr(c) => Box::new(Lqr::new(c.clone())?),
             TaskConfig::RandomMdp(c) => Box::new(build_random_mdp(c)?),
+            TaskConfig::Formula(c) => Box::new(FormulaTask::new(c.clone())?),
+            TaskConfig::Table(c) => Box::new(c.build()?),
         })
+    }
+
+    /// Every problem of the task's settings (one for the built-in tasks,
+    /// all of them for the user's own), each path relative to the task.
+    pub fn problems(&self) -> Vec<Problem> {
+        match self {
+            TaskConfig::Formula(c) => c.check().problems,
+            TaskConfig::Table(c) => c.check(),
+            other => other.build().err().map(Problem::from).into_iter().collect(),
+        }
     }
 }
 
@@ -594,7 +612,34 @@ fn task_problem(task: &Value) -> Option<Problem> {
         "corridor" => as_kind::<CorridorConfig>(task),
         "lqr" => as_kind::<LqrConfig>(task),
         "random_mdp" => as_kind::<RandomMdpConfig>(task),
+        "formula" => as_kind::<FormulaTaskConfig>(task),
+        "table" => as_kind::<TableTaskConfig>(task),
         _ => None,
+    }
+}
+
+/// The live check of a `task` object for the task editor: every problem
+/// (paths relative to the task, as `update.velocity` or `rows[3].from`) and,
+/// for a formula task, each formula field's errors and the names it may use
+/// ([`TaskCheck`]).
+pub fn check_task(task: &Value) -> TaskCheck {
+    let relative = |p: Problem| {
+        let path = p.path.strip_prefix("task").map(|r| r.trim_start_matches('.')).unwrap_or(&p.path);
+        Problem { path: path.to_string(), message: p.message }
+    };
+    let cfg: TaskConfig = match deserialize(task, "task") {
+        Ok(c) => c,
+        Err(p) => {
+            let p = if p.path == "task" { task_problem(task).unwrap_or(p) } else { p };
+            return TaskCheck { ok: false, problems: vec![relative(p)], fields: Vec::new() };
+        }
+    };
+    match &cfg {
+        TaskConfig::Formula(c) => c.check(),
+        other => {
+            let problems = other.problems();
+            TaskCheck { ok: problems.is_empty(), problems, fields: Vec::new() }
+        }
     }
 }
 
@@ -708,12 +753,14 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
     if config.title.chars().count() > 200 {
         bad("title".into(), "is longer than 200 characters".into());
     }
-    let spec = match config.task.build() {
-        Ok(t) => Some(t.spec().clone()),
-        Err(TaskError::Invalid(field, msg)) => {
-            bad(format!("task.{field}"), msg);
-            None
+    let task_problems = config.task.problems();
+    let spec = if task_problems.is_empty() {
+        Some(config.task.build().expect("a task without problems builds").spec().clone())
+    } else {
+        for p in task_problems {
+            bad(format!("task.{}", p.path), p.message);
         }
+        None
     };
     if config.variants.is_empty() || config.variants.len() > MAX_VARIANTS {
         bad("variants".into(), format!("needs 1 to {MAX_VARIANTS} entries, got {}", config.variants.len()));

@@ -387,7 +387,9 @@ impl Job {
         }
         let outcome = self.task.step(self.action.as_action(), &mut self.task_rng, &mut self.next_obs);
         if !outcome.reward.is_finite() {
-            return Err(format!("the task's own reward was {} (check the task's settings)", outcome.reward));
+            return Err(self.task.fault().unwrap_or_else(|| {
+                format!("the task's own reward was {} (check the task's settings)", outcome.reward)
+            }));
         }
         let next_id = self.task.state_id();
         self.steps_done += 1;

@@ -16,7 +16,13 @@
 //! NaN. `min` and `max` take two or more arguments and skip NaN;
 //! `clamp(x, lo, hi)` is `min(max(x, lo), hi)`. `log` is the natural
 //! logarithm; `exp`, `log`, `sin`, `cos`, `tanh` and `^` come from `libm`, so
-//! native and WebAssembly builds agree bit for bit.
+//! native and WebAssembly builds agree bit for bit. `mod(a, b)` is the
+//! remainder with the sign of `b` (`a % b`, plus `b` when the two signs
+//! differ; exact, as IEEE `fmod` is); `wrap(x, low, high)` is
+//! `low + mod(x − low, high − low)`. `noise()` and `uniform()` draw a
+//! standard normal and a uniform [0, 1) number from the caller's stream:
+//! only scopes that allow draws (a task's own formulas) accept them, and
+//! [`Program::eval_with`] runs such a program.
 
 use super::lex::Span;
 use super::parse::{BinOp, Expr, ExprKind, UnOp};
@@ -46,10 +52,18 @@ pub enum Func {
     Max,
     /// `clamp(x, lo, hi)`
     Clamp,
+    /// `mod(a, b)`, the remainder with the sign of `b`
+    Mod,
+    /// `wrap(x, low, high)`, `x` wrapped into `[low, high)`
+    Wrap,
+    /// `noise()`, a standard normal draw
+    Noise,
+    /// `uniform()`, a uniform draw from [0, 1)
+    Uniform,
 }
 
 /// Every function with its name and what it takes.
-pub const FUNCTIONS: [(&str, Func, &str); 10] = [
+pub const FUNCTIONS: [(&str, Func, &str); 14] = [
     ("abs", Func::Abs, "abs(x)"),
     ("sqrt", Func::Sqrt, "sqrt(x)"),
     ("exp", Func::Exp, "exp(x)"),
@@ -60,7 +74,44 @@ pub const FUNCTIONS: [(&str, Func, &str); 10] = [
     ("min", Func::Min, "min(a, b, ...), two or more arguments"),
     ("max", Func::Max, "max(a, b, ...), two or more arguments"),
     ("clamp", Func::Clamp, "clamp(x, low, high)"),
+    ("mod", Func::Mod, "mod(a, b), the remainder with the sign of b"),
+    ("wrap", Func::Wrap, "wrap(x, low, high), x wrapped into [low, high)"),
+    ("noise", Func::Noise, "noise(), a standard normal draw (task formulas only)"),
+    ("uniform", Func::Uniform, "uniform(), a uniform draw from [0, 1) (task formulas only)"),
 ];
+
+impl Func {
+    /// How many arguments it takes: exactly `(n, n)`, or `(2, usize::MAX)`.
+    pub fn arity(self) -> (usize, usize) {
+        match self {
+            Func::Min | Func::Max => (2, usize::MAX),
+            Func::Mod => (2, 2),
+            Func::Clamp | Func::Wrap => (3, 3),
+            Func::Noise | Func::Uniform => (0, 0),
+            _ => (1, 1),
+        }
+    }
+
+    /// Whether it draws a random number.
+    pub fn draws(self) -> bool {
+        matches!(self, Func::Noise | Func::Uniform)
+    }
+}
+
+/// `mod(a, b)`: the remainder of `a / b` with the sign of `b` (NaN for `b = 0`).
+pub fn modulo(a: f64, b: f64) -> f64 {
+    let r = a % b;
+    if r != 0.0 && (r < 0.0) != (b < 0.0) {
+        r + b
+    } else {
+        r
+    }
+}
+
+/// `wrap(x, low, high) = low + mod(x − low, high − low)`.
+pub fn wrap(x: f64, low: f64, high: f64) -> f64 {
+    low + modulo(x - low, high - low)
+}
 
 impl Func {
     /// Applies a one-argument function.
@@ -73,7 +124,7 @@ impl Func {
             Func::Sin => libm::sin(x),
             Func::Cos => libm::cos(x),
             Func::Tanh => libm::tanh(x),
-            Func::Min | Func::Max | Func::Clamp => unreachable!("{self:?} takes more than one argument"),
+            _ => unreachable!("{self:?} does not take one argument"),
         }
     }
 }
@@ -132,6 +183,17 @@ pub enum Binding {
     Input(usize),
     /// A fixed number (gamma, pi, an action's index, a user constant).
     Const(f64),
+    /// A number a discrete action sets (entry `k` of the scope's table of
+    /// per-action values): the value of the action taken.
+    PerAction(usize),
+    /// A variable of a custom scope ([`Scope::custom`]): its slot, and the
+    /// slot of its next-state value when the scope has one.
+    Slot {
+        /// Slot of the plain name.
+        now: usize,
+        /// Slot of the primed name, if the scope offers it.
+        next: Option<usize>,
+    },
 }
 
 /// One name of a scope.
@@ -161,6 +223,14 @@ pub struct Scope {
     /// Only state variables (a potential Φ(s)): inputs other than the
     /// current state are refused with this message.
     state_only: Option<&'static str>,
+    /// A custom scope's number of input slots (`None`: the task layout above).
+    custom_inputs: Option<usize>,
+    /// Whether `noise()` and `uniform()` are allowed.
+    draws: bool,
+    /// Why primed names are refused in a custom scope.
+    no_next: String,
+    /// Values per action index of the [`Binding::PerAction`] names.
+    per_action: Vec<Vec<f64>>,
 }
 
 /// Names the language itself reserves.
@@ -263,10 +333,58 @@ impl Scope {
                 }
             }
         }
+        let mut per_action = Vec::new();
+        for (name, values) in &spec.action_numbers {
+            if !names.iter().any(|x| x.name == *name) && is_identifier(name) {
+                let shown: Vec<String> = values.iter().map(|v| v.to_string()).collect();
+                names.push(NameInfo {
+                    name: name.clone(),
+                    binding: Binding::PerAction(per_action.len()),
+                    kind: "action",
+                    doc: format!("the number the action taken sets ({} by action index)", shown.join(", ")),
+                });
+                per_action.push(values.clone());
+            }
+        }
+        for (i, name) in spec.state_names.iter().enumerate() {
+            add(
+                &mut names,
+                name,
+                Binding::Const(i as f64),
+                "state_name",
+                format!("{i}, the index of state {name} (compare: state == {name})"),
+            );
+        }
         for (name, v) in constants {
             add(&mut names, name, Binding::Const(*v), "constant", format!("your constant ({v})"));
         }
-        Scope { names, n_state: n, n_action: k, state_only: None }
+        Scope {
+            names,
+            n_state: n,
+            n_action: k,
+            state_only: None,
+            custom_inputs: None,
+            draws: false,
+            no_next: String::new(),
+            per_action,
+        }
+    }
+
+    /// A scope of the caller's own names and slot layout (a task's own
+    /// formulas): names bound to [`Binding::Slot`] or [`Binding::Const`];
+    /// `inputs` is the length of the input vector. `no_next` says why a
+    /// primed name of a variable without a next slot is refused.
+    pub fn custom(names: Vec<NameInfo>, inputs: usize, draws: bool, no_next: &str) -> Self {
+        Scope {
+            names,
+            n_state: 0,
+            n_action: 0,
+            state_only: None,
+            custom_inputs: Some(inputs),
+            draws,
+            no_next: no_next.into(),
+            per_action: Vec::new(),
+        }
     }
 
     /// The same names, restricted to the current state (for a potential Φ(s)).
@@ -288,7 +406,7 @@ impl Scope {
 
     /// Number of input slots a program of this scope reads.
     pub fn input_len(&self) -> usize {
-        2 * self.n_state + self.n_action + 3
+        self.custom_inputs.unwrap_or(2 * self.n_state + self.n_action + 3)
     }
 
     /// Number of state variables.
@@ -316,6 +434,7 @@ fn kind_words(kind: &str) -> &'static str {
         "discount" => "the discount",
         "number" => "the number",
         "action_name" => "the action name",
+        "state_name" => "the state name",
         _ => "the constant",
     }
 }
@@ -395,6 +514,9 @@ enum Op {
     Min(u16),
     Max(u16),
     Clamp,
+    Mod,
+    Wrap,
+    Draw(bool),
     Select,
 }
 
@@ -439,10 +561,16 @@ impl Resolver<'_> {
         }
         let state: Vec<&str> =
             self.scope.names.iter().filter(|x| x.kind == "state").map(|x| x.name.as_str()).collect();
+        if state.is_empty() {
+            return "see the list of names you can use".into();
+        }
         format!("state variables here: {}; see the list of names for the rest", list(&state))
     }
 
     fn load(&mut self, slot: usize, span: Span, name: &str) -> R {
+        if self.scope.custom_inputs.is_some() {
+            return R::Load(slot as u16);
+        }
         let n = self.scope.n_state;
         let k = self.scope.n_action;
         if let Some(why) = self.scope.state_only {
@@ -473,6 +601,22 @@ impl Resolver<'_> {
                 Some(Binding::State(i)) => self.load(i, e.span, name),
                 Some(Binding::Input(s)) => self.load(s, e.span, name),
                 Some(Binding::Const(v)) => R::Const(v),
+                Some(Binding::Slot { now, .. }) => self.load(now, e.span, name),
+                Some(Binding::PerAction(k)) => {
+                    // `if action == 0 then v0 else if action == 1 then v1 … else v_last`.
+                    let values = self.scope.per_action[k].clone();
+                    let slot = 2 * self.scope.n_state;
+                    let mut tree = R::Const(values.last().copied().unwrap_or(0.0));
+                    for (i, &v) in values.iter().enumerate().rev().skip(1) {
+                        let test = R::Bin(
+                            BinOp::Eq,
+                            Box::new(self.load(slot, e.span, name)),
+                            Box::new(R::Const(i as f64)),
+                        );
+                        tree = R::If(Box::new(test), Box::new(R::Const(v)), Box::new(tree));
+                    }
+                    tree
+                }
                 None => {
                     if FUNCTIONS.iter().any(|f| f.0 == name) {
                         return self.err(
@@ -489,6 +633,11 @@ impl Resolver<'_> {
                 Some(Binding::State(i)) => {
                     let n = self.scope.n_state;
                     self.load(n + i, e.span, &format!("{name}'"))
+                }
+                Some(Binding::Slot { next: Some(s), .. }) => self.load(s, e.span, &format!("{name}'")),
+                Some(Binding::Slot { next: None, .. }) => {
+                    let why = self.scope.no_next.clone();
+                    self.err(e.span, format!("`{name}'` cannot be used here"), why)
                 }
                 Some(_) => {
                     let state: Vec<&str> = self
@@ -550,12 +699,15 @@ impl Resolver<'_> {
                     };
                     return self.err(e.span, msg, hint);
                 };
-                let ok = match f {
-                    Func::Min | Func::Max => args.len() >= 2,
-                    Func::Clamp => args.len() == 3,
-                    _ => args.len() == 1,
-                };
-                if !ok {
+                let (lo, hi) = f.arity();
+                if f.draws() && !self.scope.draws {
+                    return self.err(
+                        e.span,
+                        format!("`{name}()` draws a random number: only a task's own formulas may"),
+                        "a reward change is a function of the step; put randomness in the task".into(),
+                    );
+                }
+                if args.len() < lo || args.len() > hi {
                     return self.err(
                         e.span,
                         format!(
@@ -567,13 +719,15 @@ impl Resolver<'_> {
                     );
                 }
                 let rs: Vec<R> = args.iter().map(|a| self.resolve(a)).collect();
-                if rs.iter().all(|r| matches!(r, R::Const(_))) {
+                if !f.draws() && rs.iter().all(|r| matches!(r, R::Const(_))) {
                     let xs: Vec<f64> =
                         rs.iter().map(|r| if let R::Const(x) = r { *x } else { 0.0 }).collect();
                     return R::Const(match f {
                         Func::Min => xs[1..].iter().fold(xs[0], |m, &x| m.min(x)),
                         Func::Max => xs[1..].iter().fold(xs[0], |m, &x| m.max(x)),
                         Func::Clamp => clamp(xs[0], xs[1], xs[2]),
+                        Func::Mod => modulo(xs[0], xs[1]),
+                        Func::Wrap => wrap(xs[0], xs[1], xs[2]),
                         f => f.apply1(xs[0]),
                     });
                 }
@@ -621,6 +775,10 @@ fn emit(r: &R, ops: &mut Vec<Op>, depth: usize, max: &mut usize) {
                 Func::Min => Op::Min(args.len() as u16),
                 Func::Max => Op::Max(args.len() as u16),
                 Func::Clamp => Op::Clamp,
+                Func::Mod => Op::Mod,
+                Func::Wrap => Op::Wrap,
+                Func::Noise => Op::Draw(true),
+                Func::Uniform => Op::Draw(false),
                 f => Op::F1(*f),
             });
         }
@@ -681,11 +839,31 @@ impl Program {
         }
     }
 
+    /// Whether it draws random numbers (`noise()`, `uniform()`).
+    pub fn draws(&self) -> bool {
+        self.ops.iter().any(|op| matches!(op, Op::Draw(_)))
+    }
+
     /// Evaluates over `inputs` (laid out as the scope says) with a stack of
-    /// at least [`Program::stack_len`] slots. Allocates nothing.
+    /// at least [`Program::stack_len`] slots. Allocates nothing. A program
+    /// that draws ([`Program::draws`]) needs [`Program::eval_with`]; here
+    /// its draws give NaN.
     ///
     /// Panics if a buffer is too short (a programming error).
+    #[inline]
     pub fn eval(&self, inputs: &[f64], stack: &mut [f64]) -> f64 {
+        self.run(inputs, stack, |_| f64::NAN)
+    }
+
+    /// [`Program::eval`] with `noise()` and `uniform()` drawn from `rng`, in
+    /// the order they appear in the formula's text.
+    #[inline]
+    pub fn eval_with(&self, inputs: &[f64], stack: &mut [f64], rng: &mut crate::rng::Stream) -> f64 {
+        self.run(inputs, stack, |normal| if normal { rng.normal() } else { rng.uniform() })
+    }
+
+    #[inline]
+    fn run(&self, inputs: &[f64], stack: &mut [f64], mut draw: impl FnMut(bool) -> f64) -> f64 {
         assert!(
             stack.len() >= self.stack && inputs.len() >= self.inputs,
             "reward program given {} stack and {} input slots; it needs {} and {}",
@@ -725,6 +903,18 @@ impl Program {
                     sp -= 2;
                     stack[sp - 1] = clamp(stack[sp - 1], stack[sp], stack[sp + 1]);
                 }
+                Op::Mod => {
+                    sp -= 1;
+                    stack[sp - 1] = modulo(stack[sp - 1], stack[sp]);
+                }
+                Op::Wrap => {
+                    sp -= 2;
+                    stack[sp - 1] = wrap(stack[sp - 1], stack[sp], stack[sp + 1]);
+                }
+                Op::Draw(normal) => {
+                    stack[sp] = draw(normal);
+                    sp += 1;
+                }
                 Op::Select => {
                     sp -= 2;
                     stack[sp - 1] = if truth(stack[sp - 1]) { stack[sp] } else { stack[sp + 1] };
@@ -761,6 +951,55 @@ mod tests {
         assert_eq!(run("not terminal and t > 3", &x), 1.0);
         assert_eq!(run("if 0/0 then 1 else 2", &x), 2.0);
         assert_eq!(run("clamp(1, 3, 2)", &x), 2.0);
+    }
+
+    #[test]
+    fn mod_and_wrap_follow_the_floored_remainder() {
+        // Python's float `%` has the same definition (The Python Language
+        // Reference, §6.7 "Binary arithmetic operations": the result has the
+        // sign of the second operand); values printed by CPython 3.11.
+        let x = [0.0; 8];
+        assert_eq!(run("mod(-7.5, 2)", &x), 0.5);
+        assert_eq!(run("mod(7.5, -2)", &x), -0.5);
+        assert_eq!(run("mod(7, 2.5)", &x), 2.0);
+        assert_eq!(run("mod(-1e-20, 360)", &x), 360.0); // rounds up to b, as in Python
+        assert!(run("mod(1, 0)", &x).is_nan());
+        assert_eq!(run("wrap(190, -180, 180)", &x), -170.0);
+        assert_eq!(run("wrap(-180, -180, 180)", &x), -180.0);
+        assert_eq!(run("wrap(180, -180, 180)", &x), -180.0);
+        // Not folded away when an input is involved: the same through the program.
+        assert_eq!(run("mod(row - 8, col)", &[1.0, 2.0, 0.0, 0.0, 0.0, 0.0, 0.0, 0.0]), 1.0);
+    }
+
+    #[test]
+    fn draws_only_where_the_scope_allows_them() {
+        let scope = Scope::new(&spec(), 0.9, &[]);
+        let errs = compile("noise()", &parse("noise()").unwrap(), &scope).unwrap_err();
+        assert!(errs[0].message.contains("draws a random number"), "{errs:?}");
+        let errs = compile("abs()", &parse("abs()").unwrap(), &scope).unwrap_err();
+        assert_eq!(errs[0].message, "`abs` given 0 arguments");
+        let names = vec![NameInfo {
+            name: "x".into(),
+            binding: Binding::Slot { now: 0, next: None },
+            kind: "state",
+            doc: String::new(),
+        }];
+        let custom = Scope::custom(names, 1, true, "no next here");
+        let text = "x + noise() * 0 + uniform()";
+        let p = compile(text, &parse(text).unwrap(), &custom).unwrap();
+        assert!(p.draws());
+        let mut stack = vec![0.0; p.stack_len()];
+        let mut a = crate::rng::Stream::from_seed(3);
+        let mut b = crate::rng::Stream::from_seed(3);
+        let got = p.eval_with(&[2.0], &mut stack, &mut a);
+        // Draw order is the text's: the normal first, then the uniform.
+        let _ = b.normal();
+        assert_eq!(got, 2.0 + 0.0 + b.uniform());
+        let errs = compile("x'", &parse("x'").unwrap(), &custom).unwrap_err();
+        assert_eq!(
+            (errs[0].message.as_str(), errs[0].hint.as_str()),
+            ("`x'` cannot be used here", "no next here")
+        );
     }
 
     #[test]

@@ -349,7 +349,10 @@ pub fn check_formula(text: &str, spec: &TaskSpec, reward: &RewardConfig) -> Form
         .scope(spec, spec.default_discount)
         .names()
         .iter()
-        .filter(|n| cfg.mode != Mode::Potential || !matches!(n.binding, compile::Binding::Input(_)))
+        .filter(|n| {
+            cfg.mode != Mode::Potential
+                || !matches!(n.binding, compile::Binding::Input(_) | compile::Binding::PerAction(_))
+        })
         .map(|n| NameReport { name: n.name.clone(), kind: n.kind, doc: n.doc.clone() })
         .collect();
     FormulaCheck { ok: errors.is_empty(), errors, pretty, uses, names }
@@ -490,6 +493,8 @@ mod tests {
             default_discount: 0.9,
             max_steps: 100,
             continuing: false,
+            state_names: Vec::new(),
+            action_numbers: Vec::new(),
         }
     }
 

@@ -455,11 +455,10 @@ impl<'a> Parser<'a> {
                 let open = self.bump().span;
                 let mut args = Vec::new();
                 if self.peek() == &Tok::RParen {
-                    return Err(self.error(
-                        tok.span.to(self.span()),
-                        format!("`{n}()` has no arguments"),
-                        "give the function its arguments, as in abs(x)",
-                    ));
+                    // A call without arguments (`noise()`): whether the
+                    // function takes none is the compiler's check.
+                    let close = self.bump().span;
+                    return Ok(Expr { kind: ExprKind::Call(n, args), span: tok.span.to(close) });
                 }
                 loop {
                     args.push(self.expr()?);

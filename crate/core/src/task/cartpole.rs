@@ -89,6 +89,8 @@ impl CartPole {
             default_discount: 0.99,
             max_steps: cfg.max_steps,
             continuing: false,
+            state_names: Vec::new(),
+            action_numbers: Vec::new(),
         };
         Ok(CartPole { spec, state: [0.0; 4] })
     }

@@ -62,6 +62,8 @@ impl ShortCorridor {
             default_discount: 1.0,
             max_steps: cfg.max_steps,
             continuing: false,
+            state_names: Vec::new(),
+            action_numbers: Vec::new(),
         };
         Ok(ShortCorridor { spec, state: 0 })
     }

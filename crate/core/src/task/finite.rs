@@ -22,6 +22,9 @@ pub struct FiniteTask {
     model: FiniteModel,
     spec: TaskSpec,
     state: usize,
+    /// Each state's observation, when states may look alike (`None`: the
+    /// observation is the state index and the learner may tell states apart).
+    observe: Option<Vec<Vec<f64>>>,
 }
 
 impl FiniteTask {
@@ -66,8 +69,26 @@ impl FiniteTask {
             default_discount: discount,
             max_steps,
             continuing,
+            state_names: Vec::new(),
+            action_numbers: Vec::new(),
         };
-        Ok(FiniteTask { model, spec, state: 0 })
+        Ok(FiniteTask { model, spec, state: 0, observe: None })
+    }
+
+    /// A task of an already checked model with the caller's description.
+    /// With `observe` (one vector per state, of the spec's state variables)
+    /// the observation is the state's vector and the task declares no state
+    /// ids (states with equal vectors look the same to a learner); without
+    /// it the observation is the state index, as for [`FiniteTask::new`].
+    pub fn with_spec(model: FiniteModel, spec: TaskSpec, observe: Option<Vec<Vec<f64>>>) -> Self {
+        FiniteTask { model, spec, state: 0, observe }
+    }
+
+    fn write_obs(&self, obs: &mut [f64]) {
+        match &self.observe {
+            Some(table) => obs.copy_from_slice(&table[self.state]),
+            None => obs[0] = self.state as f64,
+        }
     }
 
     /// The model this task runs.
@@ -83,7 +104,7 @@ impl Task for FiniteTask {
 
     fn reset(&mut self, rng: &mut Stream, obs: &mut [f64]) {
         self.state = rng.categorical(&self.model.start);
-        obs[0] = self.state as f64;
+        self.write_obs(obs);
     }
 
     fn step(&mut self, action: Action<'_>, rng: &mut Stream, obs: &mut [f64]) -> Step {
@@ -92,7 +113,7 @@ impl Task for FiniteTask {
             _ => 0,
         };
         if self.model.terminal[self.state] {
-            obs[0] = self.state as f64;
+            self.write_obs(obs);
             return Step { reward: 0.0, terminated: true };
         }
         let list = &self.model.outcomes[self.state][a];
@@ -107,15 +128,18 @@ impl Task for FiniteTask {
             }
         }
         self.state = pick.next;
-        obs[0] = self.state as f64;
+        self.write_obs(obs);
         Step { reward: pick.reward, terminated: pick.terminal }
     }
 
     fn state_id(&self) -> Option<usize> {
-        Some(self.state)
+        self.observe.is_none().then_some(self.state)
     }
 
     fn id_of(&self, obs: &[f64]) -> Option<usize> {
+        if self.observe.is_some() {
+            return None;
+        }
         let v = *obs.first()?;
         (v >= 0.0 && v.fract() == 0.0 && (v as usize) < self.model.n_states).then_some(v as usize)
     }
@@ -125,10 +149,13 @@ impl Task for FiniteTask {
     }
 
     fn state_obs(&self, s: usize, obs: &mut [f64]) -> bool {
-        if s >= self.model.n_states || obs.is_empty() {
+        if s >= self.model.n_states || obs.len() < self.spec.state_vars.len() || obs.is_empty() {
             return false;
         }
-        obs[0] = s as f64;
+        match &self.observe {
+            Some(table) => obs[..table[s].len()].copy_from_slice(&table[s]),
+            None => obs[0] = s as f64,
+        }
         true
     }
 }

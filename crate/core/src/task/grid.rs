@@ -281,6 +281,8 @@ impl GridWorld {
             default_discount: 0.99,
             max_steps: cfg.max_steps,
             continuing: false,
+            state_names: Vec::new(),
+            action_numbers: Vec::new(),
         };
         Ok(GridWorld { cfg, spec, rows, cols, cells, state_cell, cell_state, start, pos: start })
     }

@@ -155,6 +155,8 @@ impl Lqr {
             default_discount: cfg.discount,
             max_steps: cfg.max_steps,
             continuing: false,
+            state_names: Vec::new(),
+            action_numbers: Vec::new(),
         };
         Ok(Lqr { cfg, spec, x: 0.0 })
     }

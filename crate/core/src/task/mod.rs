@@ -10,12 +10,14 @@
 pub mod cartpole;
 pub mod corridor;
 pub mod finite;
+pub mod formula;
 pub mod grid;
 pub mod layouts;
 pub mod lqr;
 pub mod mountain_car;
 pub mod pendulum;
 pub mod server;
+pub mod table;
 
 use crate::rng::Stream;
 
@@ -84,6 +86,14 @@ pub struct TaskSpec {
     /// resets it once and reports the mean reward per step over windows of
     /// `max_steps` steps. False for episodic tasks.
     pub continuing: bool,
+    /// Names of the discrete states, for a task that has them (a table
+    /// task): reward formulas may use them as numbers (the state's index).
+    /// Empty for other tasks.
+    pub state_names: Vec<String>,
+    /// Named numbers each discrete action sets (a formula task's `set`):
+    /// (name, value per action index). Reward formulas may use the names;
+    /// they stand for the value of the action taken. Empty for other tasks.
+    pub action_numbers: Vec<(String, Vec<f64>)>,
 }
 
 /// An action handed to a task.
@@ -130,6 +140,12 @@ pub trait Task: Send {
     /// shaping audit needs it to evaluate formulas on the exact model).
     fn state_obs(&self, _s: usize, _obs: &mut [f64]) -> bool {
         false
+    }
+    /// Why the last step failed, when it returned a reward that is not
+    /// finite because the task itself went wrong (a user-written model
+    /// whose state became NaN): the runner puts it in the job's reason.
+    fn fault(&self) -> Option<String> {
+        None
     }
 }
 

@@ -86,6 +86,8 @@ impl MountainCar {
             default_discount: 1.0,
             max_steps: cfg.max_steps,
             continuing: false,
+            state_names: Vec::new(),
+            action_numbers: Vec::new(),
         };
         Ok(MountainCar { spec, x: -0.5, v: 0.0 })
     }

@@ -135,6 +135,8 @@ impl Pendulum {
             default_discount: 0.99,
             max_steps: cfg.max_steps,
             continuing: false,
+            state_names: Vec::new(),
+            action_numbers: Vec::new(),
         };
         Ok(Pendulum { spec, dt: cfg.dt, levels: cfg.torque_levels, theta: pi, omega: 0.0 })
     }

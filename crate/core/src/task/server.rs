@@ -154,6 +154,8 @@ impl Server {
             default_discount: 0.99,
             max_steps: cfg.max_steps,
             continuing: true,
+            state_names: Vec::new(),
+            action_numbers: Vec::new(),
         };
         Ok(Server { cfg, spec, busy: 0, job: 0 })
     }

@@ -24,6 +24,8 @@ pub fn spec() -> TaskSpec {
         default_discount: 0.99,
         max_steps: 200,
         continuing: false,
+        state_names: Vec::new(),
+        action_numbers: Vec::new(),
     }
 }
 
@@ -150,6 +152,9 @@ pub fn reference(e: &Expr, env: &Env) -> f64 {
                 "min" => xs[1..].iter().fold(xs[0], |m, &x| m.min(x)),
                 "max" => xs[1..].iter().fold(xs[0], |m, &x| m.max(x)),
                 "clamp" => xs[0].max(xs[1]).min(xs[2]),
+                // As documented: `a % b`, plus `b` when the signs differ.
+                "mod" => rem_signed(xs[0], xs[1]),
+                "wrap" => xs[1] + rem_signed(xs[0] - xs[1], xs[2] - xs[1]),
                 other => panic!("no function {other}"),
             }
         }
@@ -160,6 +165,15 @@ pub fn reference(e: &Expr, env: &Env) -> f64 {
                 reference(n, env)
             }
         }
+    }
+}
+
+fn rem_signed(a: f64, b: f64) -> f64 {
+    let r = a % b;
+    if r == 0.0 || r.is_sign_negative() == b.is_sign_negative() || r.is_nan() {
+        r
+    } else {
+        r + b
     }
 }
 
