@@ -5,6 +5,7 @@
 // variant overrides, task switches, new and copied variants). The config
 // object is the one source of truth; controls.js draws the sheet from it.
 
+import { STARTER_FORMULA, STARTER_TABLE } from './starters.js';
 import { LEARNER_FIELDS, taskFacts } from './settings.js';
 
 /** A small rover map of our own, used when a config gives none. */
@@ -270,7 +271,8 @@ const taskMemo = new Map();
 export function switchTask(config, kind) {
   const old = config.task;
   if (old && old.kind) taskMemo.set(old.kind, copy(old));
-  config.task = taskMemo.get(kind) || (kind === 'grid' ? { kind: 'grid', layout: 'rover' } : { kind });
+  const starter = { grid: { kind: 'grid', layout: 'rover' }, formula: STARTER_FORMULA, table: STARTER_TABLE }[kind];
+  config.task = taskMemo.get(kind) || copy(starter || { kind });
   // Tabular features need a finite task: fall back to the default features.
   if (!taskFacts(config.task).finite && config.base && config.base.features && config.base.features.kind === 'tabular') {
     delete config.base.features;

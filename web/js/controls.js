@@ -8,6 +8,7 @@
 import { studySection } from './studyedit.js';
 import { TASKS, LEARNER_FIELDS, REWARD_MODES, explain, overridable, taskFacts } from './settings.js';
 import { idOf, merge, constantsText, fieldByKey } from './configedit.js';
+import { taskEditor } from './taskedit.js';
 
 /** The form's fixed elements. */
 export function findControls(doc) {
@@ -222,7 +223,7 @@ export function showFormulaCheck(doc, textarea, report) {
     const msg = `column ${e.column ?? start + 1}: ${e.message || 'not a valid formula'}${e.hint ? ` (${e.hint})` : ''}`;
     status.append(mirror, el(doc, 'p', { className: 'formula-error', text: msg }));
   }
-  const list = doc.querySelector(`[data-names-for="${CSS.escape(textarea.dataset.formula)}"]`);
+  const list = doc.querySelector(`[data-names-for="${CSS.escape(textarea.dataset.formula || textarea.dataset.taskFormula || '')}"]`);
   if (list && Array.isArray(report.names)) {
     list.replaceChildren(...report.names.map((n) => {
       const b = el(doc, 'button', { type: 'button', className: 'name', text: n.name, title: n.doc, dataset: { insert: n.name, into: textarea.id } });
@@ -263,6 +264,8 @@ export function renderSheet(els, config) {
   els.taskBlurb.textContent = kind ? TASKS[kind].blurb : `This page does not know the task kind ${JSON.stringify(task.kind)}.`;
   const baseEnv = envFor(config, config.base);
   drawFields(doc, els.taskFields, kind ? TASKS[kind].fields : [], task, 'task', baseEnv);
+  const own = kind && TASKS[kind].editor ? taskEditor(doc, task) : null;
+  if (own) els.taskFields.prepend(own);
   els.reward.replaceChildren(rewardEditor(doc, 'reward', config.reward));
   drawFields(doc, els.baseFields, LEARNER_FIELDS, config.base || {}, 'base', baseEnv);
   renderVariants(els, config);

@@ -11,6 +11,7 @@ import {
   applyInput, setRewardMode, addOverride, dropOverride, switchTask, newVariant, duplicateVariant, getAt, idOf, merge,
 } from './configedit.js';
 import { messageOf } from './wasm.js';
+import { applyTaskInput, addTaskItem, removeTaskItem, setActionKind, showTaskCheck } from './taskedit.js';
 
 /**
  * Wire the sheet.
@@ -24,20 +25,42 @@ export function bindForm(state, els, hooks) {
 
   function redraw(focusId) {
     const active = focusId || (doc.activeElement && els.form.contains(doc.activeElement) ? doc.activeElement.id : '');
+    const was = doc.getElementById(active);
+    const caret = was && typeof was.selectionStart === 'number' ? [was.selectionStart, was.selectionEnd] : null;
     const scroll = els.form.scrollTop;
     renderSheet(els, state.config);
     state.formErrors.clear();
     els.form.scrollTop = scroll;
     if (active) {
       const again = doc.getElementById(active);
-      if (again) again.focus({ preventScroll: !focusId });
+      if (again) {
+        again.focus({ preventScroll: !focusId });
+        if (caret && typeof again.setSelectionRange === 'function' && again.value !== undefined) {
+          try { again.setSelectionRange(caret[0], caret[1]); } catch { /* not a text control */ }
+        }
+      }
     }
     checkFormulas();
   }
 
-  /** Check every formula on the sheet with the core (checkFormula). */
+  /** Check every formula on the sheet with the core (checkFormula, checkTask). */
   function checkFormulas() {
     for (const ta of els.form.querySelectorAll('textarea[data-formula]')) checkFormula(ta);
+    checkTask();
+  }
+
+  /** Check the own-task editor's definition with the core (checkTask). */
+  function checkTask() {
+    const wasm = state.wasm;
+    const task = state.config && state.config.task;
+    if (!wasm || typeof wasm.checkTask !== 'function' || !task || (task.kind !== 'formula' && task.kind !== 'table')) return;
+    let report;
+    try {
+      report = JSON.parse(wasm.checkTask(JSON.stringify(task)));
+    } catch (err) {
+      report = { ok: false, problems: [{ path: '', message: messageOf(err) }], fields: [] };
+    }
+    showTaskCheck(doc, report, (ta, r) => showFormulaCheck(doc, ta, r));
   }
 
   function checkFormula(ta) {
@@ -59,7 +82,11 @@ export function bindForm(state, els, hooks) {
 
   function afterEdit(el, structural) {
     if (structural) redraw(el && el.id);
-    else if (el && el.closest('.reward')) {
+    else if (el && el.closest('.own-task')) {
+      checkTask();
+      // The reward formulas read the task's names.
+      for (const ta of els.form.querySelectorAll('textarea[data-formula]')) checkFormula(ta);
+    } else if (el && el.closest('.reward')) {
       const ta = el.closest('.reward').querySelector('textarea[data-formula]');
       if (ta) checkFormula(ta);
     }
@@ -73,6 +100,23 @@ export function bindForm(state, els, hooks) {
       if (e.type !== 'change') return;
       switchTask(state.config, el.value);
       afterEdit(el, true);
+      return;
+    }
+    if (el.dataset.taskActionKind) {
+      if (e.type !== 'change' || !el.checked) return;
+      setActionKind(state.config.task, el.dataset.taskActionKind);
+      afterEdit(el, true);
+      return;
+    }
+    if (el.dataset.taskCsvFile) {
+      if (e.type !== 'change' || !el.files || !el.files[0]) return;
+      const area = doc.getElementById(idOf('task.rows'));
+      el.files[0].text().then((text) => {
+        if (!area) return;
+        area.value = text;
+        area.dispatchEvent(new Event('input', { bubbles: true }));
+      }, (err) => state.formErrors.set('task.rows', { path: 'task.rows', message: `task.rows: the file could not be read (${messageOf(err)})` }));
+      el.value = '';
       return;
     }
     if (el.dataset.rewardMode) {
@@ -116,10 +160,11 @@ export function bindForm(state, els, hooks) {
     // Text fields act on every keystroke, choices when they change.
     const texty = el.tagName === 'TEXTAREA' || (el.tagName === 'INPUT' && el.type === 'text');
     if (texty !== (e.type === 'input')) return;
-    const r = applyInput(state.config, el);
+    const own = el.closest('.own-task') ? applyTaskInput(state.config, el, state.wasm) : { handled: false };
+    const r = own.handled ? own : applyInput(state.config, el);
     if (r.error) state.formErrors.set(el.dataset.path, r.error); else state.formErrors.delete(el.dataset.path);
     if (el.dataset.path === 'task.layout') fitLayoutMap(el.value);
-    afterEdit(el, r.structural && !texty);
+    afterEdit(el, r.structural && (!texty || own.handled));
     if (r.structural && texty && el.dataset.type === 'constants') {
       const ta = el.closest('.reward')?.querySelector('textarea[data-formula]');
       if (ta) checkFormula(ta);
@@ -160,6 +205,22 @@ export function bindForm(state, els, hooks) {
       const i = Number(b.dataset.sweepDrop);
       dropSweep(state.config, i, b.dataset.sweepKey);
       state.formErrors.delete(`variants[${i}].sweep.${b.dataset.sweepKey}`);
+      redraw();
+      hooks.onEdit();
+      return;
+    }
+    if (b.dataset.taskOpenCsv) {
+      doc.getElementById('task-rows-file')?.click();
+      return;
+    }
+    if (b.dataset.taskAdd) {
+      addTaskItem(state.config.task, b.dataset.taskAdd);
+      redraw();
+      hooks.onEdit();
+      return;
+    }
+    if (b.dataset.taskRemove) {
+      removeTaskItem(state.config.task, b.dataset.taskRemove);
       redraw();
       hooks.onEdit();
       return;

@@ -134,7 +134,7 @@ export function createInspectView(app) {
   function computeAudit() {
     cur.audit = null;
     const wasm = app.state.wasm;
-    if (!isGrid() || typeof wasm.audit !== 'function') return;
+    if (!isFinite_() || typeof wasm.audit !== 'function') return;
     const cfg = JSON.parse(cur.configJson);
     const shaped = (cfg.reward && cfg.reward.mode && cfg.reward.mode !== 'base')
       || (cfg.variants || []).some((v) => v.reward && v.reward.mode && v.reward.mode !== 'base');
@@ -224,9 +224,20 @@ export function createInspectView(app) {
         ui.valueCanvas.setAttribute('aria-label', `Map of the floor coloured by ${valueLabel}, arrows for the policy's action probabilities${marks.size ? `; ${marks.size} cells marked by the shaping audit` : ''}`);
       } else {
         const states = [];
-        for (let s = 0; s < n; s++) {
-          const label = cur.info.state_names.map((nm, d) => `${nm} ${fmt(cur.ready.states[s * k + d])}`).join(', ');
-          states.push({ label, value: value(s), probs: probs(s) });
+        const named = Array.isArray(cur.info.table_states) && cur.info.table_states.length === n ? cur.info.table_states : null;
+        const stateLabel = (s) => (named ? named[s] : cur.info.state_names.map((nm, d) => `${nm} ${fmt(cur.ready.states[s * k + d])}`).join(', '));
+        for (let s = 0; s < n; s++) states.push({ label: stateLabel(s), value: value(s), probs: probs(s) });
+        if (cur.audit) {
+          const diff = cur.audit.differing_states || [];
+          note = (note ? `${note} ` : '') + (diff.length
+            ? `Shaping audit: in ${diff.length} state${diff.length === 1 ? '' : 's'} the best action under this variant's reward differs from the task's own; following it costs ${formatNumber(Number(cur.audit.base_value_loss))} of task return from the start.`
+            : `Shaping audit: this variant's reward leaves the best actions unchanged${cur.audit.potential_based ? ' (potential-based)' : ''}.`);
+          ui.auditList.replaceChildren(...diff.map((d) => {
+            const li = document.createElement('li');
+            const where = Number.isInteger(d.state) && d.state < n ? stateLabel(d.state) : `state ${d.state}`;
+            li.textContent = `${where}: task's best ${(d.base_actions || []).join('/')}; shaped ${(d.shaped_actions || []).join('/')}${d.reachable === false ? ' (not reached from the start)' : ''}`;
+            return li;
+          }));
         }
         drawStateList(ctx, { states, actions: cur.info.action_names, valueLabel }, opts);
         ui.valueTitle.textContent = `Value and policy per state: ${cur.label}, seed ${cur.seed}`;

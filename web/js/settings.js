@@ -125,6 +125,30 @@ export const TASKS = {
       maxSteps(),
     ],
   },
+  formula: {
+    label: 'Your own model (formulas)',
+    blurb: 'Write a small model of your own system: state variables, actions or controls, update formulas, when an episode ends and the task\'s own reward. Every learner, study and statistic runs on it; the exact shaping audit needs a finite task (a table).',
+    editor: 'formula',
+    continuous: (task) => Array.isArray(task.controls),
+    fields: [
+      num('dt', 'Control step (dt)'),
+      int('substeps', 'Integration substeps'),
+      num('discount', 'Task discount'),
+      maxSteps(),
+    ],
+  },
+  table: {
+    label: 'Your own finite model (table)',
+    blurb: 'Write a finite model as a table of transitions (or paste it as CSV). Finite: exact values, the exact shaping audit and Inspect work on it.',
+    editor: 'table',
+    finite: (task) => !task.observe,
+    continuing: (task) => !!task.continuing,
+    fields: [
+      { key: 'continuing', label: 'Continuing (no terminal state)', type: 'bool', def: 'off', value: false, help: 'Curves then show the mean reward per step.' },
+      num('discount', 'Task discount'),
+      maxSteps(),
+    ],
+  },
 };
 
 /** Facts about a task config the form needs (before the core has checked it). */

@@ -61,6 +61,7 @@ pub fn validate_config(json: &str) -> Result<String, JsError> {
         "state_high": plan.spec.state_vars.iter().map(|v| v.high).collect::<Vec<_>>(),
         "continuous": plan.spec.actions.discrete_count().is_none(),
         "grid_map": grid_map,
+        "table_states": plan.spec.state_names,
         "title": plan.config.title,
         "labels": plan.variants.iter().map(|v| v.label.clone()).collect::<Vec<_>>(),
         "seeds": plan.config.seeds,
