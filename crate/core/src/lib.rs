@@ -23,3 +23,4 @@ pub mod rng;
 pub mod settings;
 pub mod stats;
 pub mod task;
+pub mod usertask;

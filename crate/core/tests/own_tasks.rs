@@ -7,11 +7,11 @@ use critbox_core::experiment;
 use critbox_core::rng::Stream;
 use critbox_core::task::cartpole::{CartPole, CartPoleConfig};
 use critbox_core::task::corridor::{CorridorConfig, ShortCorridor};
-use critbox_core::task::formula::{FormulaTask, FormulaTaskConfig};
 use critbox_core::task::mountain_car::{MountainCar, MountainCarConfig};
 use critbox_core::task::pendulum::{Pendulum, PendulumConfig};
-use critbox_core::task::table::{rows_from_csv, TableTaskConfig};
 use critbox_core::task::{Action, Task};
+use critbox_core::usertask::formula::{FormulaTask, FormulaTaskConfig};
+use critbox_core::usertask::table::{rows_from_csv, TableTaskConfig};
 use serde_json::json;
 
 fn formula(v: serde_json::Value) -> FormulaTask {

@@ -130,7 +130,8 @@ pub fn check_task(task_json: &str) -> Result<String, JsError> {
 /// the JSON array of rows; throws with the line and column of a problem.
 #[wasm_bindgen(js_name = tableRowsFromCsv)]
 pub fn table_rows_from_csv(text: &str) -> Result<String, JsError> {
-    let rows = critbox_core::task::table::rows_from_csv(text).map_err(|p| JsError::new(&p.to_string()))?;
+    let rows =
+        critbox_core::usertask::table::rows_from_csv(text).map_err(|p| JsError::new(&p.to_string()))?;
     Ok(serde_json::to_string(&rows).expect("rows serialise"))
 }
 

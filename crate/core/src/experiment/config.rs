@@ -17,14 +17,14 @@ use crate::reward::RewardConfig;
 use crate::task::cartpole::{CartPole, CartPoleConfig};
 use crate::task::corridor::{CorridorConfig, ShortCorridor};
 use crate::task::finite::{build_random_mdp, RandomMdpConfig};
-use crate::task::formula::{FormulaTask, FormulaTaskConfig, TaskCheck};
 use crate::task::grid::{GridConfig, GridWorld};
 use crate::task::lqr::{Lqr, LqrConfig};
 use crate::task::mountain_car::{MountainCar, MountainCarConfig};
 use crate::task::pendulum::{Pendulum, PendulumConfig};
 use crate::task::server::{Server, ServerConfig};
-use crate::task::table::TableTaskConfig;
 use crate::task::{Task, TaskError, TaskSpec};
+use crate::usertask::formula::{FormulaTask, FormulaTaskConfig, TaskCheck};
+use crate::usertask::table::TableTaskConfig;
 
 /// The config schema version this build writes and reads.
 pub const SCHEMA: u32 = 1;

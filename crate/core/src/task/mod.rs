@@ -10,14 +10,12 @@
 pub mod cartpole;
 pub mod corridor;
 pub mod finite;
-pub mod formula;
 pub mod grid;
 pub mod layouts;
 pub mod lqr;
 pub mod mountain_car;
 pub mod pendulum;
 pub mod server;
-pub mod table;
 
 use crate::rng::Stream;
 

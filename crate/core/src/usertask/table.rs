@@ -15,10 +15,10 @@ use std::collections::{BTreeMap, HashMap};
 
 use serde::{Deserialize, Serialize};
 
-use super::finite::FiniteTask;
-use super::{ActionSpace, FiniteModel, Outcome, StateVar, TaskError, TaskSpec};
 use crate::problem::Problem;
 use crate::reward::compile::{closest, is_identifier};
+use crate::task::finite::FiniteTask;
+use crate::task::{ActionSpace, FiniteModel, Outcome, StateVar, TaskError, TaskSpec};
 
 /// Most states of a table task.
 pub const MAX_STATES: usize = 1000;

@@ -29,11 +29,11 @@ use std::collections::BTreeMap;
 
 use serde::{Deserialize, Serialize};
 
-use super::{Action, ActionSpace, StateVar, Step, Task, TaskError, TaskSpec};
 use crate::problem::Problem;
 use crate::reward::compile::{self, truth, Binding, NameInfo, Program, Scope, KEYWORDS};
 use crate::reward::{parse, ErrorReport, NameReport};
 use crate::rng::Stream;
+use crate::task::{Action, ActionSpace, StateVar, Step, Task, TaskError, TaskSpec};
 
 /// Most state variables of a formula task.
 pub const MAX_VARS: usize = 32;
