@@ -510,6 +510,10 @@ enum Op {
     Load(u16),
     Un(UnOp),
     Bin(BinOp),
+    /// A binary operator whose right operand is an input slot (no push).
+    BinLoad(BinOp, u16),
+    /// A binary operator whose right operand is a number (no push).
+    BinConst(BinOp, f64),
     F1(Func),
     Min(u16),
     Max(u16),
@@ -764,8 +768,16 @@ fn emit(r: &R, ops: &mut Vec<Op>, depth: usize, max: &mut usize) {
         }
         R::Bin(op, a, b) => {
             emit(a, ops, depth, max);
-            emit(b, ops, depth + 1, max);
-            ops.push(Op::Bin(*op));
+            // A leaf right operand is read in place: the same arithmetic,
+            // one push and pop fewer.
+            match **b {
+                R::Load(s) => ops.push(Op::BinLoad(*op, s)),
+                R::Const(v) => ops.push(Op::BinConst(*op, v)),
+                _ => {
+                    emit(b, ops, depth + 1, max);
+                    ops.push(Op::Bin(*op));
+                }
+            }
         }
         R::Call(f, args) => {
             for (i, a) in args.iter().enumerate() {
@@ -888,6 +900,8 @@ impl Program {
                     sp -= 1;
                     stack[sp - 1] = apply_bin(b, stack[sp - 1], stack[sp]);
                 }
+                Op::BinLoad(b, s) => stack[sp - 1] = apply_bin(b, stack[sp - 1], inputs[s as usize]),
+                Op::BinConst(b, v) => stack[sp - 1] = apply_bin(b, stack[sp - 1], v),
                 Op::F1(f) => stack[sp - 1] = f.apply1(stack[sp - 1]),
                 Op::Min(n) | Op::Max(n) => {
                     let from = sp - n as usize;
@@ -1009,7 +1023,7 @@ mod tests {
             compile("", &parse("2 * gamma + max(1, 3) + (if 1 then 4 else row)").unwrap(), &scope).unwrap();
         assert_eq!(p.constant(), Some(8.0));
         let p = compile("", &parse("row * (2 + 3)").unwrap(), &scope).unwrap();
-        assert_eq!(p.len(), 3);
+        assert_eq!(p.len(), 2); // row, then × 5 read in place
         assert!(p.uses().state && !p.uses().next);
     }
 
