@@ -131,13 +131,20 @@ test('an own-task preset trains in the page with the CLI numbers and travels in 
   await second.context.close();
 });
 
-test('the table preset shows its exact shaping audit by state name in Inspect', async () => {
+test('the table preset trains with the CLI numbers and shows its exact shaping audit by state name in Inspect', async () => {
   const { page, context, problems } = await openPage(env);
   await page.click('#presets button[data-preset="machine-wear-table.json"]');
   await page.waitForFunction(() => window.__critbox.state.presetFile === 'machine-wear-table.json');
   await page.fill('#seeds', '2');
   await page.fill('#steps', '3000');
   await runToEnd(page);
+  const { configJson, summary } = await page.evaluate(() => ({
+    configJson: window.__critbox.state.run.configJson, summary: window.__critbox.state.summary,
+  }));
+  const dir = await mkdtemp(path.join(os.tmpdir(), 'critbox-'));
+  await writeFile(path.join(dir, 'config.json'), configJson);
+  const { stdout } = await promisify(execFile)(CLI, ['run', path.join(dir, 'config.json')], { maxBuffer: 1 << 26 });
+  assert.deepEqual(summary, JSON.parse(stdout), 'page = CLI on the table task too');
   await page.click('#tab-inspect');
   await page.selectOption('#inspect-variant', '1');
   await page.click('#inspect-go');

@@ -282,7 +282,7 @@ export function createInspectView(app) {
     const width = cur.ready.policyWidth;
     cur.scene = {
       kind: cur.info.task_kind, frames, stride: k + width + 2, k, width,
-      names: cur.info.state_names, actions: cur.info.action_names, low: cur.info.state_low, high: cur.info.state_high,
+      names: cur.info.state_names, tableStates: cur.info.table_states || [], actions: cur.info.action_names, low: cur.info.state_low, high: cur.info.state_high,
       map: cur.info.grid_map || null,
     };
     const n = frameCount(cur.scene);

@@ -329,7 +329,8 @@ function paintSeries(ctx, scene, t, fr, a, c) {
     ctx.fillStyle = c.ink;
     ctx.textAlign = 'left';
     ctx.textBaseline = 'middle';
-    ctx.fillText(`${scene.names[d] || `s${d}`} = ${fmt(fr.state[d])}`, a.x, y0 + bandH / 2);
+    const named = k === 1 && scene.tableStates && scene.tableStates[fr.state[d]];
+    ctx.fillText(named ? `state = ${named}` : `${scene.names[d] || `s${d}`} = ${fmt(fr.state[d])}`, a.x, y0 + bandH / 2);
     ctx.strokeStyle = c.accent;
     ctx.beginPath();
     for (let i = 0; i <= t; i++) { if (i === 0) ctx.moveTo(sx(i), sy(vals[i])); else ctx.lineTo(sx(i), sy(vals[i])); }
