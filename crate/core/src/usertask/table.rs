@@ -64,7 +64,7 @@ pub struct TableTaskConfig {
     pub start: BTreeMap<String, f64>,
     /// The task never ends (no terminal states); curves show the mean
     /// reward per step over windows of `max_steps`. Default false.
-    #[serde(default, skip_serializing_if = "std::ops::Not::not")]
+    #[serde(default)]
     pub continuing: bool,
     /// Each state's feature vector (all the same length); states with equal
     /// vectors look the same to the learner. Default: the state index.
