@@ -103,7 +103,7 @@ impl std::fmt::Display for LearnError {
 impl std::error::Error for LearnError {}
 
 /// An agent that acts and learns one transition at a time.
-pub trait Learner: Send {
+pub trait Learner {
     /// Samples an action at `obs` into `out` (off-policy learners: from the
     /// behaviour policy; the deterministic learner: with exploration noise).
     fn act(&mut self, obs: Obs<'_>, rng: &mut Stream, out: &mut ActionBuf);
