@@ -201,8 +201,9 @@ ensure_wasm_opt() {
 # builds critbox-wasm in the `wasm` profile (Cargo.toml: release settings,
 # opt-level 3, no debug info), then `wasm-opt -O3` optimises it once more and
 # leaves out the function names (the name section). Prints the path of the
-# result, which wasm-bindgen takes next; it is made again only when cargo's
-# output is newer.
+# result, which wasm-bindgen takes next (call it as `wasm="$(build_page_wasm)"`
+# after ensure_cargo, which puts cargo on PATH); it is made again only when
+# cargo's output is newer.
 #
 # wasm-opt runs before wasm-bindgen, not after: Debian 12's binaryen (108)
 # renumbers the two tables of wasm-bindgen's output wrongly (the export
@@ -211,9 +212,8 @@ ensure_wasm_opt() {
 # table"); before wasm-bindgen the module has one table. Its features
 # (simd128, bulk memory, ...) come from the module's target_features section.
 build_page_wasm() {
-    ensure_cargo
-    ensure_wasm_target
-    ensure_wasm_opt
+    # stdout carries only the path: whatever the installers print goes to stderr.
+    { ensure_cargo && ensure_wasm_target && ensure_wasm_opt; } >&2
     local target_dir="${CARGO_TARGET_DIR:-$REPO_ROOT/target}"
     local built="$target_dir/wasm32-unknown-unknown/wasm/critbox_wasm.wasm"
     local out="$target_dir/wasm-opt/critbox_wasm.wasm"
