@@ -10,6 +10,9 @@
 #   ensure_wasm_target          the wasm32-unknown-unknown standard library
 #   wasm_bindgen_pin            print the wasm-bindgen version pinned in crate/wasm/Cargo.toml
 #   ensure_wasm_bindgen         wasm-bindgen-cli at exactly that version
+#   ensure_wasm_opt             wasm-opt (Debian's binaryen)
+#   build_page_wasm             the page's WebAssembly (cargo's `wasm` profile, then
+#                               wasm-opt), ready for wasm-bindgen; prints its path
 #   ensure_node                 node (>= 18) and npm
 #   ensure_chromium             Debian's chromium at /usr/bin/chromium (never a downloaded browser)
 #   ensure_slurm                Debian's slurm-wlm and munge (the cluster tier's one-node Slurm)
@@ -184,6 +187,47 @@ ensure_wasm_bindgen() {
     have="$(_wasm_bindgen_version)"
     [ "$have" = "$pin" ] ||
         die "installed wasm-bindgen-cli $pin but 'wasm-bindgen --version' says '${have:-nothing}'; is another wasm-bindgen earlier on PATH? ($(command -v wasm-bindgen || echo none))"
+}
+
+# wasm-opt, from Debian's binaryen package (the page's WebAssembly goes
+# through it: see build_page_wasm).
+ensure_wasm_opt() {
+    command -v wasm-opt >/dev/null 2>&1 && return 0
+    ensure_apt binaryen
+    command -v wasm-opt >/dev/null 2>&1 || die "Debian's binaryen is installed but wasm-opt is not on PATH"
+}
+
+# The page's WebAssembly, for scripts/build and scripts/build-single: cargo
+# builds critbox-wasm in the `wasm` profile (Cargo.toml: release settings,
+# opt-level 3, no debug info), then `wasm-opt -O3` optimises it once more and
+# leaves out the function names (the name section). Prints the path of the
+# result, which wasm-bindgen takes next (call it as `wasm="$(build_page_wasm)"`
+# after ensure_cargo, which puts cargo on PATH); it is made again only when
+# cargo's output is newer.
+#
+# wasm-opt runs before wasm-bindgen, not after: Debian 12's binaryen (108)
+# renumbers the two tables of wasm-bindgen's output wrongly (the export
+# `__wbindgen_externrefs` ends up naming the function table, and the module
+# fails to start with "WebAssembly.Table.set(): Argument 1 is invalid for
+# table"); before wasm-bindgen the module has one table. Its features
+# (simd128, bulk memory, ...) come from the module's target_features section.
+build_page_wasm() {
+    # stdout carries only the path: whatever the installers print goes to stderr.
+    { ensure_cargo && ensure_wasm_target && ensure_wasm_opt; } >&2
+    local target_dir="${CARGO_TARGET_DIR:-$REPO_ROOT/target}"
+    local built="$target_dir/wasm32-unknown-unknown/wasm/critbox_wasm.wasm"
+    local out="$target_dir/wasm-opt/critbox_wasm.wasm"
+    say "cargo build --profile wasm --target wasm32-unknown-unknown -p critbox-wasm"
+    cargo build --profile wasm --target wasm32-unknown-unknown -p critbox-wasm >&2 ||
+        die "cargo build of the WebAssembly failed (see above)"
+    [ -f "$built" ] || die "cargo finished but $built is missing"
+    if ! [ -f "$out" ] || [ "$built" -nt "$out" ]; then
+        mkdir -p "$(dirname "$out")"
+        say "wasm-opt -O3 ($(wc -c <"$built") bytes in)"
+        wasm-opt -O3 "$built" -o "$out.tmp" || die "wasm-opt failed on $built (see above)"
+        mv "$out.tmp" "$out"
+    fi
+    printf '%s\n' "$out"
 }
 
 # node (18 or newer, for `node --test`) and npm, from Debian if missing.

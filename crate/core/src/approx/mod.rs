@@ -24,7 +24,8 @@ pub mod rbf;
 pub mod tiles;
 
 pub use grad::Grad;
-use std::sync::{Arc, Mutex, MutexGuard};
+use std::cell::{RefCell, RefMut};
+use std::rc::Rc;
 
 use serde::{Deserialize, Serialize};
 
@@ -413,21 +414,24 @@ impl FeatureCache {
 
 /// A [`FeatureCache`] that several approximators of one learner use (the
 /// actor and the critic over the same features compute each state's features
-/// once between them). A job runs on one thread, so the lock is never
-/// contended; in WebAssembly it costs nothing.
+/// once between them). A job runs on one thread and its approximators take
+/// turns, so this is an `Rc<RefCell<_>>`: no atomic instruction per use
+/// (natively the uncontended `Mutex` it replaced cost about 8% of W1's step).
+/// It is why [`Approx`] and [`crate::learn::Learner`] are not `Send`: a job
+/// is built on the thread that runs it (`Job::new` takes the plan and an id).
 #[derive(Clone)]
-pub struct SharedFeatures(Arc<Mutex<FeatureCache>>);
+pub struct SharedFeatures(Rc<RefCell<FeatureCache>>);
 
 impl SharedFeatures {
     /// A cache over `features`, not yet shared.
     pub fn new(features: Box<dyn Features>) -> Self {
-        SharedFeatures(Arc::new(Mutex::new(FeatureCache::new(features))))
+        SharedFeatures(Rc::new(RefCell::new(FeatureCache::new(features))))
     }
 
-    /// The cache (a poisoned lock only means another user panicked: the
-    /// cached vectors are still whole, as they are written before use).
-    pub fn lock(&self) -> MutexGuard<'_, FeatureCache> {
-        self.0.lock().unwrap_or_else(|e| e.into_inner())
+    /// The cache, for as long as the borrow lives (a second borrow at the
+    /// same time is a bug and panics, naming `RefCell`).
+    pub fn borrow(&self) -> RefMut<'_, FeatureCache> {
+        self.0.borrow_mut()
     }
 }
 
@@ -461,7 +465,7 @@ impl FeaturePool {
 
 /// A differentiable function of the state with a few outputs and a flat
 /// weight vector.
-pub trait Approx: Send {
+pub trait Approx {
     /// Number of outputs.
     fn outputs(&self) -> usize;
     /// The weights.
@@ -505,7 +509,7 @@ impl LinearFn {
     /// Zero weights over a (possibly shared) feature cache.
     pub fn over(cache: SharedFeatures, outputs: usize) -> Self {
         let (dim, step_scale) = {
-            let c = cache.lock();
+            let c = cache.borrow();
             (c.dim(), c.features().step_scale())
         };
         LinearFn {
@@ -532,7 +536,7 @@ impl Approx for LinearFn {
         self.step_scale
     }
     fn eval(&mut self, obs: Obs<'_>) -> &[f64] {
-        let mut cache = self.cache.lock();
+        let mut cache = self.cache.borrow();
         let x = cache.get(obs);
         for k in 0..self.lin.outputs {
             self.out[k] = self.lin.value(k, x);
@@ -540,7 +544,7 @@ impl Approx for LinearFn {
         &self.out
     }
     fn accumulate(&mut self, obs: Obs<'_>, coef: &[f64], signal: f64, grad: &mut Grad) {
-        let mut cache = self.cache.lock();
+        let mut cache = self.cache.borrow();
         let x = cache.get(obs);
         let dim = self.lin.dim;
         for (k, &c) in coef.iter().enumerate() {
@@ -554,7 +558,7 @@ impl Approx for LinearFn {
         }
     }
     fn sgd_step(&mut self, obs: Obs<'_>, coef: &[f64], step: f64) -> Option<f64> {
-        let mut cache = self.cache.lock();
+        let mut cache = self.cache.borrow();
         let x = cache.get(obs);
         let mut sq = 0.0;
         for (k, &c) in coef.iter().enumerate() {
@@ -572,7 +576,7 @@ impl Approx for LinearFn {
         for i in 0..dim {
             self.comb[i] = coef.iter().enumerate().map(|(k, c)| c * self.lin.w[k * dim + i]).sum();
         }
-        self.cache.lock().features().input_grad(obs.values, &self.comb, out)
+        self.cache.borrow().features().input_grad(obs.values, &self.comb, out)
     }
 }
 
@@ -672,6 +676,7 @@ pub fn build_approx(
 mod tests {
     use super::*;
     use std::sync::atomic::{AtomicUsize, Ordering};
+    use std::sync::Arc;
 
     #[test]
     fn linear_value_and_update() {
@@ -748,8 +753,8 @@ mod tests {
         let b = pool.get(&cfg, &vars, None, "test").unwrap();
         let c = pool.get(&cfg, &other, None, "test").unwrap();
         let d = pool.get(&FeatureConfig::Fourier { order: 2 }, &vars, None, "test").unwrap();
-        assert!(Arc::ptr_eq(&a.0, &b.0));
-        assert!(!Arc::ptr_eq(&a.0, &c.0) && !Arc::ptr_eq(&a.0, &d.0));
+        assert!(Rc::ptr_eq(&a.0, &b.0));
+        assert!(!Rc::ptr_eq(&a.0, &c.0) && !Rc::ptr_eq(&a.0, &d.0));
     }
 
     #[test]

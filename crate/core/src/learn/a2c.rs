@@ -19,8 +19,8 @@
 
 use super::ActorParams;
 use super::{
-    action_dims, finite, stochastic_actor, value_critic, LearnError, Learner, LearnerSetup, StepDiag,
-    Trajectory, Transition,
+    action_dims, entropy_and_ascend, finite, stochastic_actor, value_critic, LearnError, Learner,
+    LearnerSetup, StepDiag, Trajectory, Transition,
 };
 use crate::approx::FeaturePool;
 use crate::approx::Obs;
@@ -112,8 +112,8 @@ impl Learner for A2c {
         let delta = finite("TD error", t.reward + self.gamma * vn - v)?;
         if self.n == 1 {
             let critic_norm = self.critic.ascend(t.obs, &[1.0], delta);
-            let entropy = finite("policy entropy", self.actor.entropy(t.obs))?;
-            let actor_norm = self.actor.ascend(t.obs, t.action, delta, self.beta);
+            let (entropy, actor_norm) =
+                entropy_and_ascend(&mut self.actor, t.obs, t.action, delta, self.beta)?;
             return Ok(StepDiag::on_policy(delta, entropy, actor_norm, critic_norm));
         }
         let entropy = finite("policy entropy", self.actor.entropy(t.obs))?;

@@ -10,7 +10,8 @@
 
 use super::ActorParams;
 use super::{
-    finite, stochastic_actor, value_critic, LearnError, Learner, LearnerSetup, StepDiag, Transition,
+    entropy_and_ascend, finite, stochastic_actor, value_critic, LearnError, Learner, LearnerSetup, StepDiag,
+    Transition,
 };
 use crate::approx::FeaturePool;
 use crate::approx::Obs;
@@ -55,8 +56,7 @@ impl Learner for Differential {
         let delta = finite("TD error", t.reward - self.average + vn - v)?;
         self.average = finite("average reward", self.average + self.eta * delta)?;
         let critic_norm = self.critic.ascend(t.obs, &[1.0], delta);
-        let entropy = finite("policy entropy", self.actor.entropy(t.obs))?;
-        let actor_norm = self.actor.ascend(t.obs, t.action, delta, self.beta);
+        let (entropy, actor_norm) = entropy_and_ascend(&mut self.actor, t.obs, t.action, delta, self.beta)?;
         Ok(StepDiag::on_policy(delta, entropy, actor_norm, critic_norm))
     }
 

@@ -103,7 +103,7 @@ impl std::fmt::Display for LearnError {
 impl std::error::Error for LearnError {}
 
 /// An agent that acts and learns one transition at a time.
-pub trait Learner: Send {
+pub trait Learner {
     /// Samples an action at `obs` into `out` (off-policy learners: from the
     /// behaviour policy; the deterministic learner: with exploration noise).
     fn act(&mut self, obs: Obs<'_>, rng: &mut Stream, out: &mut ActionBuf);
@@ -232,6 +232,33 @@ pub(crate) fn finite(what: &str, v: f64) -> Result<f64, LearnError> {
         Ok(v)
     } else {
         Err(LearnError::Diverged(what.into()))
+    }
+}
+
+/// The entropy `H(π(·|s))` a step's diagnostics record and one actor step
+/// along `signal · ∇ log π(a|s) + beta · ∇H` at `obs`: returns (entropy, the
+/// step's norm), the same numbers as [`StochasticPolicy::entropy`] followed
+/// by [`StochasticPolicy::ascend`]. A softmax's step computes π(·|s) with the
+/// weights from before the step, which is the distribution whose entropy is
+/// recorded, so the entropy is read from it afterwards
+/// ([`StochasticPolicy::last_probabilities`]): one evaluation of the actor
+/// and one softmax fewer per step. A Gaussian's entropy depends on its
+/// log-standard deviations, which the step may change, so it is taken first.
+/// A non-finite entropy is an error either way (the job stops).
+pub(crate) fn entropy_and_ascend(
+    actor: &mut StochasticPolicy,
+    obs: Obs<'_>,
+    action: Action<'_>,
+    signal: f64,
+    beta: f64,
+) -> Result<(f64, f64), LearnError> {
+    if actor.is_discrete() {
+        let norm = actor.ascend(obs, action, signal, beta);
+        let entropy = finite("policy entropy", crate::policy::entropy(actor.last_probabilities()))?;
+        Ok((entropy, norm))
+    } else {
+        let entropy = finite("policy entropy", actor.entropy(obs))?;
+        Ok((entropy, actor.ascend(obs, action, signal, beta)))
     }
 }
 

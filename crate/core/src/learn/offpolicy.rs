@@ -22,8 +22,8 @@
 
 use super::ActorParams;
 use super::{
-    finite, stochastic_actor, value_critic, BehaviourKind, LearnError, Learner, LearnerSetup, StepDiag,
-    Transition,
+    entropy_and_ascend, finite, stochastic_actor, value_critic, BehaviourKind, LearnError, Learner,
+    LearnerSetup, StepDiag, Transition,
 };
 use crate::approx::FeaturePool;
 use crate::approx::Obs;
@@ -212,8 +212,8 @@ impl OffPolicy {
         let vn = if t.terminated { 0.0 } else { self.critic.eval(t.next)[0] };
         let delta = finite("TD error", t.reward + self.gamma * vn - v)?;
         let critic_norm = self.critic.ascend(t.obs, &[1.0], w * delta);
-        let entropy = finite("policy entropy", self.target.entropy(t.obs))?;
-        let actor_norm = self.target.ascend(t.obs, t.action, w * delta, self.beta);
+        let (entropy, actor_norm) =
+            entropy_and_ascend(&mut self.target, t.obs, t.action, w * delta, self.beta)?;
         self.until_refresh -= 1;
         if self.until_refresh == 0 {
             self.until_refresh = self.every;

@@ -11,7 +11,10 @@
 //! comparison with A2C. Discrete actions only.
 
 use super::ActorParams;
-use super::{finite, state_net, stochastic_actor, LearnError, Learner, LearnerSetup, StepDiag, Transition};
+use super::{
+    entropy_and_ascend, finite, state_net, stochastic_actor, LearnError, Learner, LearnerSetup, StepDiag,
+    Transition,
+};
 use crate::approx::FeaturePool;
 use crate::approx::Obs;
 use crate::optim::Trainable;
@@ -75,8 +78,7 @@ impl Learner for Qac {
         self.onehot[a] = 1.0;
         let critic_norm = self.critic.ascend(t.obs, &self.onehot, delta);
         self.onehot[a] = 0.0;
-        let entropy = finite("policy entropy", self.actor.entropy(t.obs))?;
-        let actor_norm = self.actor.ascend(t.obs, t.action, q, self.beta);
+        let (entropy, actor_norm) = entropy_and_ascend(&mut self.actor, t.obs, t.action, q, self.beta)?;
         Ok(StepDiag::on_policy(delta, entropy, actor_norm, critic_norm))
     }
 
