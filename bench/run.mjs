@@ -28,12 +28,13 @@ const cli = process.env.CRITBOX_CLI || path.join(root, 'target/release/critbox')
 // Steps per measurement and runs per median. Sized so a quick run stays under
 // 2 minutes on a loaded 2-core machine; the full run gives steadier medians.
 const S = quick
-  ? { runs: 3, w4runs: 2, native: { w1: 300000, w2: 10000, w3: 300000 }, wasm: { w1: 300000, w2: 10000, w3: 300000 },
+  ? { runs: 3, w4runs: 2, native: { w1: 300000, w2: 10000, w3: 300000, w1f: 300000 }, wasm: { w1: 300000, w2: 10000, w3: 300000, w1f: 300000 },
       peer: { w1: 3000, w2: 1500 }, jit: { w1: 300000, w2: 10000 }, rss: [300000, 3000000] }
-  : { runs: 5, w4runs: 3, native: { w1: 2000000, w2: 60000, w3: 2000000 }, wasm: { w1: 2000000, w2: 60000, w3: 2000000 },
+  : { runs: 5, w4runs: 3, native: { w1: 2000000, w2: 60000, w3: 2000000, w1f: 2000000 }, wasm: { w1: 2000000, w2: 60000, w3: 2000000, w1f: 2000000 },
       peer: { w1: 20000, w2: 6000 }, jit: { w1: 2000000, w2: 60000 }, rss: [1000000, 10000000] };
 
-const cfg = (w) => path.join(root, `bench/${w}.json`);
+// W1f is W1 on cart-pole restated as a formula task (bench/w1-formula.json).
+const cfg = (w) => path.join(root, `bench/${w === 'w1f' ? 'w1-formula' : w}.json`);
 const median = (xs) => { const s = [...xs].sort((a, b) => a - b); const m = s.length >> 1; return s.length % 2 ? s[m] : (s[m - 1] + s[m]) / 2; };
 const json = (cmd, argv) => JSON.parse(execFileSync(cmd, argv, { cwd: root, encoding: 'utf8', stdio: ['ignore', 'pipe', 'inherit'], maxBuffer: 1 << 24 }));
 const log = (m) => process.stderr.write(`bench: ${m}\n`);
@@ -43,11 +44,12 @@ const raw = {};
 const med = {};
 const pairs = {};
 const pairedMedian = (a, b) => median(a.map((x, i) => x / b[i]));
-for (const w of ['w1', 'w2', 'w3']) {
+for (const w of ['w1', 'w2', 'w3', 'w1f']) {
+  const peers = w === 'w1' || w === 'w2';
   log(`${w}: ${S.runs} rounds of native (${S.native[w]} steps), wasm under Node and in headless Chromium (${S.wasm[w]} steps)`
-    + (w !== 'w3' ? `, NumPy peer (${S.peer[w]} steps), compiled (Numba) peer (${S.jit[w]} steps)` : ''));
+    + (peers ? `, NumPy peer (${S.peer[w]} steps), compiled (Numba) peer (${S.jit[w]} steps)` : ''));
   const r = { native: [], node: [], chromium: [] };
-  if (w !== 'w3') { r.numpy = []; r.jit = []; }
+  if (peers) { r.numpy = []; r.jit = []; }
   for (let k = 0; k < S.runs; k++) {
     r.native.push(json(cli, ['bench', cfg(w), '--steps', String(S.native[w])]).steps_per_sec);
     r.node.push(json('node', [path.join(root, 'bench/node.mjs'), cfg(w), String(S.wasm[w])]).steps_per_sec);
@@ -128,13 +130,18 @@ row(`W1 resident memory growth ${S.rss[0]} -> ${S.rss[1]} steps`, growth * 100, 
 row('WebAssembly size', weight.wasm_bytes / 1000, 'KB', '<= 600', weight.wasm_bytes <= 600e3);
 row('WebAssembly size, gzipped', weight.wasm_gzip_bytes / 1000, 'KB', '<= 250', weight.wasm_gzip_bytes <= 250e3);
 if (single) row('single file (dist/critbox.html)', single.size / 1000, 'KB', '<= 1000', single.size <= 1000e3);
+// The user's own tasks: cart-pole written as formulas against the built-in task (issue 15).
+const f1 = med.w1f.native / med.w1.native;
+row('W1 on cart-pole as formulas / built-in, native', f1, 'x', '>= 0.5', f1 >= 0.5);
+const f2 = med.w1f.chromium / med.w1.chromium;
+row('W1 on cart-pole as formulas / built-in, Chromium', f2, 'x', '>= 0.5', f2 >= 0.5);
 
 const fmt = (x) => (x == null ? '-' : x >= 100 ? x.toFixed(0) : x >= 1 ? x.toFixed(2) : x.toFixed(3));
 console.log(`\nenvironment steps per second (median of ${S.runs} rounds${quick ? ', --quick' : ''}; `
   + 'ratios: median over rounds of the ratio within a round)');
 console.log(['workload', 'native', 'wasm Node', 'wasm Chromium', 'NumPy peer', 'Numba peer', 'Node/native', 'Chromium/native',
   'native/NumPy', 'native/Numba'].join('\t'));
-for (const w of ['w1', 'w2', 'w3']) {
+for (const w of ['w1', 'w2', 'w3', 'w1f']) {
   const m = med[w];
   const p = pairs[w];
   console.log([w.toUpperCase(), fmt(m.native), fmt(m.node), fmt(m.chromium), fmt(m.numpy), fmt(m.jit), fmt(p.node_over_native),
