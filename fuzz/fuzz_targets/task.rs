@@ -29,10 +29,15 @@ fuzz_target!(|data: &[u8]| {
         assert!(!p.message.trim().is_empty(), "a problem with no message: {p:?}");
         // A problem with the task object as a whole: not an object, no
         // kind, or a field of its own the message names (a missing one, or
-        // an unknown one whose name is empty).
-        let whole = ["missing field `", "unknown field ``", "duplicate field `"]
-            .iter()
-            .any(|m| p.message.starts_with(m))
+        // an unknown one whose name is empty or only dots, which the
+        // task-relative path trims away).
+        let dots_only = p
+            .message
+            .strip_prefix("unknown field `")
+            .and_then(|m| m.split_once('`'))
+            .is_some_and(|(key, _)| key.chars().all(|c| c == '.'));
+        let whole = ["missing field `", "duplicate field `"].iter().any(|m| p.message.starts_with(m))
+            || dots_only
             || !value.is_object()
             || !value.get("kind").is_some_and(Value::is_string);
         assert!(!p.path.is_empty() || whole, "a problem that names no field: {p:?}\n{text}");
