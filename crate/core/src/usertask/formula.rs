@@ -294,10 +294,14 @@ impl FormulaTaskConfig {
                 Start::Fixed(x) if !x.is_finite() => {
                     bad(problems, format!("{path}.start"), format!("must be finite, got {x}"))
                 }
-                Start::Range([a, b]) if !(a.is_finite() && b.is_finite() && a <= b) => bad(
+                // The draw is low + (high − low)·u: the width must be finite too.
+                Start::Range([a, b]) if !(a <= b && (b - a).is_finite()) => bad(
                     problems,
                     format!("{path}.start"),
-                    format!("a start range [low, high] needs finite low ≤ high, got [{a}, {b}]"),
+                    format!(
+                        "a start range [low, high] needs finite low ≤ high with a finite width high − low, \
+                         got [{a}, {b}]"
+                    ),
                 ),
                 _ => {}
             }
