@@ -33,7 +33,7 @@ fuzz_target!(|data: &[u8]| {
     }
     if !part.jobs.is_empty() {
         let twice = merge(&[("a.json".to_string(), part.clone()), ("b.json".to_string(), part)]);
-        let m = twice.err().expect("a part merged with itself is a doubled shard");
+        let Err(m) = twice else { panic!("a part merged with itself is a doubled shard") };
         assert!(m.contains("both"), "the doubled shard is named: {m}");
     }
 });

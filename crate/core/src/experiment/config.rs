@@ -624,8 +624,18 @@ fn task_problem(task: &Value) -> Option<Problem> {
 /// ([`TaskCheck`]).
 pub fn check_task(task: &Value) -> TaskCheck {
     let relative = |p: Problem| {
-        let path = p.path.strip_prefix("task").map(|r| r.trim_start_matches('.')).unwrap_or(&p.path);
-        Problem { path: path.to_string(), message: p.message }
+        let mut path = match p.path.strip_prefix("task.") {
+            Some(rest) => rest.to_string(),
+            None if p.path == "task" => String::new(),
+            None => p.path.clone(),
+        };
+        // serde names a missing field in its message only: put it in the path.
+        if let Some(field) = p.message.strip_prefix("missing field `").and_then(|m| m.split('`').next()) {
+            if path.is_empty() {
+                path = field.to_string();
+            }
+        }
+        Problem { path, message: p.message }
     };
     let cfg: TaskConfig = match deserialize(task, "task") {
         Ok(c) => c,
