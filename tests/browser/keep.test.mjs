@@ -49,10 +49,11 @@ test('edits and a finished run survive a reload', async () => {
 
 test('a reload during a run keeps the finished jobs; finishing the run gives the CLI\'s numbers', async () => {
   const { page, context, problems } = await openPage(env);
-  // Long enough (18 jobs of 1 M steps, several seconds even on a fast
-  // machine) that the reload lands while jobs are still training.
+  // Long enough (18 jobs of 2.5 M steps, several seconds even on a fast
+  // machine: 1 M steps were done before the first checkpoint once the
+  // learners got faster) that the reload lands while jobs are still training.
   await page.fill('#seeds', '6');
-  await page.fill('#steps', '1000000');
+  await page.fill('#steps', '2500000');
   await page.waitForFunction(() => !document.getElementById('train').disabled);
   await page.click('#train');
   // Wait until a checkpoint with at least two finished jobs is written.

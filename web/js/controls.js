@@ -9,6 +9,7 @@ import { studySection } from './studyedit.js';
 import { TASKS, LEARNER_FIELDS, REWARD_MODES, explain, overridable, taskFacts } from './settings.js';
 import { idOf, merge, constantsText, fieldByKey } from './configedit.js';
 import { taskEditor } from './taskedit.js';
+import { el } from './dom.js';
 
 /** The form's fixed elements. */
 export function findControls(doc) {
@@ -33,20 +34,6 @@ export function findControls(doc) {
 }
 
 // ---------------------------------------------------------------- drawing fields
-
-function el(doc, tag, props = {}, ...children) {
-  const e = doc.createElement(tag);
-  for (const [k, v] of Object.entries(props)) {
-    if (v === undefined || v === null) continue;
-    if (k === 'text') e.textContent = v;
-    else if (k === 'className') e.className = v;
-    else if (k === 'dataset') Object.assign(e.dataset, v);
-    else if (k.startsWith('aria-') || k === 'role' || k === 'for') e.setAttribute(k, v);
-    else e[k] = v;
-  }
-  for (const c of children) if (c) e.append(c);
-  return e;
-}
 
 function fmtValue(v) {
   return typeof v === 'number' && Number.isFinite(v) ? String(v) : '';

@@ -8,20 +8,8 @@
 // display. An empty editor starts from the tasks of starters.js.
 
 import { idOf, constantsText, readNumber } from './configedit.js';
+import { el } from './dom.js';
 
-function el(doc, tag, props = {}, ...children) {
-  const e = doc.createElement(tag);
-  for (const [k, v] of Object.entries(props)) {
-    if (v === undefined || v === null) continue;
-    if (k === 'text') e.textContent = v;
-    else if (k === 'className') e.className = v;
-    else if (k === 'dataset') Object.assign(e.dataset, v);
-    else if (k.startsWith('aria-') || k === 'role' || k === 'for') e.setAttribute(k, v);
-    else e[k] = v;
-  }
-  for (const c of children) if (c) e.append(c);
-  return e;
-}
 
 const num = (v) => (typeof v === 'number' && Number.isFinite(v) ? String(v) : '');
 const list = (v) => (Array.isArray(v) ? v : []);

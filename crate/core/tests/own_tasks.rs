@@ -389,6 +389,13 @@ fn bad_formula_tasks_are_named_by_field_and_column() {
     assert!(p.iter().any(|m| m.starts_with("task.actions: give exactly one")), "{p:?}");
     assert!(p.iter().any(|m| m.starts_with("task.state[1].name: `dt` is reserved")), "{p:?}");
     assert!(p.iter().any(|m| m.starts_with("task.substeps:")), "{p:?}");
+    // A start that is neither a number nor a pair.
+    let mut t = small_model();
+    t["state"][0]["start"] = json!("low");
+    assert_eq!(
+        problems(t),
+        vec!["task.state[0].start: must be a number, or [low, high] for a uniform start; got \"low\""]
+    );
     // Unknown fields name the field.
     let mut t = small_model();
     t["updates"] = json!({});

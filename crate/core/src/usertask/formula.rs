@@ -52,13 +52,27 @@ pub const MAX_FORMULA: usize = 4096;
 pub const RESERVED: [&str; 8] = ["action", "terminal", "dt", "pi", "base", "t", "gamma", "state"];
 
 /// A start value: a number, or `[low, high]` for a uniform draw.
-#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+#[derive(Clone, Debug, PartialEq, Serialize)]
 #[serde(untagged)]
 pub enum Start {
     /// Always this value.
     Fixed(f64),
     /// Uniform on `[low, high)`.
     Range([f64; 2]),
+}
+
+impl<'de> Deserialize<'de> for Start {
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        let v = serde_json::Value::deserialize(d)?;
+        let pair = v.as_array().filter(|a| a.len() == 2).and_then(|a| Some([a[0].as_f64()?, a[1].as_f64()?]));
+        match (v.as_f64(), pair) {
+            (Some(x), _) => Ok(Start::Fixed(x)),
+            (None, Some(r)) => Ok(Start::Range(r)),
+            _ => Err(serde::de::Error::custom(format!(
+                "must be a number, or [low, high] for a uniform start; got {v}"
+            ))),
+        }
+    }
 }
 
 /// One state variable of a formula task.
