@@ -508,3 +508,39 @@ fn the_machine_preset_s_audit_says_what_its_text_says() {
         (Some("run"), Some("service"))
     );
 }
+
+#[test]
+fn substeps_integrate_like_that_many_shorter_control_steps() {
+    // k substeps of dt / k are k control steps of dt / k, bit for bit (the
+    // documented semantics; common practice, no source): a damped spring.
+    let task = |dt: f64, substeps: u32| {
+        formula(json!({
+            "state": [{"name": "x", "start": 1, "low": -2, "high": 2},
+                      {"name": "v", "start": 0, "low": -2, "high": 2}],
+            "controls": [{"name": "u", "low": -1, "high": 1}],
+            "let": [{"name": "v_new", "formula": "v + dt * (u - 4 * x - 0.3 * v)"}],
+            "update": {"x": "x + dt * v_new", "v": "v_new"},
+            "reward": "x - x'",
+            "dt": dt, "substeps": substeps
+        }))
+    };
+    let mut fine = task(0.01, 1);
+    let mut coarse = task(0.03, 3);
+    let (mut a, mut b) = ([0.0; 2], [0.0; 2]);
+    let mut r = Stream::from_seed(1);
+    fine.reset(&mut r, &mut a);
+    coarse.reset(&mut r, &mut b);
+    for k in 0..200 {
+        let u = [((k as f64) * 0.1).sin()];
+        let start = a[0];
+        let mut last = 0.0;
+        for _ in 0..3 {
+            last = fine.step(Action::Vector(&u), &mut r, &mut a).reward;
+        }
+        let s = coarse.step(Action::Vector(&u), &mut r, &mut b);
+        assert_eq!(bits(&a), bits(&b), "step {k}");
+        // The reward sees the state before the control step, not before the last substep.
+        assert_eq!(s.reward.to_bits(), (start - a[0]).to_bits());
+        assert_ne!(last.to_bits(), s.reward.to_bits());
+    }
+}

@@ -752,7 +752,7 @@ impl Task for FormulaTask {
             }
         }
         self.inputs[..n].copy_from_slice(&self.state);
-        for _ in 0..self.substeps {
+        for sub in 0..self.substeps {
             for (i, p) in self.lets.iter().enumerate() {
                 self.inputs[lay.first_let() + i] = p.eval_with(&self.inputs, &mut self.stack, rng);
             }
@@ -772,7 +772,11 @@ impl Task for FormulaTask {
                     self.next[j] = compile::clamp(x, lo, hi);
                 }
             }
-            self.inputs[..n].copy_from_slice(&self.next);
+            // The next substep starts from here; after the last one the
+            // reward reads the state before the step in these slots.
+            if sub + 1 < self.substeps {
+                self.inputs[..n].copy_from_slice(&self.next);
+            }
         }
         self.inputs[..n].copy_from_slice(&self.state);
         self.inputs[n..2 * n].copy_from_slice(&self.next);
