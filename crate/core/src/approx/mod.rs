@@ -538,6 +538,19 @@ impl Approx for LinearFn {
     fn eval(&mut self, obs: Obs<'_>) -> &[f64] {
         let mut cache = self.cache.borrow();
         let x = cache.get(obs);
+        if let ([o0, o1], true) = (self.out.as_mut_slice(), self.lin.outputs == 2) {
+            // Two outputs (a two-action softmax actor) in one pass over the
+            // features: each sum adds the same products in the same order
+            // as `Linear::value`, so the values are the same bit for bit.
+            let (w0, w1) = self.lin.w.split_at(self.lin.dim);
+            let (mut s0, mut s1) = (-0.0, -0.0);
+            for (&i, &v) in x.idx.iter().zip(&x.val) {
+                s0 += w0[i as usize] * v;
+                s1 += w1[i as usize] * v;
+            }
+            (*o0, *o1) = (s0, s1);
+            return &self.out;
+        }
         for k in 0..self.lin.outputs {
             self.out[k] = self.lin.value(k, x);
         }
@@ -560,6 +573,19 @@ impl Approx for LinearFn {
     fn sgd_step(&mut self, obs: Obs<'_>, coef: &[f64], step: f64) -> Option<f64> {
         let mut cache = self.cache.borrow();
         let x = cache.get(obs);
+        if let ([c0, c1], true) = (coef, self.lin.outputs == 2) {
+            // Two outputs in one pass: every weight gets the same single
+            // addition as `Linear::add` gives it, so the result is the same
+            // bit for bit.
+            let (a0, a1) = (step * c0, step * c1);
+            let (w0, w1) = self.lin.w.split_at_mut(self.lin.dim);
+            for (&i, &v) in x.idx.iter().zip(&x.val) {
+                w0[i as usize] += a0 * v;
+                w1[i as usize] += a1 * v;
+            }
+            let sq = 0.0 + c0 * c0 + c1 * c1;
+            return Some(f64::sqrt(sq * x.norm_sq()));
+        }
         let mut sq = 0.0;
         for (k, &c) in coef.iter().enumerate() {
             sq += c * c;
@@ -774,5 +800,38 @@ mod tests {
         }
         assert_eq!(a.params(), b.params());
         assert_eq!(a.eval(obs), &[0.1 * 4.0, -0.05 * 4.0]);
+    }
+
+    #[test]
+    fn two_output_pass_equals_the_per_output_loops_bit_for_bit() {
+        // Common practice, no source: the fused two-output evaluation and
+        // update add the same products in the same order as `Linear::value`
+        // and `Linear::add`, so the values and weights agree bit for bit.
+        let mut t = 0.0_f64;
+        let mut next = move || {
+            t += 1.0;
+            (t * 12.9898).sin()
+        };
+        let vars = test_vars(2, -1.0, 1.0);
+        let cfg = FeatureConfig::Fourier { order: 3 };
+        let mut f = LinearFn::new(build_features_over(&cfg, &vars, None, "test").unwrap(), 2);
+        for w in f.params_mut() {
+            *w = 2.0 * next();
+        }
+        let mut reference = f.lin.clone();
+        let mut x = Sparse::with_capacity(16);
+        for _ in 0..50 {
+            let v = [next(), next()];
+            let obs = Obs { values: &v, id: None };
+            f.cache.borrow().features().compute(obs, &mut x);
+            let out = f.eval(obs).to_vec();
+            assert_eq!(out[0].to_bits(), reference.value(0, &x).to_bits());
+            assert_eq!(out[1].to_bits(), reference.value(1, &x).to_bits());
+            let (c, step) = ([next(), next()], 0.01);
+            f.sgd_step(obs, &c, step);
+            reference.add(0, step * c[0], &x);
+            reference.add(1, step * c[1], &x);
+            assert!(f.params().iter().zip(&reference.w).all(|(a, b)| a.to_bits() == b.to_bits()));
+        }
     }
 }
