@@ -14,6 +14,7 @@
 #   build_page_wasm             the page's WebAssembly (cargo's `wasm` profile, then
 #                               wasm-opt), ready for wasm-bindgen; prints its path
 #   ensure_node                 node (>= 18) and npm
+#   npm_ci_if_needed DIR        npm ci in DIR when node_modules is missing or stale
 #   ensure_chromium             Debian's chromium at /usr/bin/chromium (never a downloaded browser)
 #   ensure_slurm                Debian's slurm-wlm and munge (the cluster tier's one-node Slurm)
 # Every ensure_* does nothing when the tool is already there, so calling it
@@ -241,6 +242,24 @@ ensure_node() {
     local major
     major="$(node -p 'process.versions.node.split(".")[0]')"
     [ "$major" -ge 18 ] || die "node $(node --version) is too old: the tests need node 18 or newer"
+}
+
+# npm_ci_if_needed DIR: npm ci in folder DIR when its node_modules is missing or its lock file
+# changed since the last install (a stamp of the lock file's hash). Never
+# downloads a browser (PLAYWRIGHT_SKIP_BROWSER_DOWNLOAD).
+npm_ci_if_needed() {
+    local dir="$1" lock_hash stamp
+    [ -f "$dir/package-lock.json" ] ||
+        die "$dir/package-lock.json is missing: run 'npm install' in $dir and commit the lock file (npm ci needs it)"
+    lock_hash="$(sha256sum "$dir/package-lock.json" | awk '{print $1}')"
+    stamp="$dir/node_modules/.critbox-lock-sha256"
+    if [ ! -d "$dir/node_modules" ] || [ "$(cat "$stamp" 2>/dev/null || true)" != "$lock_hash" ]; then
+        say "npm ci in $dir (node_modules missing or package-lock.json changed)"
+        (cd "$dir" && PLAYWRIGHT_SKIP_BROWSER_DOWNLOAD=1 npm ci --no-audit --no-fund)
+        printf '%s\n' "$lock_hash" >"$stamp"
+    else
+        echo "$dir/node_modules matches package-lock.json; npm ci not needed"
+    fi
 }
 
 # Debian's chromium at $CRITBOX_CHROMIUM (default /usr/bin/chromium).
