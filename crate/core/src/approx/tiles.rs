@@ -46,6 +46,26 @@ fn hash_coords(tiling: u32, coords: impl Iterator<Item = u32>) -> u64 {
 }
 
 impl TileCoder {
+    /// A hash `h` folded into `[0, hash)`: h mod 2^m is h's low m bits, the
+    /// same index without a 64-bit division.
+    #[inline(always)]
+    fn fold(&self, h: u64, pow2: bool) -> u32 {
+        (if pow2 { h & u64::from(self.hash - 1) } else { h % u64::from(self.hash) }) as u32
+    }
+
+    /// The hashed indices of `D` variables (scaled values in `u`), one per
+    /// tiling: what the general loop of [`Features::compute`] gives.
+    #[inline(always)]
+    fn hashed<const D: usize>(&self, u: &[f64; STACK_VARS], pow2: bool, out: &mut Sparse) {
+        let u: &[f64; D] = u[..D].try_into().expect("D <= STACK_VARS");
+        out.idx.extend((0u32..).zip(self.shift.chunks_exact(D)).map(|(k, shifts)| {
+            let shifts: &[f64; D] = shifts.try_into().expect("chunks of D");
+            let coords = (0..D).map(|i| ((u[i] + shifts[i]) as u32).min(self.intervals));
+            self.fold(hash_coords(k, coords), pow2)
+        }));
+        out.val.resize(out.idx.len(), 1.0);
+    }
+
     /// Builds a tile coder, or names the setting that is out of range.
     pub fn new(vars: &[StateVar], tilings: u32, intervals: u32, hash: u32) -> Result<Self, FeatureError> {
         let bad = |f: &str, m: String| Err(FeatureError::Invalid(f.into(), m));
@@ -131,13 +151,22 @@ impl Features for TileCoder {
         let pow2 = self.hash.is_power_of_two();
         if self.hash > 0 && (1..=STACK_VARS).contains(&d) {
             // The common case without per-coordinate bounds checks: the same
-            // coordinates as `coord` below, zipped over the tiling's shifts.
-            let u = &stack[..d];
-            for (k, shifts) in (0u32..).zip(self.shift.chunks_exact(d)) {
-                let coords = u.iter().zip(shifts).map(|(&ui, &si)| ((ui + si) as u32).min(self.intervals));
-                let h = hash_coords(k, coords);
-                let index = if pow2 { h & u64::from(self.hash - 1) } else { h % u64::from(self.hash) };
-                out.push(index as u32, 1.0);
+            // coordinates as `coord` below, zipped over the tiling's shifts;
+            // up to four variables with the count known at compile time.
+            match d {
+                1 => self.hashed::<1>(&stack, pow2, out),
+                2 => self.hashed::<2>(&stack, pow2, out),
+                3 => self.hashed::<3>(&stack, pow2, out),
+                4 => self.hashed::<4>(&stack, pow2, out),
+                _ => {
+                    let u = &stack[..d];
+                    out.idx.extend((0u32..).zip(self.shift.chunks_exact(d)).map(|(k, shifts)| {
+                        let coords =
+                            u.iter().zip(shifts).map(|(&ui, &si)| ((ui + si) as u32).min(self.intervals));
+                        self.fold(hash_coords(k, coords), pow2)
+                    }));
+                    out.val.resize(out.idx.len(), 1.0);
+                }
             }
             return;
         }
