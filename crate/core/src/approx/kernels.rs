@@ -26,6 +26,11 @@ fn reduce(acc: [f64; LANES]) -> f64 {
 /// order (a fixed order, so the result does not depend on the platform).
 #[inline]
 pub fn dot(a: &[f64], b: &[f64]) -> f64 {
+    #[cfg(target_arch = "x86_64")]
+    if avx::enabled() {
+        // SAFETY: `enabled` is true only when the CPU has AVX.
+        return unsafe { avx::dot(a, b) };
+    }
     #[cfg(any(all(target_arch = "wasm32", target_feature = "simd128"), target_arch = "x86_64"))]
     return simd::dot(a, b);
     #[cfg(not(any(all(target_arch = "wasm32", target_feature = "simd128"), target_arch = "x86_64")))]
@@ -56,6 +61,11 @@ fn dot_portable(a: &[f64], b: &[f64]) -> f64 {
 /// of the row-major matrix `m`: the same bits as [`dot`] row by row, with
 /// four rows at a time sharing the loads of `x`.
 pub fn matvec(m: &[f64], x: &[f64], bias: &[f64], out: &mut [f64]) {
+    #[cfg(target_arch = "x86_64")]
+    if avx::enabled() {
+        // SAFETY: `enabled` is true only when the CPU has AVX.
+        return unsafe { avx::matvec(m, x, bias, out) };
+    }
     #[cfg(any(all(target_arch = "wasm32", target_feature = "simd128"), target_arch = "x86_64"))]
     simd::matvec(m, x, bias, out);
     #[cfg(not(any(all(target_arch = "wasm32", target_feature = "simd128"), target_arch = "x86_64")))]
@@ -112,6 +122,11 @@ fn matvec_portable(m: &[f64], x: &[f64], bias: &[f64], out: &mut [f64]) {
 /// each entry of `below` still receives its terms in row order, so the bits
 /// equal those of one row at a time.
 pub fn backprop_step(g: &[f64], c: &[f64], input: &[f64], m: &mut [f64], below: &mut [f64]) {
+    #[cfg(target_arch = "x86_64")]
+    if avx::enabled() {
+        // SAFETY: `enabled` is true only when the CPU has AVX.
+        return unsafe { avx::backprop_step(g, c, input, m, below) };
+    }
     #[cfg(any(all(target_arch = "wasm32", target_feature = "simd128"), target_arch = "x86_64"))]
     simd::backprop_step(g, c, input, m, below);
     #[cfg(not(any(all(target_arch = "wasm32", target_feature = "simd128"), target_arch = "x86_64")))]
@@ -182,6 +197,11 @@ pub fn norm_sq(x: &[f64]) -> f64 {
 pub fn tanh_in_place(x: &mut [f64]) {
     #[cfg(all(target_arch = "wasm32", target_feature = "simd128"))]
     return simd::tanh_in_place(x);
+    #[cfg(target_arch = "x86_64")]
+    if avx::enabled_avx2() {
+        // SAFETY: `enabled_avx2` is true only when the CPU has AVX2.
+        return unsafe { avx::tanh_in_place(x) };
+    }
     #[allow(unreachable_code)]
     for v in x.iter_mut() {
         *v = tanh(*v);
@@ -477,6 +497,242 @@ mod sse2 {
     }
 }
 
+/// The kernels of [`simd`] on four-lane f64 vectors (AVX, 256 bits), chosen
+/// at run time on x86-64 CPUs that have AVX. No fused multiply-add: each lane
+/// rounds the product and then the sum, as the two-lane code does. The four
+/// partial sums of [`dot`] and [`matvec`] are one vector here where they are
+/// two (`lo`, `hi`) there, added in the same order, and [`backprop_step`]
+/// works element by element, so the bits equal the two-lane and portable
+/// kernels' (tested below; tests/node compares native and WebAssembly runs).
+/// `CRITBOX_SIMD=sse2` in the environment keeps the two-lane kernels (to
+/// measure what the wide ones bring).
+#[cfg(target_arch = "x86_64")]
+mod avx {
+    use core::arch::x86_64::*;
+    use std::sync::atomic::{AtomicU8, Ordering};
+
+    /// 0: not yet decided, else as [`decide`] stores it.
+    static MODE: AtomicU8 = AtomicU8::new(0);
+
+    /// Whether the four-lane kernels are in use (decided once per process).
+    #[inline(always)]
+    pub fn enabled() -> bool {
+        match MODE.load(Ordering::Relaxed) {
+            0 => decide(),
+            m => m >= 2,
+        }
+    }
+
+    /// Whether the four-lane tanh is in use: it needs AVX2's 256-bit
+    /// integer operations for the power of two.
+    #[inline(always)]
+    pub fn enabled_avx2() -> bool {
+        match MODE.load(Ordering::Relaxed) {
+            0 => {
+                decide();
+                MODE.load(Ordering::Relaxed) == 3
+            }
+            m => m == 3,
+        }
+    }
+
+    /// 1: two lanes, 2: AVX, 3: AVX and AVX2.
+    #[cold]
+    fn decide() -> bool {
+        let narrow = std::env::var("CRITBOX_SIMD").is_ok_and(|v| v.eq_ignore_ascii_case("sse2"));
+        let wide = !narrow && std::is_x86_feature_detected!("avx");
+        let wider = wide && std::is_x86_feature_detected!("avx2");
+        MODE.store(if wider { 3 } else if wide { 2 } else { 1 }, Ordering::Relaxed);
+        wide
+    }
+
+    /// Four entries from `i` on.
+    #[inline(always)]
+    unsafe fn quad(x: &[f64], i: usize) -> __m256d {
+        let p: &[f64; 4] = x[i..i + 4].try_into().expect("four entries");
+        // SAFETY: `p` is 32 readable bytes; loadu needs no alignment; AVX is
+        // enabled in every caller.
+        unsafe { _mm256_loadu_pd(p.as_ptr()) }
+    }
+
+    #[inline(always)]
+    unsafe fn put(v: __m256d, out: &mut [f64], i: usize) {
+        let p: &mut [f64; 4] = (&mut out[i..i + 4]).try_into().expect("four entries");
+        // SAFETY: `p` is 32 writable bytes borrowed exclusively.
+        unsafe { _mm256_storeu_pd(p.as_mut_ptr(), v) }
+    }
+
+    /// `(l0 + l1) + (l2 + l3)`, the portable `reduce`.
+    #[inline(always)]
+    unsafe fn reduce(v: __m256d) -> f64 {
+        let mut l = [0.0f64; 4];
+        // SAFETY: `l` is 32 writable bytes.
+        unsafe { _mm256_storeu_pd(l.as_mut_ptr(), v) };
+        (l[0] + l[1]) + (l[2] + l[3])
+    }
+
+    /// # Safety
+    /// The CPU must have AVX ([`enabled`]).
+    #[target_feature(enable = "avx")]
+    pub unsafe fn dot(a: &[f64], b: &[f64]) -> f64 {
+        let n = a.len().min(b.len());
+        let body = n - n % 4;
+        let mut acc = _mm256_setzero_pd();
+        let mut i = 0;
+        while i < body {
+            // SAFETY: i + 4 <= n for both slices.
+            acc = _mm256_add_pd(acc, _mm256_mul_pd(unsafe { quad(a, i) }, unsafe { quad(b, i) }));
+            i += 4;
+        }
+        // SAFETY: AVX is enabled here.
+        let mut s = unsafe { reduce(acc) };
+        for i in body..n {
+            s += a[i] * b[i];
+        }
+        s
+    }
+
+    /// Rows `r .. r + R` of [`super::matvec`], R independent sums sharing the
+    /// loads of `x`.
+    #[inline(always)]
+    unsafe fn rows<const R: usize>(m: &[f64], x: &[f64], bias: &[f64], out: &mut [f64], r: usize) {
+        let n = x.len();
+        let body = n - n % 4;
+        let block = &m[r * n..(r + R) * n];
+        let mut acc = [_mm256_setzero_pd(); R];
+        let mut i = 0;
+        while i < body {
+            // SAFETY: i + 4 <= n; every row of the block has n entries.
+            let xv = unsafe { quad(x, i) };
+            for (q, a) in acc.iter_mut().enumerate() {
+                *a = _mm256_add_pd(*a, _mm256_mul_pd(unsafe { quad(block, q * n + i) }, xv));
+            }
+            i += 4;
+        }
+        for (q, a) in acc.into_iter().enumerate() {
+            // SAFETY: AVX is enabled in the caller.
+            let mut s = unsafe { reduce(a) };
+            for i in body..n {
+                s += block[q * n + i] * x[i];
+            }
+            out[r + q] = bias[r + q] + s;
+        }
+    }
+
+    /// # Safety
+    /// The CPU must have AVX ([`enabled`]).
+    #[target_feature(enable = "avx")]
+    pub unsafe fn matvec(m: &[f64], x: &[f64], bias: &[f64], out: &mut [f64]) {
+        let n = x.len();
+        let total = out.len();
+        let mut r = 0;
+        // Eight rows at a time keep eight sums in flight (the adds' latency).
+        while r + 8 <= total {
+            // SAFETY: AVX is enabled here.
+            unsafe { rows::<8>(m, x, bias, out, r) };
+            r += 8;
+        }
+        while r + 4 <= total {
+            // SAFETY: AVX is enabled here.
+            unsafe { rows::<4>(m, x, bias, out, r) };
+            r += 4;
+        }
+        for q in r..total {
+            // SAFETY: AVX is enabled here.
+            out[q] = bias[q] + unsafe { dot(&m[q * n..(q + 1) * n], x) };
+        }
+    }
+
+    /// # Safety
+    /// The CPU must have AVX ([`enabled`]).
+    #[target_feature(enable = "avx")]
+    pub unsafe fn backprop_step(g: &[f64], c: &[f64], input: &[f64], m: &mut [f64], below: &mut [f64]) {
+        let n = input.len();
+        let below = &mut below[..n];
+        let body = n - n % 4;
+        let total = g.len();
+        let mut r = 0;
+        while r + 4 <= total {
+            let gs = [g[r], g[r + 1], g[r + 2], g[r + 3]].map(|v| _mm256_set1_pd(v));
+            let cs = [c[r], c[r + 1], c[r + 2], c[r + 3]].map(|v| _mm256_set1_pd(v));
+            let block = &mut m[r * n..(r + 4) * n];
+            let mut i = 0;
+            while i < body {
+                // SAFETY: i + 4 <= n; every row of the block has n entries.
+                let x = unsafe { quad(input, i) };
+                let mut b = unsafe { quad(below, i) };
+                for q in 0..4 {
+                    let old = unsafe { quad(block, q * n + i) };
+                    b = _mm256_add_pd(b, _mm256_mul_pd(gs[q], old));
+                    unsafe { put(_mm256_add_pd(old, _mm256_mul_pd(cs[q], x)), block, q * n + i) };
+                }
+                unsafe { put(b, below, i) };
+                i += 4;
+            }
+            for i in body..n {
+                let x = input[i];
+                let mut b = below[i];
+                for q in 0..4 {
+                    let w = &mut block[q * n + i];
+                    b += g[r + q] * *w;
+                    *w += c[r + q] * x;
+                }
+                below[i] = b;
+            }
+            r += 4;
+        }
+        super::backprop_rows_from(r, g, c, input, m, below);
+    }
+
+    /// # Safety
+    /// The CPU must have AVX2 ([`enabled_avx2`]).
+    #[target_feature(enable = "avx2")]
+    pub unsafe fn tanh_in_place(x: &mut [f64]) {
+        let body = x.len() - x.len() % 4;
+        let mut i = 0;
+        while i < body {
+            // SAFETY: i + 4 <= len; AVX2 is enabled here.
+            unsafe { put(tanh4(quad(x, i)), x, i) };
+            i += 4;
+        }
+        for v in &mut x[body..] {
+            *v = super::tanh(*v);
+        }
+    }
+
+    /// [`super::tanh`] on four lanes, operation for operation.
+    #[target_feature(enable = "avx2")]
+    fn tanh4(x: __m256d) -> __m256d {
+        let sign_bit = _mm256_castsi256_pd(_mm256_set1_epi64x(i64::MIN));
+        let ax = _mm256_andnot_pd(sign_bit, x);
+        let twenty = _mm256_set1_pd(20.0);
+        // ax > 20 ? 20 : ax (a NaN compares false and stays).
+        let ax = _mm256_blendv_pd(ax, twenty, _mm256_cmp_pd::<_CMP_GT_OQ>(ax, twenty));
+        let y = _mm256_mul_pd(_mm256_set1_pd(2.0), ax);
+        let rounder = _mm256_set1_pd(super::ROUNDER);
+        let t = _mm256_add_pd(_mm256_mul_pd(y, _mm256_set1_pd(core::f64::consts::LOG2_E)), rounder);
+        let k = _mm256_sub_pd(t, rounder);
+        let r = _mm256_sub_pd(
+            _mm256_sub_pd(y, _mm256_mul_pd(k, _mm256_set1_pd(super::LN2_HI))),
+            _mm256_mul_pd(k, _mm256_set1_pd(super::LN2_LO)),
+        );
+        let z = _mm256_mul_pd(r, r);
+        let mut p = _mm256_set1_pd(super::P5);
+        for coef in [super::P4, super::P3, super::P2, super::P1] {
+            p = _mm256_add_pd(_mm256_set1_pd(coef), _mm256_mul_pd(z, p));
+        }
+        let u = _mm256_add_pd(_mm256_set1_pd(2.0), _mm256_mul_pd(z, p));
+        let ki = _mm256_sub_epi64(_mm256_castpd_si256(t), _mm256_set1_epi64x(super::ROUNDER.to_bits() as i64));
+        let s = _mm256_castsi256_pd(_mm256_slli_epi64::<52>(_mm256_add_epi64(ki, _mm256_set1_epi64x(1023))));
+        let one = _mm256_set1_pd(1.0);
+        let (sm, sp) = (_mm256_sub_pd(s, one), _mm256_add_pd(s, one));
+        let num = _mm256_add_pd(_mm256_mul_pd(sm, u), _mm256_mul_pd(sp, r));
+        let den = _mm256_add_pd(_mm256_mul_pd(sp, u), _mm256_mul_pd(sm, r));
+        let th = _mm256_div_pd(num, den);
+        _mm256_or_pd(th, _mm256_and_pd(x, sign_bit))
+    }
+}
+
 #[cfg(test)]
 mod tests {
     use super::*;
@@ -544,6 +800,61 @@ mod tests {
                 backprop_step(&g, &c, &x, &mut ma, &mut ba);
                 backprop_step_portable(&g, &c, &x, &mut mb, &mut bb);
                 assert_eq!((ma, ba), (mb, bb), "backprop n = {n}, rows = {rows}");
+            }
+        }
+    }
+
+    #[cfg(target_arch = "x86_64")]
+    #[test]
+    fn four_lane_kernels_give_the_portable_bits() {
+        // Common practice, no source: the AVX kernels (four f64 lanes, no
+        // fused multiply-add) give the bits of the portable loops and of the
+        // two-lane SSE2 kernels, for lengths and row counts around the block
+        // sizes (4 entries, 4 and 8 rows), with values of mixed magnitude so
+        // that a change of summation order would show.
+        if !std::is_x86_feature_detected!("avx") {
+            eprintln!("this CPU has no AVX: the four-lane kernels are not used here");
+            return;
+        }
+        for n in [1, 2, 3, 4, 5, 6, 7, 8, 9, 13, 16, 63, 64, 65] {
+            for rows in [1, 2, 3, 4, 5, 7, 8, 9, 12, 16, 17] {
+                let x: Vec<f64> = (0..n).map(|i| (i as f64 * 0.71).sin() * 10f64.powi(i as i32 % 7 - 3)).collect();
+                let m0: Vec<f64> = (0..rows * n).map(|i| (i as f64 * 0.23).cos() * 10f64.powi(i as i32 % 5 - 2)).collect();
+                let bias: Vec<f64> = (0..rows).map(|i| i as f64 * 0.3 - 1.0).collect();
+                let (mut wide, mut two, mut plain) = (vec![0.0; rows], vec![0.0; rows], vec![0.0; rows]);
+                // SAFETY: AVX was detected above.
+                unsafe { avx::matvec(&m0, &x, &bias, &mut wide) };
+                simd::matvec(&m0, &x, &bias, &mut two);
+                matvec_portable(&m0, &x, &bias, &mut plain);
+                let bits = |v: &[f64]| v.iter().map(|a| a.to_bits()).collect::<Vec<_>>();
+                assert_eq!(bits(&wide), bits(&plain), "matvec n = {n}, rows = {rows}");
+                assert_eq!(bits(&two), bits(&plain), "matvec n = {n}, rows = {rows}");
+                // SAFETY: AVX was detected above.
+                let d = unsafe { avx::dot(&m0[..n], &x) };
+                assert_eq!(d.to_bits(), dot_portable(&m0[..n], &x).to_bits(), "dot n = {n}");
+                let g: Vec<f64> = (0..rows).map(|i| (i as f64 * 1.3).sin()).collect();
+                let c: Vec<f64> = g.iter().map(|v| -0.02 * v).collect();
+                let (mut ma, mut mb) = (m0.clone(), m0.clone());
+                let (mut ba, mut bb) = (vec![0.25; n], vec![0.25; n]);
+                // SAFETY: AVX was detected above.
+                unsafe { avx::backprop_step(&g, &c, &x, &mut ma, &mut ba) };
+                backprop_step_portable(&g, &c, &x, &mut mb, &mut bb);
+                assert_eq!((bits(&ma), bits(&ba)), (bits(&mb), bits(&bb)), "backprop n = {n}, rows = {rows}");
+            }
+        }
+        if std::is_x86_feature_detected!("avx2") {
+            // The four-lane tanh gives the scalar tanh's bits, special values,
+            // the clamp at 20 and signed zeros included, for every remainder.
+            let mut xs: Vec<f64> = (-40_000..=40_000).map(|i| i as f64 * 6.1e-4).collect();
+            xs.extend([0.0, -0.0, 19.999, 20.0, 20.001, 700.0, -700.0, f64::MAX, f64::MIN_POSITIVE, 5e-324, -5e-324]);
+            xs.extend([f64::INFINITY, f64::NEG_INFINITY, f64::NAN, 1e-300, -1e-9, 0.5493, -0.5493]);
+            for cut in 0..4 {
+                let mut wide = xs[cut..].to_vec();
+                // SAFETY: AVX2 was detected just above.
+                unsafe { avx::tanh_in_place(&mut wide) };
+                for (got, &x) in wide.iter().zip(&xs[cut..]) {
+                    assert_eq!(got.to_bits(), tanh(x).to_bits(), "tanh({x:e})");
+                }
             }
         }
     }
