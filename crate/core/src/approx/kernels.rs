@@ -542,7 +542,16 @@ mod avx {
         let narrow = std::env::var("CRITBOX_SIMD").is_ok_and(|v| v.eq_ignore_ascii_case("sse2"));
         let wide = !narrow && std::is_x86_feature_detected!("avx");
         let wider = wide && std::is_x86_feature_detected!("avx2");
-        MODE.store(if wider { 3 } else if wide { 2 } else { 1 }, Ordering::Relaxed);
+        MODE.store(
+            if wider {
+                3
+            } else if wide {
+                2
+            } else {
+                1
+            },
+            Ordering::Relaxed,
+        );
         wide
     }
 
@@ -722,7 +731,8 @@ mod avx {
             p = _mm256_add_pd(_mm256_set1_pd(coef), _mm256_mul_pd(z, p));
         }
         let u = _mm256_add_pd(_mm256_set1_pd(2.0), _mm256_mul_pd(z, p));
-        let ki = _mm256_sub_epi64(_mm256_castpd_si256(t), _mm256_set1_epi64x(super::ROUNDER.to_bits() as i64));
+        let ki =
+            _mm256_sub_epi64(_mm256_castpd_si256(t), _mm256_set1_epi64x(super::ROUNDER.to_bits() as i64));
         let s = _mm256_castsi256_pd(_mm256_slli_epi64::<52>(_mm256_add_epi64(ki, _mm256_set1_epi64x(1023))));
         let one = _mm256_set1_pd(1.0);
         let (sm, sp) = (_mm256_sub_pd(s, one), _mm256_add_pd(s, one));
@@ -818,8 +828,10 @@ mod tests {
         }
         for n in [1, 2, 3, 4, 5, 6, 7, 8, 9, 13, 16, 63, 64, 65] {
             for rows in [1, 2, 3, 4, 5, 7, 8, 9, 12, 16, 17] {
-                let x: Vec<f64> = (0..n).map(|i| (i as f64 * 0.71).sin() * 10f64.powi(i as i32 % 7 - 3)).collect();
-                let m0: Vec<f64> = (0..rows * n).map(|i| (i as f64 * 0.23).cos() * 10f64.powi(i as i32 % 5 - 2)).collect();
+                let x: Vec<f64> =
+                    (0..n).map(|i| (i as f64 * 0.71).sin() * 10f64.powi(i as i32 % 7 - 3)).collect();
+                let m0: Vec<f64> =
+                    (0..rows * n).map(|i| (i as f64 * 0.23).cos() * 10f64.powi(i as i32 % 5 - 2)).collect();
                 let bias: Vec<f64> = (0..rows).map(|i| i as f64 * 0.3 - 1.0).collect();
                 let (mut wide, mut two, mut plain) = (vec![0.0; rows], vec![0.0; rows], vec![0.0; rows]);
                 // SAFETY: AVX was detected above.
@@ -846,7 +858,19 @@ mod tests {
             // The four-lane tanh gives the scalar tanh's bits, special values,
             // the clamp at 20 and signed zeros included, for every remainder.
             let mut xs: Vec<f64> = (-40_000..=40_000).map(|i| i as f64 * 6.1e-4).collect();
-            xs.extend([0.0, -0.0, 19.999, 20.0, 20.001, 700.0, -700.0, f64::MAX, f64::MIN_POSITIVE, 5e-324, -5e-324]);
+            xs.extend([
+                0.0,
+                -0.0,
+                19.999,
+                20.0,
+                20.001,
+                700.0,
+                -700.0,
+                f64::MAX,
+                f64::MIN_POSITIVE,
+                5e-324,
+                -5e-324,
+            ]);
             xs.extend([f64::INFINITY, f64::NEG_INFINITY, f64::NAN, 1e-300, -1e-9, 0.5493, -0.5493]);
             for cut in 0..4 {
                 let mut wide = xs[cut..].to_vec();
