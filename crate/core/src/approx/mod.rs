@@ -70,6 +70,14 @@ impl Sparse {
         self.val.push(v);
     }
 
+    /// Appends the indices, each with the value 1 (a binary code such as
+    /// tiles), in one go.
+    #[inline]
+    pub fn extend_ones(&mut self, indices: impl Iterator<Item = u32>) {
+        self.idx.extend(indices);
+        self.val.resize(self.idx.len(), 1.0);
+    }
+
     /// Squared Euclidean norm (duplicate indices count separately, as in a
     /// hashed code where they add up in the dot product too).
     pub fn norm_sq(&self) -> f64 {

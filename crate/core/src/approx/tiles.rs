@@ -58,12 +58,11 @@ impl TileCoder {
     #[inline(always)]
     fn hashed<const D: usize>(&self, u: &[f64; STACK_VARS], pow2: bool, out: &mut Sparse) {
         let u: &[f64; D] = u[..D].try_into().expect("D <= STACK_VARS");
-        out.idx.extend((0u32..).zip(self.shift.chunks_exact(D)).map(|(k, shifts)| {
+        out.extend_ones((0u32..).zip(self.shift.chunks_exact(D)).map(|(k, shifts)| {
             let shifts: &[f64; D] = shifts.try_into().expect("chunks of D");
             let coords = (0..D).map(|i| ((u[i] + shifts[i]) as u32).min(self.intervals));
             self.fold(hash_coords(k, coords), pow2)
         }));
-        out.val.resize(out.idx.len(), 1.0);
     }
 
     /// Builds a tile coder, or names the setting that is out of range.
@@ -160,12 +159,11 @@ impl Features for TileCoder {
                 4 => self.hashed::<4>(&stack, pow2, out),
                 _ => {
                     let u = &stack[..d];
-                    out.idx.extend((0u32..).zip(self.shift.chunks_exact(d)).map(|(k, shifts)| {
+                    out.extend_ones((0u32..).zip(self.shift.chunks_exact(d)).map(|(k, shifts)| {
                         let coords =
                             u.iter().zip(shifts).map(|(&ui, &si)| ((ui + si) as u32).min(self.intervals));
                         self.fold(hash_coords(k, coords), pow2)
                     }));
-                    out.val.resize(out.idx.len(), 1.0);
                 }
             }
             return;
