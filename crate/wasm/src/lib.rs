@@ -82,10 +82,20 @@ pub fn validate_config(json: &str) -> Result<String, JsError> {
     Ok(v.to_string())
 }
 
+/// `prefix.path`, or `prefix` alone for an empty path.
+fn join_path(prefix: &str, path: &str) -> String {
+    if path.is_empty() {
+        prefix.to_string()
+    } else {
+        format!("{prefix}.{path}")
+    }
+}
+
 fn task_of(json: &str) -> Result<Box<dyn Task>, JsError> {
     let v: serde_json::Value =
         serde_json::from_str(json).map_err(|e| JsError::new(&format!("task: not valid JSON: {e}")))?;
-    let cfg: TaskConfig = serde_json::from_value(v).map_err(|e| JsError::new(&format!("task: {e}")))?;
+    let cfg = TaskConfig::read(&v)
+        .map_err(|p| JsError::new(&format!("{}: {}", join_path("task", &p.path), p.message)))?;
     cfg.build().map_err(|e| JsError::new(&format!("task.{e}")))
 }
 
@@ -105,7 +115,8 @@ pub fn check_formula(text: &str, config_json: &str) -> Result<String, JsError> {
     let task = task_of(&v.get("task").cloned().unwrap_or(serde_json::Value::Null).to_string())?;
     let reward: critbox_core::reward::RewardConfig = match v.get("reward") {
         None => Default::default(),
-        Some(r) => serde_json::from_value(r.clone()).map_err(|e| JsError::new(&format!("reward: {e}")))?,
+        Some(r) => critbox_core::experiment::config::read_json(r, "reward")
+            .map_err(|p| JsError::new(&format!("{}: {}", p.path, p.message)))?,
     };
     Ok(critbox_core::reward::check_report(text, task.spec(), &reward).to_string())
 }

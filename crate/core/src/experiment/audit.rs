@@ -9,6 +9,7 @@
 use serde::Serialize;
 use serde_json::Value;
 
+use crate::experiment::config::read_json;
 use crate::experiment::Plan;
 use crate::learn::{Family, LearnerSetup};
 use crate::report::to_value;
@@ -60,7 +61,7 @@ pub struct VariantAudit {
 pub fn plan_audit(plan: &Plan) -> PlanAudit {
     let task = plan.make_task();
     let spec = task.spec();
-    let base_setup: LearnerSetup = serde_json::from_value(plan.config.base.clone()).unwrap_or_default();
+    let base_setup: LearnerSetup = read_json(&plan.config.base, "").unwrap_or_default();
     let base = objective(&base_setup, spec);
     let variants = plan
         .variants

@@ -39,8 +39,10 @@ pub const MAX_MASTER_SEED: u64 = (1 << 53) - 1;
 /// Longest accepted config text (bytes).
 pub const MAX_CONFIG_BYTES: usize = 256 * 1024;
 
-/// The task of an experiment.
-#[derive(Clone, Debug, PartialEq, Serialize, Deserialize)]
+/// The task of an experiment. Written as an object whose `kind` names the
+/// task and whose other fields are that task's settings; read by
+/// [`TaskConfig::read`], which names the field of a problem.
+#[derive(Clone, Debug, PartialEq, Serialize)]
 #[serde(tag = "kind", rename_all = "snake_case")]
 pub enum TaskConfig {
     /// A gridworld from a text map.
@@ -65,7 +67,65 @@ pub enum TaskConfig {
     Table(TableTaskConfig),
 }
 
+/// Every task `kind`, as written in a config.
+pub const TASK_KINDS: [&str; 10] = [
+    "grid",
+    "cartpole",
+    "mountain_car",
+    "pendulum",
+    "server",
+    "corridor",
+    "lqr",
+    "random_mdp",
+    "formula",
+    "table",
+];
+
 impl TaskConfig {
+    /// Reads a `task` object: its `kind`, then its other fields as that
+    /// kind's settings. A problem's path is relative to the task (`kind`,
+    /// `update.velocity`, `rows[3].from`; empty for the object itself).
+    ///
+    /// Each kind's settings are read by one route (the field-tracking reader
+    /// over a JSON value) wherever a task is read: the config, the task
+    /// editor's check and the page's own calls, so the WebAssembly carries
+    /// one copy of each settings reader.
+    pub fn read(task: &Value) -> Result<TaskConfig, Problem> {
+        let problem = |path: &str, message: String| Problem { path: path.into(), message };
+        let Some(obj) = task.as_object() else {
+            return Err(problem("", format!("must be an object with a `kind`, got {task}")));
+        };
+        let kind = match obj.get("kind") {
+            None => return Err(problem("", "missing field `kind`".into())),
+            Some(Value::String(k)) => k.as_str(),
+            Some(other) => {
+                return Err(problem("kind", format!("must be a string naming the task, got {other}")))
+            }
+        };
+        let mut rest = obj.clone();
+        rest.remove("kind");
+        let rest = Value::Object(rest);
+        Ok(match kind {
+            "grid" => TaskConfig::Grid(read_json(&rest, "")?),
+            "cartpole" => TaskConfig::Cartpole(read_json(&rest, "")?),
+            "mountain_car" => TaskConfig::MountainCar(read_json(&rest, "")?),
+            "pendulum" => TaskConfig::Pendulum(read_json(&rest, "")?),
+            "server" => TaskConfig::Server(read_json(&rest, "")?),
+            "corridor" => TaskConfig::Corridor(read_json(&rest, "")?),
+            "lqr" => TaskConfig::Lqr(read_json(&rest, "")?),
+            "random_mdp" => TaskConfig::RandomMdp(read_json(&rest, "")?),
+            "formula" => TaskConfig::Formula(read_json(&rest, "")?),
+            "table" => TaskConfig::Table(read_json(&rest, "")?),
+            other => {
+                let expected = TASK_KINDS.map(|k| format!("`{k}`")).join(", ");
+                return Err(problem(
+                    "kind",
+                    format!("unknown variant `{other}`, expected one of {expected}"),
+                ));
+            }
+        })
+    }
+
     /// Builds the task.
     pub fn build(&self) -> Result<Box<dyn Task>, TaskError> {
         Ok(match self {
@@ -292,6 +352,18 @@ impl Serialize for Evaluation {
             Evaluation::Off => s.serialize_bool(false),
             Evaluation::On(c) => c.serialize(s),
         }
+    }
+}
+
+impl<'de> Deserialize<'de> for TaskConfig {
+    /// Through [`TaskConfig::read`]; the message names the field when it is
+    /// inside the task (`update.velocity: ...`).
+    fn deserialize<D: serde::Deserializer<'de>>(d: D) -> Result<Self, D::Error> {
+        use serde::de::Error;
+        TaskConfig::read(&Value::deserialize(d)?).map_err(|p| match p.path.as_str() {
+            "" => D::Error::custom(p.message),
+            path => D::Error::custom(format!("{path}: {}", p.message)),
+        })
     }
 }
 
@@ -588,34 +660,20 @@ fn join(prefix: &str, rest: &str) -> String {
     }
 }
 
-fn deserialize<T: for<'de> Deserialize<'de>>(v: &Value, prefix: &str) -> Result<T, Problem> {
+/// Reads a JSON value as `T`, naming the field of a problem (`prefix`,
+/// then the path inside the value, as `reward.constants.k`). Callers read
+/// each type through this one route, so each type's reader is compiled once.
+pub fn read_json<T: for<'de> Deserialize<'de>>(v: &Value, prefix: &str) -> Result<T, Problem> {
     serde_path_to_error::deserialize(v).map_err(|e| {
         let path = join(prefix, &path_string(e.path()));
         Problem { path, message: e.into_inner().to_string() }
     })
 }
 
-/// The problem in a `task` object, with the path of its field, found by
-/// reading the object as the struct of its `kind`.
+/// The problem in a `task` object, with the path of its field from the
+/// config's root (`task.update.velocity`).
 fn task_problem(task: &Value) -> Option<Problem> {
-    fn as_kind<T: for<'de> Deserialize<'de>>(v: &Value) -> Option<Problem> {
-        let mut v = v.clone();
-        v.as_object_mut()?.remove("kind");
-        deserialize::<T>(&v, "task").err()
-    }
-    match task.get("kind")?.as_str()? {
-        "grid" => as_kind::<GridConfig>(task),
-        "cartpole" => as_kind::<CartPoleConfig>(task),
-        "mountain_car" => as_kind::<MountainCarConfig>(task),
-        "pendulum" => as_kind::<PendulumConfig>(task),
-        "server" => as_kind::<ServerConfig>(task),
-        "corridor" => as_kind::<CorridorConfig>(task),
-        "lqr" => as_kind::<LqrConfig>(task),
-        "random_mdp" => as_kind::<RandomMdpConfig>(task),
-        "formula" => as_kind::<FormulaTaskConfig>(task),
-        "table" => as_kind::<TableTaskConfig>(task),
-        _ => None,
-    }
+    TaskConfig::read(task).err().map(|p| Problem { path: join("task", &p.path), message: p.message })
 }
 
 /// The live check of a `task` object for the task editor: every problem
@@ -623,25 +681,16 @@ fn task_problem(task: &Value) -> Option<Problem> {
 /// for a formula task, each formula field's errors and the names it may use
 /// ([`TaskCheck`]).
 pub fn check_task(task: &Value) -> TaskCheck {
-    let relative = |p: Problem| {
-        let mut path = match p.path.strip_prefix("task.") {
-            Some(rest) => rest.to_string(),
-            None if p.path == "task" => String::new(),
-            None => p.path.clone(),
-        };
-        // serde names a missing field in its message only: put it in the path.
-        if let Some(field) = p.message.strip_prefix("missing field `").and_then(|m| m.split('`').next()) {
-            if path.is_empty() {
-                path = field.to_string();
-            }
-        }
-        Problem { path, message: p.message }
-    };
-    let cfg: TaskConfig = match deserialize(task, "task") {
+    let cfg = match TaskConfig::read(task) {
         Ok(c) => c,
-        Err(p) => {
-            let p = if p.path == "task" { task_problem(task).unwrap_or(p) } else { p };
-            return TaskCheck { ok: false, problems: vec![relative(p)], fields: Vec::new() };
+        Err(mut p) => {
+            // serde names a missing field in its message only: put it in the path.
+            if let Some(field) = p.message.strip_prefix("missing field `").and_then(|m| m.split('`').next()) {
+                if p.path.is_empty() {
+                    p.path = field.to_string();
+                }
+            }
+            return TaskCheck { ok: false, problems: vec![p], fields: Vec::new() };
         }
     };
     match &cfg {
@@ -746,7 +795,7 @@ pub fn validate_value(value: &Value) -> Result<Plan, ConfigError> {
     let mut notes = Vec::new();
     let modern = modernize(value, &mut notes)?;
     let value = &modern;
-    let config: Config = deserialize(value, "").map_err(|p| {
+    let config: Config = read_json(value, "").map_err(|p| {
         // The task is an internally tagged enum, whose errors lose the field
         // path: read it again as its own kind to name the field.
         let p = if p.path == "task" { task_problem(&value["task"]).unwrap_or(p) } else { p };
@@ -1173,6 +1222,32 @@ mod tests {
 
     fn errors(v: Value) -> String {
         validate_value(&v).unwrap_err().to_string()
+    }
+
+    #[test]
+    fn a_task_problem_names_its_field_on_every_route() {
+        // The task's reader names the field of a problem whichever way the
+        // task arrives: a whole config, the task editor's check, or the task
+        // read alone (common practice, no source).
+        let mut v = base_json();
+        v["task"]["kind"] = "gird".into();
+        let e = errors(v.clone());
+        assert!(e.contains("task.kind: unknown variant `gird`, expected one of `grid`, `cartpole`"), "{e}");
+        let check = check_task(&v["task"]);
+        assert_eq!((check.ok, check.problems[0].path.as_str()), (false, "kind"));
+        v["task"] = serde_json::json!({"kind": "grid", "map": ["#S.D#"], "slip": "much"});
+        let e = errors(v.clone());
+        assert!(e.contains("task.slip: invalid type: string \"much\""), "{e}");
+        let p = TaskConfig::read(&v["task"]).unwrap_err();
+        assert_eq!(p.path, "slip");
+        assert_eq!(TaskConfig::read(&serde_json::json!([1])).unwrap_err().path, "");
+        assert_eq!(
+            TaskConfig::read(&serde_json::json!({"map": []})).unwrap_err().message,
+            "missing field `kind`"
+        );
+        // And a task that reads is the one the serialiser wrote.
+        let task = TaskConfig::read(&base_json()["task"]).unwrap();
+        assert_eq!(TaskConfig::read(&serde_json::to_value(&task).unwrap()).unwrap(), task);
     }
 
     #[test]
