@@ -120,7 +120,7 @@ impl TaskConfig {
                 let expected = TASK_KINDS.map(|k| format!("`{k}`")).join(", ");
                 return Err(problem(
                     "kind",
-                    format!("unknown variant `{other}`, expected one of {expected}"),
+                    format!("unknown task kind `{other}`, expected one of {expected}"),
                 ));
             }
         })
@@ -1232,7 +1232,7 @@ mod tests {
         let mut v = base_json();
         v["task"]["kind"] = "gird".into();
         let e = errors(v.clone());
-        assert!(e.contains("task.kind: unknown variant `gird`, expected one of `grid`, `cartpole`"), "{e}");
+        assert!(e.contains("task.kind: unknown task kind `gird`, expected one of `grid`, `cartpole`"), "{e}");
         let check = check_task(&v["task"]);
         assert_eq!((check.ok, check.problems[0].path.as_str()), (false, "kind"));
         v["task"] = serde_json::json!({"kind": "grid", "map": ["#S.D#"], "slip": "much"});
