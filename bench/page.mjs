@@ -4,7 +4,10 @@
 // workers) runs every job of a config through the page's own worker pool
 // (web/js/pool.js, chunk 2000 steps as the page uses) and times it wall to wall,
 // with the time to the first progress message (workers started, wasm
-// instantiated from the module the page compiled, one chunk).
+// instantiated from the module the page compiled, one chunk) and the time
+// spent in Run.advance, summed over the workers and that of the busiest
+// worker (the wall time less the latter is start-up, batch changes and
+// messages).
 import { Pool } from '../web/js/pool.js';
 import { loadWasm } from '../web/js/wasm.js';
 
@@ -29,11 +32,15 @@ async function pool(configUrl, workers, chunk = 2000) {
   const jobs = plan.variants.length * plan.seeds;
   const ids = Array.from({ length: jobs }, (_, i) => i);
   const errors = [];
+  const advanceMs = [];
   const t0 = performance.now();
   let firstProgress = null;
   await new Promise((resolve) => {
     const p = new Pool({
-      onProgress: () => { if (firstProgress === null) firstProgress = (performance.now() - t0) / 1000; },
+      onProgress: (chunk, id) => {
+        advanceMs[id] = (advanceMs[id] || 0) + (chunk.advanceMs || 0);
+        if (firstProgress === null) firstProgress = (performance.now() - t0) / 1000;
+      },
       onError: (message) => errors.push(message),
       onPaused: () => {},
       onDone: () => resolve(),
@@ -42,7 +49,9 @@ async function pool(configUrl, workers, chunk = 2000) {
   });
   const seconds = (performance.now() - t0) / 1000;
   const steps = jobs * plan.steps;
-  return { workers, jobs, steps, seconds, steps_per_sec: steps / seconds, first_progress_seconds: firstProgress, errors };
+  return { workers, jobs, steps, seconds, steps_per_sec: steps / seconds, first_progress_seconds: firstProgress,
+    advance_seconds: advanceMs.reduce((a, b) => a + (b || 0), 0) / 1000,
+    advance_max_seconds: Math.max(0, ...advanceMs.map((b) => b || 0)) / 1000, errors };
 }
 
 // As on the page, the module is loaded (and compiled) on the main thread

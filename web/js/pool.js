@@ -25,7 +25,7 @@ export class Pool {
    *   onError(message, jobIds)  a trainer failed or died; jobIds are the jobs it leaves unfinished
    *   onPaused()                every trainer is idle (or finished) after pause()
    *   onDone()                  once, when every trainer is finished or dead
-   *   onProgress(chunk)         only without opts.results: each trainer chunk
+   *   onProgress(chunk, id)     only without opts.results: each trainer chunk, and the trainer's id
    * @param {object} [opts] {concurrency, results}
    */
   constructor(handlers, opts = {}) {
@@ -85,7 +85,7 @@ export class Pool {
       if (this.results) {
         await this.results.attach(slot.id, channel.port2);
       } else {
-        channel.port2.onmessage = (e) => { if (!this.closed) this.handlers.onProgress?.(e.data); };
+        channel.port2.onmessage = (e) => { if (!this.closed) this.handlers.onProgress?.(e.data, slot.id); };
       }
       if (this.closed) return; // cancelled while the ports were handed over
       if (slot.state === 'done') continue; // died meanwhile

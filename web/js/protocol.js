@@ -65,7 +65,8 @@ export const TRAIN = Object.freeze({
  * On a trainer's results port, one message per chunk:
  *   {type: PORT.chunk, seq: 1, 2, …, progress: Float64Array (PROGRESS_STRIDE),
  *    failures: [{job, reason}] (new since the last chunk),
- *    records: {kind: Float64Array}} (kinds with no new record left out; buffers transferred)
+ *    records: {kind: Float64Array}} (kinds with no new record left out; buffers transferred),
+ *    advanceMs: wall time of the chunk's Run.advance (the benchmark sums it; the results ignore it)}
  */
 export const PORT = Object.freeze({ chunk: 'port.chunk' });
 

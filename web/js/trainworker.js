@@ -122,7 +122,7 @@ function owned(arr) {
 }
 
 /** Post the chunk's progress, failures and records on the results port. */
-function send(job) {
+function send(job, advanceMs) {
   const progress = owned(job.run.progress());
   const records = {};
   const transfer = [progress.buffer];
@@ -134,7 +134,7 @@ function send(job) {
   const fresh = failures.slice(job.failuresSeen);
   job.failuresSeen = failures.length;
   job.seq += 1;
-  job.port.postMessage({ type: PORT.chunk, seq: job.seq, progress, failures: fresh, records }, transfer);
+  job.port.postMessage({ type: PORT.chunk, seq: job.seq, progress, failures: fresh, records, advanceMs }, transfer);
 }
 
 function step() {
@@ -148,8 +148,9 @@ function step() {
   try {
     const t0 = performance.now();
     finished = job.run.advance(job.chunk);
-    job.chunk = adaptChunk(job.chunk, performance.now() - t0);
-    send(job);
+    const ms = performance.now() - t0;
+    job.chunk = adaptChunk(job.chunk, ms);
+    send(job, ms);
   } catch (err) {
     job.busy = false;
     const left = [job.runIds, ...job.batches].flat();
