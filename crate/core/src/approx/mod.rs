@@ -387,12 +387,21 @@ impl FeatureCache {
 
     /// The slot holding `obs`'s features, computing them if needed without
     /// evicting slot `keep`.
+    #[inline]
     fn ensure(&mut self, obs: Obs<'_>, keep: Option<usize>) -> usize {
         self.clock += 1;
         if let Some(i) = self.find(obs) {
             self.used[i] = self.clock;
             return i;
         }
+        self.fill(obs, keep)
+    }
+
+    /// A miss: computes `obs`'s features into the least recently used slot
+    /// other than `keep`. Kept out of line, so the hit path stays small
+    /// enough to inline into its callers.
+    #[inline(never)]
+    fn fill(&mut self, obs: Obs<'_>, keep: Option<usize>) -> usize {
         let slot = (0..CACHE_SLOTS)
             .filter(|&i| Some(i) != keep)
             .min_by_key(|&i| self.used[i])

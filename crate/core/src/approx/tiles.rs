@@ -60,7 +60,15 @@ impl TileCoder {
         let u: &[f64; D] = u[..D].try_into().expect("D <= STACK_VARS");
         out.extend_ones((0u32..).zip(self.shift.chunks_exact(D)).map(|(k, shifts)| {
             let shifts: &[f64; D] = shifts.try_into().expect("chunks of D");
-            let coords = (0..D).map(|i| ((u[i] + shifts[i]) as u32).min(self.intervals));
+            // No `.min(intervals)` here: u lies in [0, intervals] and a shift in
+            // [0, 1 - 1/tilings], and with intervals and tilings at most 64
+            // (settings.rs) the sum stays below intervals + 1 after rounding,
+            // so truncating never passes intervals.
+            let coords = (0..D).map(|i| {
+                let c = (u[i] + shifts[i]) as u32;
+                debug_assert!(c <= self.intervals);
+                c
+            });
             self.fold(hash_coords(k, coords), pow2)
         }));
     }
@@ -231,5 +239,36 @@ mod tests {
         assert!(a.idx.iter().all(|&i| (i as usize) < 4096));
         assert!(TileCoder::new(&vars(4), 8, 64, 0).is_err());
         assert!(TileCoder::new(&vars(2), 0, 8, 0).is_err());
+    }
+
+    #[test]
+    fn the_unclamped_fast_path_gives_the_clamped_tiles_at_the_extremes() {
+        // The hashed fast path truncates without `.min(intervals)`; its indices
+        // must equal hashing the clamped coordinates (the definition) for the
+        // largest tilings and intervals the settings allow, at and just inside
+        // the range's ends. Common practice, no source.
+        let values = [-1.0, -1.0 + 1e-15, -0.5, 0.0, 1.0 - 1e-15, 1.0 - f64::EPSILON, 1.0, 3.0];
+        for (tilings, intervals) in [(64, 64), (64, 1), (1, 64), (7, 63), (8, 8)] {
+            for d in 1..=4 {
+                let t = TileCoder::new(&vars(d), tilings, intervals, 16).unwrap();
+                assert_eq!(t.dim(), 16, "hashed");
+                for &x in &values {
+                    let obs: Vec<f64> = (0..d).map(|i| if i % 2 == 0 { x } else { -x }).collect();
+                    let mut got = Sparse::default();
+                    t.compute(Obs { values: &obs, id: None }, &mut got);
+                    let want: Vec<u32> = (0..tilings)
+                        .map(|k| {
+                            let coords = (0..d).map(|i| {
+                                let u = ((obs[i] + 1.0) * f64::from(intervals) / 2.0)
+                                    .clamp(0.0, f64::from(intervals));
+                                ((u + t.shift[k as usize * d + i]).floor() as u32).min(intervals)
+                            });
+                            (hash_coords(k, coords) % 16) as u32
+                        })
+                        .collect();
+                    assert_eq!(got.idx, want, "tilings {tilings}, intervals {intervals}, d {d}, x {x}");
+                }
+            }
+        }
     }
 }
