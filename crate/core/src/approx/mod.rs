@@ -42,25 +42,39 @@ pub struct Obs<'a> {
     pub id: Option<usize>,
 }
 
-/// A sparse feature vector: parallel lists of indices and values.
-#[derive(Clone, Debug, Default, PartialEq)]
+/// A sparse feature vector: parallel lists of indices and values. Written
+/// only through [`Sparse::push`], [`Sparse::extend_ones`] and
+/// [`Sparse::clear`], which keep track of whether every value is 1.
+#[derive(Clone, Debug, Default)]
 pub struct Sparse {
     /// Indices of the non-zero features.
     pub idx: Vec<u32>,
     /// Their values.
     pub val: Vec<f64>,
+    /// Every value is exactly 1 (a binary code: tiles, a table). Then
+    /// `w * v` is `w` and `step * v` is `step` bit for bit, and the weight
+    /// loops read the indices only. False is always safe (the default).
+    ones: bool,
+}
+
+impl PartialEq for Sparse {
+    /// The same entries (how they were written does not matter).
+    fn eq(&self, other: &Self) -> bool {
+        self.idx == other.idx && self.val == other.val
+    }
 }
 
 impl Sparse {
     /// An empty vector with room for `n` entries.
     pub fn with_capacity(n: usize) -> Self {
-        Sparse { idx: Vec::with_capacity(n), val: Vec::with_capacity(n) }
+        Sparse { idx: Vec::with_capacity(n), val: Vec::with_capacity(n), ones: true }
     }
 
     /// Removes every entry (keeps the capacity).
     pub fn clear(&mut self) {
         self.idx.clear();
         self.val.clear();
+        self.ones = true;
     }
 
     /// Appends one entry.
@@ -68,6 +82,14 @@ impl Sparse {
     pub fn push(&mut self, i: u32, v: f64) {
         self.idx.push(i);
         self.val.push(v);
+        self.ones &= v == 1.0;
+    }
+
+    /// Whether every value is exactly 1, as far as this vector was written
+    /// through its methods.
+    #[inline]
+    pub fn is_binary(&self) -> bool {
+        self.ones
     }
 
     /// Appends the indices, each with the value 1 (a binary code such as
@@ -81,6 +103,11 @@ impl Sparse {
     /// Squared Euclidean norm (duplicate indices count separately, as in a
     /// hashed code where they add up in the dot product too).
     pub fn norm_sq(&self) -> f64 {
+        if self.ones && !self.idx.is_empty() {
+            // A sum of n ones is n exactly (n is far below 2^53); the empty
+            // sum stays on the general path, which gives -0.
+            return self.idx.len() as f64;
+        }
         self.val.iter().map(|v| v * v).sum()
     }
 }
@@ -315,6 +342,9 @@ impl Linear {
     #[inline]
     pub fn value(&self, k: usize, x: &Sparse) -> f64 {
         let block = &self.w[k * self.dim..(k + 1) * self.dim];
+        if x.is_binary() {
+            return x.idx.iter().map(|&i| block[i as usize]).sum();
+        }
         x.idx.iter().zip(&x.val).map(|(&i, &v)| block[i as usize] * v).sum()
     }
 
@@ -322,6 +352,12 @@ impl Linear {
     #[inline]
     pub fn add(&mut self, k: usize, step: f64, x: &Sparse) {
         let block = &mut self.w[k * self.dim..(k + 1) * self.dim];
+        if x.is_binary() {
+            for &i in &x.idx {
+                block[i as usize] += step;
+            }
+            return;
+        }
         for (&i, &v) in x.idx.iter().zip(&x.val) {
             block[i as usize] += step * v;
         }
@@ -561,9 +597,16 @@ impl Approx for LinearFn {
             // as `Linear::value`, so the values are the same bit for bit.
             let (w0, w1) = self.lin.w.split_at(self.lin.dim);
             let (mut s0, mut s1) = (-0.0, -0.0);
-            for (&i, &v) in x.idx.iter().zip(&x.val) {
-                s0 += w0[i as usize] * v;
-                s1 += w1[i as usize] * v;
+            if x.is_binary() {
+                for &i in &x.idx {
+                    s0 += w0[i as usize];
+                    s1 += w1[i as usize];
+                }
+            } else {
+                for (&i, &v) in x.idx.iter().zip(&x.val) {
+                    s0 += w0[i as usize] * v;
+                    s1 += w1[i as usize] * v;
+                }
             }
             (*o0, *o1) = (s0, s1);
             return &self.out;
@@ -596,9 +639,16 @@ impl Approx for LinearFn {
             // bit for bit.
             let (a0, a1) = (step * c0, step * c1);
             let (w0, w1) = self.lin.w.split_at_mut(self.lin.dim);
-            for (&i, &v) in x.idx.iter().zip(&x.val) {
-                w0[i as usize] += a0 * v;
-                w1[i as usize] += a1 * v;
+            if x.is_binary() {
+                for &i in &x.idx {
+                    w0[i as usize] += a0;
+                    w1[i as usize] += a1;
+                }
+            } else {
+                for (&i, &v) in x.idx.iter().zip(&x.val) {
+                    w0[i as usize] += a0 * v;
+                    w1[i as usize] += a1 * v;
+                }
             }
             let sq = 0.0 + c0 * c0 + c1 * c1;
             return Some(f64::sqrt(sq * x.norm_sq()));
@@ -731,6 +781,69 @@ mod tests {
         assert_eq!(l.value(0, &x), 0.0);
         assert_eq!(l.value(1, &x), 2.0 * 1.0 + 2.0 * 0.25);
         assert_eq!(l.w[5 + 1], 2.0);
+    }
+
+    #[test]
+    fn a_binary_code_reads_and_writes_the_same_bits_as_the_general_loops() {
+        // x * 1 and step * 1 are exact (IEEE 754-2019, Section 4.3: an
+        // operation whose exact result is representable returns it), so the
+        // index-only loops must give the general loops' bits. Weights with
+        // mixed magnitudes and signs; a duplicate index as hashing can give.
+        let w: Vec<f64> = (0..12).map(|i| (f64::from(i) - 5.5) * 1.37e-3 + f64::from(i % 3) * 1e8).collect();
+        let idx = [3u32, 7, 3, 0, 5];
+        let mut ones = Sparse::with_capacity(5);
+        ones.extend_ones(idx.iter().copied());
+        assert!(ones.is_binary());
+        let mut general = Sparse::with_capacity(6);
+        general.push(9, 0.5);
+        general.clear();
+        general.push(idx[0], 1.0);
+        assert!(general.is_binary());
+        general.push(11, 0.25);
+        assert!(!general.is_binary());
+        general.clear();
+        for &i in &idx {
+            general.push(i, 1.0);
+        }
+        // Written as ones, but flagged general: the slow path on the same entries.
+        general.ones = false;
+        assert_eq!(ones, general);
+        let bits = |v: &[f64]| v.iter().map(|x| x.to_bits()).collect::<Vec<_>>();
+        let obs = Obs { values: &[0.0], id: None };
+        for outputs in [1, 2, 3] {
+            let over = |x: &Sparse| {
+                let mut f = LinearFn::new(Box::new(Fixed(x.clone())), outputs);
+                f.lin.w = w.iter().cycle().take(12 * outputs).copied().collect();
+                f
+            };
+            let (mut a, mut b) = (over(&ones), over(&general));
+            for (coef, step) in [([0.3, -1.7, 2.5], 0.05), ([-2.0e-3, 4.0, -0.0], 1.0 / 3.0)] {
+                assert_eq!(bits(a.eval(obs)), bits(b.eval(obs)), "{outputs} outputs");
+                let (na, nb) =
+                    (a.sgd_step(obs, &coef[..outputs], step), b.sgd_step(obs, &coef[..outputs], step));
+                assert_eq!(na.map(f64::to_bits), nb.map(f64::to_bits));
+                assert_eq!(bits(&a.lin.w), bits(&b.lin.w), "{outputs} outputs");
+            }
+        }
+        assert_eq!(ones.norm_sq().to_bits(), general.norm_sq().to_bits());
+        let (mut e1, e2) = (Sparse::with_capacity(1), Sparse::default());
+        e1.clear();
+        assert_eq!(e1.norm_sq().to_bits(), e2.norm_sq().to_bits(), "the empty sum is -0 on both paths");
+    }
+
+    /// The same feature vector for every observation (as written, flag included).
+    struct Fixed(Sparse);
+
+    impl Features for Fixed {
+        fn dim(&self) -> usize {
+            12
+        }
+        fn max_active(&self) -> usize {
+            self.0.idx.len()
+        }
+        fn compute(&self, _obs: Obs<'_>, out: &mut Sparse) {
+            out.clone_from(&self.0);
+        }
     }
 
     /// One-hot features on the state id that count how often they are computed.
