@@ -611,6 +611,14 @@ impl Approx for LinearFn {
             (*o0, *o1) = (s0, s1);
             return &self.out;
         }
+        if x.is_binary() {
+            // Output by output over its own block of weights: the sums
+            // `Linear::value` adds, without slicing the block each time.
+            for (o, block) in self.out.iter_mut().zip(self.lin.w.chunks_exact(self.lin.dim)) {
+                *o = x.idx.iter().map(|&i| block[i as usize]).sum();
+            }
+            return &self.out;
+        }
         for k in 0..self.lin.outputs {
             self.out[k] = self.lin.value(k, x);
         }
@@ -653,7 +661,19 @@ impl Approx for LinearFn {
             let sq = 0.0 + c0 * c0 + c1 * c1;
             return Some(f64::sqrt(sq * x.norm_sq()));
         }
+        debug_assert_eq!(coef.len(), self.lin.outputs);
         let mut sq = 0.0;
+        if x.is_binary() {
+            // The additions `Linear::add` makes, output by output.
+            for (&c, block) in coef.iter().zip(self.lin.w.chunks_exact_mut(self.lin.dim)) {
+                sq += c * c;
+                let a = step * c;
+                for &i in &x.idx {
+                    block[i as usize] += a;
+                }
+            }
+            return Some(f64::sqrt(sq * x.norm_sq()));
+        }
         for (k, &c) in coef.iter().enumerate() {
             sq += c * c;
             self.lin.add(k, step * c, x);
