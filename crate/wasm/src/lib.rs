@@ -91,10 +91,8 @@ fn join_path(prefix: &str, path: &str) -> String {
     }
 }
 
-fn task_of(json: &str) -> Result<Box<dyn Task>, JsError> {
-    let v: serde_json::Value =
-        serde_json::from_str(json).map_err(|e| JsError::new(&format!("task: not valid JSON: {e}")))?;
-    let cfg = TaskConfig::read(&v)
+fn task_of(v: &serde_json::Value) -> Result<Box<dyn Task>, JsError> {
+    let cfg = TaskConfig::read(v)
         .map_err(|p| JsError::new(&format!("{}: {}", join_path("task", &p.path), p.message)))?;
     cfg.build().map_err(|e| JsError::new(&format!("task.{e}")))
 }
@@ -109,10 +107,10 @@ fn task_of(json: &str) -> Result<Box<dyn Task>, JsError> {
 /// task or the reward's mode/constants cannot be read.
 #[wasm_bindgen(js_name = checkFormula)]
 pub fn check_formula(text: &str, config_json: &str) -> Result<String, JsError> {
-    let v: serde_json::Value = serde_json::from_str(config_json).map_err(|e| {
+    let v = critbox_core::experiment::config::parse_json(config_json).map_err(|e| {
         JsError::new(&format!("not valid JSON at line {} column {}: {e}", e.line(), e.column()))
     })?;
-    let task = task_of(&v.get("task").cloned().unwrap_or(serde_json::Value::Null).to_string())?;
+    let task = task_of(v.get("task").unwrap_or(&serde_json::Value::Null))?;
     let reward: critbox_core::reward::RewardConfig = match v.get("reward") {
         None => Default::default(),
         Some(r) => critbox_core::experiment::config::read_json(r, "reward")
@@ -130,7 +128,7 @@ pub fn check_formula(text: &str, config_json: &str) -> Result<String, JsError> {
 /// with spans in UTF-16 code units. Throws only on text that is not JSON.
 #[wasm_bindgen(js_name = checkTask)]
 pub fn check_task(task_json: &str) -> Result<String, JsError> {
-    let v: serde_json::Value = serde_json::from_str(task_json).map_err(|e| {
+    let v = critbox_core::experiment::config::parse_json(task_json).map_err(|e| {
         JsError::new(&format!("task: not valid JSON at line {} column {}: {e}", e.line(), e.column()))
     })?;
     Ok(critbox_core::report::to_value(&critbox_core::experiment::config::check_task(&v)).to_string())

@@ -760,6 +760,15 @@ fn modernize(value: &Value, notes: &mut Vec<String>) -> Result<Value, ConfigErro
     }
 }
 
+/// JSON text as a [`Value`]. Every reading of JSON text into a value, in
+/// this crate and in the page's glue, goes through here, so the program holds
+/// one compiled copy of the JSON reader (a generic function is compiled again
+/// in each crate that instantiates it, and the copies are not merged).
+#[inline(never)]
+pub fn parse_json(text: &str) -> Result<Value, serde_json::Error> {
+    serde_json::from_str(text)
+}
+
 /// Parses and validates a config text.
 pub fn parse(text: &str) -> Result<Plan, ConfigError> {
     if text.len() > MAX_CONFIG_BYTES {
@@ -768,7 +777,7 @@ pub fn parse(text: &str) -> Result<Plan, ConfigError> {
             format!("config is {} bytes; at most {MAX_CONFIG_BYTES} are accepted", text.len()),
         ));
     }
-    let value: Value = serde_json::from_str(text).map_err(|e| {
+    let value = parse_json(text).map_err(|e| {
         ConfigError::one("", format!("not valid JSON at line {} column {}: {e}", e.line(), e.column()))
     })?;
     validate_value(&value)

@@ -186,7 +186,7 @@ impl std::error::Error for LoadError {}
 
 /// Rebuilds the plan and results from a results file's text.
 pub fn load(text: &str) -> Result<(Plan, Results), LoadError> {
-    let v: Value = serde_json::from_str(text).map_err(|e| LoadError::Json(e.to_string()))?;
+    let v = crate::experiment::config::parse_json(text).map_err(|e| LoadError::Json(e.to_string()))?;
     let field = |p: &str, m: &str| LoadError::Field(p.into(), m.into());
     if let Some(part) = v.get("critbox_part") {
         let n = |k: &str| part.get(k).and_then(Value::as_u64).map_or("?".into(), |x| x.to_string());

@@ -118,7 +118,7 @@ pub struct Part {
 
 /// Reads a partial results file, checking every field.
 pub fn read_part(text: &str) -> Result<Part, LoadError> {
-    let v: Value = serde_json::from_str(text).map_err(|e| {
+    let v = crate::experiment::config::parse_json(text).map_err(|e| {
         LoadError::Json(if e.is_eof() {
             format!("{e} (the file is cut short: truncated?)")
         } else {
