@@ -4,11 +4,14 @@
 //
 // Workers: min(navigator.hardwareConcurrency || 2, jobs). The job ids of a
 // run (all of them, or the unfinished ones when a run is finished later) are
-// put in seed-major order (seed 0 of every variant, then seed 1, ...) and
-// dealt round-robin over the workers; each worker trains its list in batches
-// of ceil(variants / workers) jobs, so every variant's curve grows from the
-// start and jobs finish batch by batch. Job ids follow the contract
-// job = variant_index * seeds + seed_index.
+// put in seed-major order (seed 0 of every variant, then seed 1, ...) and cut
+// into batches of ceil(variants / workers) jobs (fewer when few jobs are
+// left, so that every worker gets a batch), so every variant's curve
+// grows from the start and jobs finish batch by batch. Each worker starts
+// with one batch; the rest wait in a queue, and whichever worker finishes
+// first gets the next (TRAIN.need / TRAIN.more), so jobs that take longer
+// than others do not leave one core idle at the end. Job ids follow the
+// contract job = variant_index * seeds + seed_index.
 //
 // Each trainer gets a MessageChannel of its own for its chunks: one end goes
 // to the trainer, the other to the results (opts.results, a ResultsClient),
@@ -32,7 +35,8 @@ export class Pool {
     this.handlers = handlers;
     this.concurrency = opts.concurrency || navigator.hardwareConcurrency || 2;
     this.results = opts.results || null;
-    this.slots = []; // {id, link, jobIds, state: 'running'|'paused'|'done', sent}
+    this.slots = []; // {id, link, jobIds (every id it was given), state: 'running'|'paused'|'done', sent, waiting}
+    this.queue = []; // batches of job ids not yet given to a worker
     this.closed = false;
     this.epoch = 0; // counts pauses and resumes, so a late acknowledgement of an old pause is ignored
     this.pausing = false;
@@ -43,11 +47,11 @@ export class Pool {
     return Math.max(1, Math.min(concurrency, jobs));
   }
 
-  /** Deal the job ids round-robin over `workers` lists. */
-  static deal(ids, workers) {
-    const lists = Array.from({ length: workers }, () => []);
-    ids.forEach((j, k) => lists[k % workers].push(j));
-    return lists;
+  /** Cut the job ids into batches of `size`, in order. */
+  static batches(ids, size) {
+    const out = [];
+    for (let k = 0; k < ids.length; k += size) out.push(ids.slice(k, k + size));
+    return out;
   }
 
   /** Job ids in seed-major order (ids are offset + group * seeds + seed). */
@@ -66,9 +70,12 @@ export class Pool {
   async start(configJson, jobIds, chunk = 2000, shape = { variants: 1, seeds: 1 }, chosen = null) {
     const ids = Pool.seedMajor(jobIds, Math.max(1, shape.seeds), shape.offset || 0);
     const n = Pool.workerCount(ids.length, this.concurrency);
-    const batch = Math.max(1, Math.ceil(shape.variants / n));
-    for (const list of Pool.deal(ids, n)) {
-      const slot = { id: this.slots.length, link: null, jobIds: list, state: 'running', sent: 0 };
+    // At least one batch per worker, even when few jobs are left to run.
+    const batch = Math.max(1, Math.min(Math.ceil(shape.variants / n), Math.floor(ids.length / n)));
+    this.queue = Pool.batches(ids, batch);
+    const first = this.queue.splice(0, n);
+    for (const list of first) {
+      const slot = { id: this.slots.length, link: null, jobIds: list.slice(), state: 'running', sent: 0, waiting: false };
       this.slots.push(slot);
       try {
         slot.link = new WorkerClient('trainworker', `critbox-trainer-${slot.id}`);
@@ -77,6 +84,7 @@ export class Pool {
         continue;
       }
       slot.link.on(TRAIN.paused, ({ sent, epoch }) => this.#paused(slot, sent, epoch));
+      slot.link.on(TRAIN.need, ({ sent }) => this.#need(slot, sent));
       slot.link.on(TRAIN.done, ({ sent }) => { slot.sent = sent; this.#retire(slot); });
       slot.link.on(TRAIN.failed, ({ message, jobIds: left, sent }) => { slot.sent = sent; this.#fail(slot, message, left); });
       slot.link.on(POST_FAILED, ({ message }) => this.#fail(slot, message));
@@ -91,7 +99,7 @@ export class Pool {
       if (slot.state === 'done') continue; // died meanwhile
       // A pause asked before this trainer started holds it from its first chunk.
       const pause = this.pausing ? this.epoch : 0;
-      slot.link.post(TRAIN.start, { config: configJson, jobIds: list, chunk, batch, pause, chosen, port: channel.port1 }, [channel.port1]);
+      slot.link.post(TRAIN.start, { config: configJson, jobIds: list, chunk, batch, pause, chosen, more: true, port: channel.port1 }, [channel.port1]);
     }
     this.#checkDone();
   }
@@ -109,6 +117,7 @@ export class Pool {
     this.pausing = false;
     for (const s of this.slots) if (s.state === 'paused') s.state = 'running';
     this.#broadcast(TRAIN.resume);
+    for (const s of this.slots) if (s.waiting && s.state !== 'done') this.#feed(s);
   }
 
   /** [[trainer id, chunks sent]] as the trainers last said: what the results must have seen. */
@@ -142,6 +151,30 @@ export class Pool {
     for (const s of this.slots) if (s.link && s.state !== 'done') s.link.post(type, body);
   }
 
+  /** A trainer finished what it held: the next batch, unless pausing. */
+  #need(slot, sent) {
+    if (this.closed || slot.state === 'done') return;
+    slot.sent = sent;
+    slot.waiting = true;
+    if (this.pausing) {
+      // Fed on resume. It acknowledges the pause as well (it is idle).
+      slot.state = 'paused';
+      if (this.slots.every((s) => s.state !== 'running')) this.handlers.onPaused?.();
+      return;
+    }
+    this.#feed(slot);
+  }
+
+  /** Hand a waiting trainer the next batch, or none (it then says done). */
+  #feed(slot) {
+    if (this.closed || !slot.link) return;
+    const ids = this.queue.shift() || [];
+    slot.waiting = false;
+    slot.state = 'running';
+    slot.jobIds.push(...ids);
+    slot.link.post(TRAIN.more, { jobIds: ids });
+  }
+
   #paused(slot, sent, epoch) {
     if (this.closed || slot.state === 'done' || !this.pausing || epoch !== this.epoch) return;
     slot.sent = sent;
@@ -167,6 +200,11 @@ export class Pool {
   #checkDone() {
     if (this.closed || this.slots.length === 0) return;
     if (this.slots.every((s) => s.state === 'done')) {
+      // Every trainer failed or died with batches still queued: those jobs
+      // never started, and nothing is left to run them.
+      const left = this.queue.flat();
+      this.queue = [];
+      if (left.length) this.handlers.onError('no training worker is left to run these jobs', left);
       this.closed = true;
       this.handlers.onDone();
     } else if (this.pausing && this.slots.every((s) => s.state !== 'running')) {

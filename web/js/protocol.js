@@ -5,8 +5,8 @@
 // and Node tests import it too.
 //
 // Paths:
-//   page → trainer        TRAIN.start/pause/resume (posts), TRAIN.cancel (request)
-//   trainer → page        TRAIN.paused/done/failed (events, each with `sent`)
+//   page → trainer        TRAIN.start/pause/resume/more (posts), TRAIN.cancel (request)
+//   trainer → page        TRAIN.paused/need/done/failed (events, each with `sent`)
 //   trainer → results     PORT.chunk on a MessagePort of its own (MessageChannel)
 //   page → results        RESULTS.* requests; RESULTS.progress event back
 //   page → probe          PROBE.* requests; PROBE.progress event back
@@ -50,15 +50,19 @@ export const JOB = Object.freeze({ unfinished: 0, done: 1, failed: 2 });
  *   start  {config: JSON text, jobIds, chunk: steps per job per chunk, batch: jobs trained at once,
  *           chosen: each variant's chosen grid point for a study's fresh jobs, or null,
  *           pause: 0, or the epoch of a pause asked before the start, port: MessagePort (transferred)
- *           for PORT.chunk messages}
+ *           for PORT.chunk messages, more: true when the pool deals further jobs as trainers free up}
  *   pause {epoch}: stop after the chunk in progress; resume (no body)
+ *   more {jobIds}: the answer to `need`: the next jobs (cut into batches of the start's size), or none
  *   cancel (request) → {sent}: the Run is freed
  *   paused {sent, epoch}, done {sent}: every chunk up to `sent` is on the port; `epoch` is the pause's
+ *   need {sent}: (started with `more`) every job it was given is finished; it waits, idle, on the
+ *           same port (its chunk numbering goes on) for `more`; a pause is acknowledged at once
  *   failed {message, jobIds, sent}: the wasm module failed or threw; jobIds are the jobs it leaves unfinished
  */
 export const TRAIN = Object.freeze({
   start: 'train.start', pause: 'train.pause', resume: 'train.resume', cancel: 'train.cancel',
-  paused: 'train.paused', done: 'train.done', failed: 'train.failed',
+  more: 'train.more',
+  paused: 'train.paused', need: 'train.need', done: 'train.done', failed: 'train.failed',
 });
 
 /**

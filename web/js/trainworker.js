@@ -7,8 +7,11 @@
 // never change the numbers). When a batch is finished its Run is freed and
 // the next batch starts, so jobs finish batch by batch (a reload mid-run
 // keeps every finished job), while each batch holds one seed of several
-// variants, so all curves grow together. The page hears only the trainer's
-// state: paused, done, failed (messages in protocol.js, TRAIN).
+// variants, so all curves grow together. Started with `more`, it asks for
+// the next batch when it has none left (need) instead of finishing, and the
+// pool hands batches to whichever trainer is free first. The page hears only
+// the trainer's state: paused, need, done, failed (messages in protocol.js,
+// TRAIN).
 
 import { serve, emit, Reply } from './rpc.js';
 import { loadWasm, messageOf } from './wasm.js';
@@ -43,8 +46,10 @@ serve({
   [TRAIN.resume]: () => {
     if (!current || !current.paused) return;
     current.paused = false;
-    if (current.idle) { current.idle = false; schedule(); }
+    // A trainer waiting for work stays idle until the pool's `more`.
+    if (current.idle && !current.waiting) { current.idle = false; schedule(); }
   },
+  [TRAIN.more]: more,
   [TRAIN.cancel]: () => {
     const sent = current ? current.seq : 0;
     finish();
@@ -63,6 +68,7 @@ async function start(msg) {
   const job = {
     config: msg.config, chosen: Array.isArray(msg.chosen) ? msg.chosen : null, port: msg.port, batches, wasm: null, run: null, runIds: [],
     chunk, paused: !!msg.pause, idle: false, epoch: msg.pause || 0, busy: false, scheduled: false, failuresSeen: 0, seq: 0,
+    size, more: !!msg.more, waiting: false,
   };
   current = job;
   try {
@@ -74,9 +80,35 @@ async function start(msg) {
   }
   if (current !== job) return; // cancelled or replaced while loading
   if (!nextBatch(job)) {
-    if (current === job) { current = null; emit(TRAIN.done, { sent: job.seq }); }
+    if (current === job) outOfWork(job);
     return;
   }
+  schedule();
+}
+
+/** No batch left: ask for more (a trainer started with `more`), else done. */
+function outOfWork(job) {
+  if (job.more) {
+    job.waiting = true;
+    job.idle = true; // a pause is acknowledged at once
+    emit(TRAIN.need, { sent: job.seq });
+    return;
+  }
+  finish();
+  emit(TRAIN.done, { sent: job.seq });
+}
+
+/** The pool's answer to `need`: the next job ids, or none (then done). */
+function more({ jobIds }) {
+  const job = current;
+  if (!job || !job.waiting) return;
+  job.waiting = false;
+  const ids = Array.isArray(jobIds) ? jobIds : [];
+  if (ids.length === 0) { finish(); emit(TRAIN.done, { sent: job.seq }); return; }
+  for (let k = 0; k < ids.length; k += job.size) job.batches.push(ids.slice(k, k + job.size));
+  if (!nextBatch(job)) return; // failed, and said so
+  if (job.paused) return; // stays idle; resume schedules it
+  job.idle = false;
   schedule();
 }
 
@@ -160,7 +192,7 @@ function step() {
   }
   job.busy = false;
   if (finished && !nextBatch(job)) {
-    if (current === job) { finish(); emit(TRAIN.done, { sent: job.seq }); }
+    if (current === job) outOfWork(job);
     return;
   }
   if (job.paused) idle(job);
