@@ -44,13 +44,14 @@ pub struct Obs<'a> {
 
 /// A sparse feature vector: parallel lists of indices and values. Written
 /// only through [`Sparse::push`], [`Sparse::extend_ones`] and
-/// [`Sparse::clear`], which keep track of whether every value is 1.
+/// [`Sparse::clear`], which keep track of whether every value is 1 (the
+/// lists are private to `approx` so nothing else can write them).
 #[derive(Clone, Debug, Default)]
 pub struct Sparse {
     /// Indices of the non-zero features.
-    pub idx: Vec<u32>,
+    idx: Vec<u32>,
     /// Their values.
-    pub val: Vec<f64>,
+    val: Vec<f64>,
     /// Every value is exactly 1 (a binary code: tiles, a table). Then
     /// `w * v` is `w` and `step * v` is `step` bit for bit, and the weight
     /// loops read the indices only. False is always safe (the default).
@@ -85,8 +86,17 @@ impl Sparse {
         self.ones &= v == 1.0;
     }
 
-    /// Whether every value is exactly 1, as far as this vector was written
-    /// through its methods.
+    /// Indices of the non-zero features.
+    pub fn idx(&self) -> &[u32] {
+        &self.idx
+    }
+
+    /// Their values, in the same order.
+    pub fn val(&self) -> &[f64] {
+        &self.val
+    }
+
+    /// Whether every value is exactly 1.
     #[inline]
     pub fn is_binary(&self) -> bool {
         self.ones

@@ -128,7 +128,14 @@ fn episode(
             terminal: step.terminated,
             t: u64::from(t),
         });
-        out.push(Sample { idx: feat.idx.clone(), val: feat.val.clone(), probs, action: a, ret: 0.0, value });
+        out.push(Sample {
+            idx: feat.idx().to_vec(),
+            val: feat.val().to_vec(),
+            probs,
+            action: a,
+            ret: 0.0,
+            value,
+        });
         rewards.push(r);
         if step.terminated {
             break;
