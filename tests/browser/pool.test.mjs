@@ -97,3 +97,32 @@ test('pausing and resuming every few milliseconds, also while a trainer waits fo
   assert.deepEqual(problems, []);
   await page.close();
 });
+
+test('when every trainer fails, the jobs still queued are reported once, with the failed ones', { timeout: 120000 }, async () => {
+  const { page } = await openPage(env);
+  const cfg = await config(4, 1000);
+  // A task the core refuses: every trainer fails on its first batch.
+  const bad = { ...cfg, task: { ...cfg.task, kind: 'no-such-task' } };
+  const out = await page.evaluate(async (text) => {
+    const { Pool } = await import('/js/pool.js');
+    const errors = [];
+    let done = 0;
+    await new Promise((resolve) => {
+      const pool = new Pool({
+        onProgress: () => {},
+        onError: (message, ids) => errors.push({ message, ids: Array.from(ids) }),
+        onPaused: () => {},
+        onDone: () => { done += 1; resolve(); },
+      }, { concurrency: 2 });
+      pool.start(text, Array.from({ length: 12 }, (_, i) => i), 500, { variants: 3, seeds: 4 });
+    });
+    await new Promise((r) => setTimeout(r, 50));
+    return { errors, done };
+  }, JSON.stringify(bad));
+  assert.equal(out.done, 1, 'onDone once');
+  const reported = out.errors.flatMap((e) => e.ids).sort((a, b) => a - b);
+  assert.deepEqual(reported, Array.from({ length: 12 }, (_, i) => i), 'every job reported failed exactly once');
+  assert.ok(out.errors.some((e) => /no-such-task/.test(e.message)), JSON.stringify(out.errors.map((e) => e.message)));
+  assert.ok(out.errors.some((e) => /no training worker is left/.test(e.message)), 'the queued jobs are named too');
+  await page.close();
+});
