@@ -351,26 +351,23 @@ impl Linear {
     /// Output `k` at features `x`.
     #[inline]
     pub fn value(&self, k: usize, x: &Sparse) -> f64 {
-        let block = &self.w[k * self.dim..(k + 1) * self.dim];
-        if x.is_binary() {
-            return x.idx.iter().map(|&i| block[i as usize]).sum();
-        }
-        x.idx.iter().zip(&x.val).map(|(&i, &v)| block[i as usize] * v).sum()
+        block_value(&self.w[k * self.dim..(k + 1) * self.dim], x)
     }
 
     /// Adds `step * x` to output `k`'s weights.
     #[inline]
     pub fn add(&mut self, k: usize, step: f64, x: &Sparse) {
-        let block = &mut self.w[k * self.dim..(k + 1) * self.dim];
-        if x.is_binary() {
-            for &i in &x.idx {
-                block[i as usize] += step;
-            }
-            return;
-        }
-        for (&i, &v) in x.idx.iter().zip(&x.val) {
-            block[i as usize] += step * v;
-        }
+        block_add(&mut self.w[k * self.dim..(k + 1) * self.dim], step, x);
+    }
+
+    /// Each output's block of weights, in output order (a feature map has at
+    /// least one feature; `max(1)` only keeps a zero-length map from panicking).
+    fn blocks(&self) -> std::slice::ChunksExact<'_, f64> {
+        self.w.chunks_exact(self.dim.max(1))
+    }
+
+    fn blocks_mut(&mut self) -> std::slice::ChunksExactMut<'_, f64> {
+        self.w.chunks_exact_mut(self.dim.max(1))
     }
 
     /// Whether every weight is finite.
@@ -381,6 +378,30 @@ impl Linear {
 
 /// Number of feature vectors a [`FeatureCache`] keeps.
 const CACHE_SLOTS: usize = 3;
+
+/// `block · x` for one output's weights. A binary code reads the indices only
+/// (`w * 1` is `w`), the same sum in the same order.
+#[inline]
+fn block_value(block: &[f64], x: &Sparse) -> f64 {
+    if x.is_binary() {
+        return x.idx.iter().map(|&i| block[i as usize]).sum();
+    }
+    x.idx.iter().zip(&x.val).map(|(&i, &v)| block[i as usize] * v).sum()
+}
+
+/// `block += step * x` for one output's weights (`step * 1` is `step`).
+#[inline]
+fn block_add(block: &mut [f64], step: f64, x: &Sparse) {
+    if x.is_binary() {
+        for &i in &x.idx {
+            block[i as usize] += step;
+        }
+        return;
+    }
+    for (&i, &v) in x.idx.iter().zip(&x.val) {
+        block[i as usize] += step * v;
+    }
+}
 
 /// A small cache of feature vectors keyed by observation, least recently
 /// used out, so that the features of a state are computed once although the
@@ -444,8 +465,7 @@ impl FeatureCache {
     }
 
     /// A miss: computes `obs`'s features into the least recently used slot
-    /// other than `keep`. Kept out of line, so the hit path stays small
-    /// enough to inline into its callers.
+    /// other than `keep`. Kept out of line, so the hit path stays short.
     #[inline(never)]
     fn fill(&mut self, obs: Obs<'_>, keep: Option<usize>) -> usize {
         let slot = (0..CACHE_SLOTS)
@@ -621,16 +641,8 @@ impl Approx for LinearFn {
             (*o0, *o1) = (s0, s1);
             return &self.out;
         }
-        if x.is_binary() {
-            // Output by output over its own block of weights: the sums
-            // `Linear::value` adds, without slicing the block each time.
-            for (o, block) in self.out.iter_mut().zip(self.lin.w.chunks_exact(self.lin.dim)) {
-                *o = x.idx.iter().map(|&i| block[i as usize]).sum();
-            }
-            return &self.out;
-        }
-        for k in 0..self.lin.outputs {
-            self.out[k] = self.lin.value(k, x);
+        for (o, block) in self.out.iter_mut().zip(self.lin.blocks()) {
+            *o = block_value(block, x);
         }
         &self.out
     }
@@ -673,20 +685,9 @@ impl Approx for LinearFn {
         }
         debug_assert_eq!(coef.len(), self.lin.outputs);
         let mut sq = 0.0;
-        if x.is_binary() {
-            // The additions `Linear::add` makes, output by output.
-            for (&c, block) in coef.iter().zip(self.lin.w.chunks_exact_mut(self.lin.dim)) {
-                sq += c * c;
-                let a = step * c;
-                for &i in &x.idx {
-                    block[i as usize] += a;
-                }
-            }
-            return Some(f64::sqrt(sq * x.norm_sq()));
-        }
-        for (k, &c) in coef.iter().enumerate() {
+        for (&c, block) in coef.iter().zip(self.lin.blocks_mut()) {
             sq += c * c;
-            self.lin.add(k, step * c, x);
+            block_add(block, step * c, x);
         }
         Some(f64::sqrt(sq * x.norm_sq()))
     }
